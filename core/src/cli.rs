@@ -1,0 +1,92 @@
+//! The command line: one module per subcommand, each with its clap `Args` and a `run`.
+
+pub mod check;
+pub mod new;
+pub mod run;
+pub mod steps;
+
+use std::io::{IsTerminal, Write};
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+use crate::pipeline::RunError;
+use crate::progress::Progress;
+
+/// Exit code: success.
+pub const EXIT_OK: u8 = 0;
+/// Exit code: `--strict` and error-level findings.
+pub const EXIT_FINDINGS: u8 = 1;
+/// Exit code: bad input (recipe, data, output folder).
+pub const EXIT_BAD_INPUT: u8 = 2;
+/// Exit code: a step failed.
+pub const EXIT_STEP_FAILED: u8 = 3;
+
+/// popgauge: genetic-status assessments of managed and listed populations.
+///
+/// From genotypes sampled at several sites over several years, popgauge validates the data,
+/// estimates diversity and inbreeding, and writes machine-readable results with a provenance
+/// record an auditor can check. Start with `popgauge new my-case`, or run the demo:
+/// `popgauge run demo-case`.
+#[derive(Debug, Parser)]
+#[command(name = "popgauge", version, about, long_about, max_term_width = 100)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Run the assessment recipe of a case folder and write the output folder.
+    Run(run::Args),
+    /// Check a case's recipe and data without computing estimates.
+    Check(check::Args),
+    /// List the built-in steps with their parameters.
+    Steps(steps::Args),
+    /// Create a case folder with a commented recipe to fill in.
+    New(new::Args),
+}
+
+/// Runs a parsed command line.
+///
+/// # Errors
+/// Whatever the subcommand reports; [`exit_code_for`] maps it to an exit code.
+pub fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
+    match cli.command {
+        Command::Run(args) => run::run(args),
+        Command::Check(args) => check::run(args),
+        Command::Steps(args) => steps::run(args),
+        Command::New(args) => new::run(args),
+    }
+}
+
+/// The exit code for an error: 3 when a step failed, 2 for everything else (bad input).
+pub fn exit_code_for(error: &anyhow::Error) -> ExitCode {
+    match error.downcast_ref::<RunError>() {
+        Some(RunError::Engine(_)) => ExitCode::from(EXIT_STEP_FAILED),
+        _ => ExitCode::from(EXIT_BAD_INPUT),
+    }
+}
+
+/// Shows stage progress on stderr when it is a terminal and not silenced.
+pub struct StderrProgress {
+    enabled: bool,
+}
+
+impl StderrProgress {
+    /// Shows progress unless `quiet` or stderr is not a terminal.
+    pub fn new(quiet: bool) -> StderrProgress {
+        StderrProgress { enabled: !quiet && std::io::stderr().is_terminal() }
+    }
+}
+
+impl Progress for StderrProgress {
+    fn stage(&mut self, index: usize, total: usize, label: &str) {
+        if self.enabled {
+            let mut err = std::io::stderr().lock();
+            let _ = writeln!(err, "[{index}/{total}] {label}");
+        }
+    }
+}

@@ -1,0 +1,67 @@
+//! `popgauge run CASE`: the whole assessment.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use popgauge_abi::FindingLevel;
+
+use super::{EXIT_FINDINGS, StderrProgress};
+use crate::pipeline::{RunOptions, RunSummary, run_case};
+
+/// Arguments of `popgauge run`.
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The case folder (it holds case.toml and the data it names).
+    pub case: PathBuf,
+    /// Where to write the results [default: CASE/out].
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Replace the output folder if it exists (the old one is kept until the new one is complete).
+    #[arg(long)]
+    pub force: bool,
+    /// Exit with code 1 when any finding is at error level.
+    #[arg(long)]
+    pub strict: bool,
+    /// Let data paths in the recipe point outside the case folder.
+    #[arg(long)]
+    pub allow_outside: bool,
+    /// Show no progress.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Runs the assessment and prints where the results went.
+///
+/// # Errors
+/// Recipe, data, step or output errors, each naming file, line and fix.
+pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside };
+    let mut progress = StderrProgress::new(args.quiet);
+    let summary = run_case(&args.case, &options, &mut progress)?;
+    print_summary(&summary);
+    let errors = summary.findings_at_least(FindingLevel::Error).len();
+    if args.strict && errors > 0 {
+        eprintln!("error: {errors} finding(s) at error level and --strict was given; see results.json");
+        return Ok(ExitCode::from(EXIT_FINDINGS));
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn print_summary(summary: &RunSummary) {
+    let data = &summary.results.data;
+    println!(
+        "Assessed {} samples × {} loci in {} groups with {} steps.",
+        data.samples,
+        data.loci,
+        data.groups.len(),
+        summary.results.steps.len()
+    );
+    let warnings = summary.findings_at_least(FindingLevel::Warning);
+    let errors = warnings.iter().filter(|f| f.level == FindingLevel::Error).count();
+    println!("Findings: {errors} error(s), {} warning(s); they are listed in results.json.", warnings.len() - errors);
+    let tables = summary.provenance.outputs.iter().filter(|o| o.role == "table").count();
+    println!(
+        "Wrote {}: results.json, provenance.json and {tables} tables (tables/*.csv).",
+        summary.out.display()
+    );
+}

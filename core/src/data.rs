@@ -1,0 +1,232 @@
+//! Reading the case's data files into one genotype matrix and the population sheet.
+
+pub mod delimited;
+pub mod populations;
+pub mod wide_table;
+
+use std::collections::BTreeSet;
+
+use popgauge_abi::{Finding, GenotypeMatrix, PopulationInfo, Where};
+
+use crate::provenance::hash::{FileDigest, digest_bytes};
+use crate::recipe::{InputFile, Recipe};
+use crate::source::Location;
+
+/// Why a data file cannot be used.
+#[derive(Debug, thiserror::Error)]
+pub enum DataError {
+    /// The file cannot be read from disk.
+    #[error("{file}: cannot read the file: {source}\n  help: check that it exists and is readable")]
+    Unreadable {
+        /// File.
+        file: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// Nothing but white space.
+    #[error("{file}: the file is empty\n  help: export the table again; it needs a header row and one row per sample")]
+    Empty {
+        /// File.
+        file: String,
+    },
+    /// A NUL byte: not a text file.
+    #[error("{at}: the file contains NUL bytes, so it is not a text table\n  help: export it as CSV (comma, semicolon or tab separated) in UTF-8")]
+    Binary {
+        /// Where.
+        at: Location,
+    },
+    /// Bytes that are not UTF-8.
+    #[error("{at}: the text is not valid UTF-8\n  help: save the file as UTF-8 (for example \"CSV UTF-8\" in a spreadsheet's export dialog)")]
+    NotUtf8 {
+        /// Where.
+        at: Location,
+    },
+    /// Malformed quoting or similar.
+    #[error("{at}: the table cannot be parsed: {message}\n  help: check the quotes on that line")]
+    Csv {
+        /// Where.
+        at: Location,
+        /// The parser's words.
+        message: String,
+    },
+    /// A row of another width than the header.
+    #[error("{at}: the row has {found} cells but the header has {expected} columns\n  help: every row needs one cell per header column; check for a missing or extra delimiter")]
+    Ragged {
+        /// Where.
+        at: Location,
+        /// Header width.
+        expected: usize,
+        /// Row width.
+        found: usize,
+    },
+    /// A required column is absent.
+    #[error("{file}: required column `{column}` not found (columns: {found})\n  help: {help}")]
+    MissingColumn {
+        /// File.
+        file: String,
+        /// The column needed.
+        column: String,
+        /// The header as found, abbreviated.
+        found: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// Two header cells with the same name.
+    #[error("{at}: column `{column}` appears twice in the header (columns {first} and {second})\n  help: give every locus and metadata column its own name")]
+    DuplicateColumn {
+        /// Where.
+        at: Location,
+        /// The name.
+        column: String,
+        /// 1-based position of the first.
+        first: usize,
+        /// 1-based position of the second.
+        second: usize,
+    },
+    /// An `ignore_columns` entry that the file does not have.
+    #[error("{file}: `ignore_columns` names `{column}`, which is not a column of the file\n  help: {help}")]
+    UnknownIgnoredColumn {
+        /// File.
+        file: String,
+        /// The name.
+        column: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// No locus columns left.
+    #[error("{file}: the table has no locus columns\n  help: after `sample`, `population` and `year`, add one column per locus with cells like 152/156")]
+    NoLoci {
+        /// File.
+        file: String,
+    },
+    /// A header but no samples.
+    #[error("{file}: the table has a header but no samples\n  help: add one row per sample below the header")]
+    NoSamples {
+        /// File.
+        file: String,
+    },
+    /// A cell that must have a value is empty or malformed.
+    #[error("{at}: column `{column}` has \"{text}\": {problem}\n  help: {help}")]
+    BadField {
+        /// Where.
+        at: Location,
+        /// Column name.
+        column: String,
+        /// The cell text.
+        text: String,
+        /// What is wrong.
+        problem: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// The same sample id twice.
+    #[error("{at}: sample id \"{id}\" was already used on line {first_line}\n  help: give every sample a unique id; a re-sampled individual needs its own id (validate reports identical genotypes)")]
+    DuplicateSample {
+        /// Where.
+        at: Location,
+        /// The id.
+        id: String,
+        /// Line of the first use.
+        first_line: usize,
+    },
+    /// A malformed genotype cell with `strict = true`.
+    #[error("{at}: column `{column}`, cell \"{text}\": {problem}\n  help: fix the cell, or remove `strict = true` from [data] to treat bad cells as untyped findings")]
+    BadCell {
+        /// Where.
+        at: Location,
+        /// Locus column.
+        column: String,
+        /// The cell text.
+        text: String,
+        /// What is wrong.
+        problem: String,
+    },
+    /// More distinct alleles at a locus than codes can hold.
+    #[error("{file}: locus `{locus}` has more than 65535 distinct alleles\n  help: check that the column really holds genotypes")]
+    TooManyAlleles {
+        /// File.
+        file: String,
+        /// Locus.
+        locus: String,
+    },
+    /// Two rows of the population sheet name the same population.
+    #[error("{at}: population \"{population}\" is listed twice in the population sheet (first on line {first_line})\n  help: keep one row per population")]
+    DuplicatePopulation {
+        /// Where.
+        at: Location,
+        /// The name.
+        population: String,
+        /// First line.
+        first_line: usize,
+    },
+}
+
+/// Everything the data files hold, with the digests of the bytes actually read.
+#[derive(Debug)]
+pub struct LoadedData {
+    /// The genotype matrix.
+    pub matrix: GenotypeMatrix,
+    /// Findings made while reading (bad cells, sheet mismatches).
+    pub findings: Vec<Finding>,
+    /// Population sheet rows, sorted by population.
+    pub populations: Vec<PopulationInfo>,
+    /// Each data file with the digest of the bytes read.
+    pub digests: Vec<(InputFile, FileDigest)>,
+}
+
+/// Reads the genotypes and the population sheet a recipe names.
+///
+/// # Errors
+/// A [`DataError`] naming the file, line and column, with a `help:` line.
+pub fn load_data(recipe: &Recipe) -> Result<LoadedData, DataError> {
+    let spec = &recipe.data;
+    let mut digests = Vec::new();
+    let genotype_bytes = read_file(&spec.genotypes)?;
+    digests.push((spec.genotypes.clone(), digest_bytes(&genotype_bytes)));
+    let options = wide_table::WideOptions {
+        file: &spec.genotypes.relative,
+        missing: &spec.missing,
+        ignore_columns: &spec.ignore_columns,
+        strict: spec.strict,
+    };
+    let genotypes = wide_table::read_wide_table(&genotype_bytes, &options)?;
+    let mut findings = genotypes.findings;
+    let populations = match &spec.populations {
+        Some(file) => {
+            let bytes = read_file(file)?;
+            digests.push((file.clone(), digest_bytes(&bytes)));
+            let sheet = populations::read_population_sheet(&bytes, &file.relative)?;
+            findings.extend(sheet.findings);
+            findings.extend(cross_check(&genotypes.matrix, &sheet.populations, &file.relative));
+            sheet.populations
+        }
+        None => Vec::new(),
+    };
+    Ok(LoadedData { matrix: genotypes.matrix, findings, populations, digests })
+}
+
+fn read_file(file: &InputFile) -> Result<Vec<u8>, DataError> {
+    std::fs::read(&file.path).map_err(|source| DataError::Unreadable { file: file.relative.clone(), source })
+}
+
+/// Findings for populations in the sheet but not in the data, and the reverse.
+fn cross_check(matrix: &GenotypeMatrix, sheet: &[PopulationInfo], file: &str) -> Vec<Finding> {
+    let in_data: BTreeSet<&str> = matrix.samples().iter().map(|s| s.population.as_str()).collect();
+    let in_sheet: BTreeSet<&str> = sheet.iter().map(|p| p.population.as_str()).collect();
+    let mut findings = Vec::new();
+    for population in in_sheet.difference(&in_data) {
+        findings.push(Finding::warning(
+            "unknown-population",
+            format!("{file}: population \"{population}\" has no samples in the genotype table; its row is not used (check the spelling)"),
+            Where { file: Some(file.into()), population: Some(population.to_string()), ..Where::default() },
+        ));
+    }
+    for population in in_data.difference(&in_sheet) {
+        findings.push(Finding::info(
+            "population-not-in-sheet",
+            format!("{file}: population \"{population}\" has samples but no row in the population sheet; census size and coordinates are unknown for it"),
+            Where { file: Some(file.into()), population: Some(population.to_string()), ..Where::default() },
+        ));
+    }
+    findings
+}

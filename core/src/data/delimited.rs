@@ -1,0 +1,135 @@
+//! Text tables shared by the readers: encoding checks, delimiter detection, records with lines.
+
+use crate::data::DataError;
+use crate::source::Location;
+
+/// A delimited text table: its header and records, each with its 1-based physical line.
+#[derive(Debug)]
+pub struct DelimitedText {
+    /// Header cells, trimmed.
+    pub header: Vec<String>,
+    /// Records after the header: (line, cells trimmed).
+    pub records: Vec<(usize, Vec<String>)>,
+    /// The delimiter found.
+    pub delimiter: u8,
+}
+
+/// Decodes `bytes` as UTF-8 text (BOM dropped), refusing NUL bytes and invalid UTF-8 by line.
+///
+/// # Errors
+/// [`DataError::Empty`], [`DataError::Binary`] or [`DataError::NotUtf8`].
+pub fn decode(file: &str, bytes: &[u8]) -> Result<String, DataError> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    if bytes.iter().all(|b| b.is_ascii_whitespace()) {
+        return Err(DataError::Empty { file: file.into() });
+    }
+    if let Some(at) = bytes.iter().position(|&b| b == 0) {
+        return Err(DataError::Binary { at: line_of(file, bytes, at) });
+    }
+    match std::str::from_utf8(bytes) {
+        Ok(text) => Ok(text.to_string()),
+        Err(e) => Err(DataError::NotUtf8 { at: line_of(file, bytes, e.valid_up_to()) }),
+    }
+}
+
+fn line_of(file: &str, bytes: &[u8], offset: usize) -> Location {
+    Location::line(file, bytes[..offset].iter().filter(|&&b| b == b'\n').count() + 1)
+}
+
+/// The most frequent of comma, semicolon and tab on the header line (outside quotes); comma
+/// when none appears.
+pub fn detect_delimiter(text: &str) -> u8 {
+    let header = text.lines().next().unwrap_or("");
+    let mut counts = [(b',', 0usize), (b';', 0), (b'\t', 0)];
+    let mut quoted = false;
+    for c in header.bytes() {
+        if c == b'"' {
+            quoted = !quoted;
+        } else if !quoted {
+            if let Some(entry) = counts.iter_mut().find(|(d, _)| *d == c) {
+                entry.1 += 1;
+            }
+        }
+    }
+    // Ties go to the earlier entry (comma first), so the choice is deterministic.
+    counts.iter().rev().max_by_key(|(_, n)| *n).filter(|(_, n)| *n > 0).map_or(b',', |(d, _)| *d)
+}
+
+/// Splits decoded text into header and records, checking that every row has the header's width.
+///
+/// # Errors
+/// [`DataError::Csv`] for malformed quoting, [`DataError::Ragged`] for a row of another width.
+pub fn split_records(file: &str, text: &str) -> Result<DelimitedText, DataError> {
+    let delimiter = detect_delimiter(text);
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .delimiter(delimiter)
+        .from_reader(text.as_bytes());
+    let newlines: Vec<usize> = text.bytes().enumerate().filter(|(_, b)| *b == b'\n').map(|(i, _)| i).collect();
+    // The csv crate's positions include the line breaks (and blank lines) before a record, so
+    // the line is that of the record's first byte that is not a line break.
+    let bytes = text.as_bytes();
+    let line_at = |byte: u64| {
+        let mut at = byte as usize;
+        while at < bytes.len() && matches!(bytes[at], b'\r' | b'\n') {
+            at += 1;
+        }
+        newlines.partition_point(|&n| n < at) + 1
+    };
+    let mut header: Option<Vec<String>> = None;
+    let mut records = Vec::new();
+    for result in reader.records() {
+        let record = result.map_err(|e| csv_error(file, &e, &line_at))?;
+        let line = record.position().map_or(1, |p| line_at(p.byte()));
+        let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
+        if cells.iter().all(String::is_empty) {
+            continue; // blank line
+        }
+        match &header {
+            None => header = Some(cells),
+            Some(h) if h.len() != cells.len() => {
+                return Err(DataError::Ragged { at: Location::line(file, line), expected: h.len(), found: cells.len() });
+            }
+            Some(_) => records.push((line, cells)),
+        }
+    }
+    let header = header.ok_or_else(|| DataError::Empty { file: file.into() })?;
+    Ok(DelimitedText { header, records, delimiter })
+}
+
+fn csv_error(file: &str, error: &csv::Error, line_at: &dyn Fn(u64) -> usize) -> DataError {
+    let line = error.position().map_or(1, |p| line_at(p.byte()));
+    DataError::Csv { at: Location::line(file, line), message: error.to_string() }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn detects_delimiters() {
+        assert_eq!(detect_delimiter("sample;population;year\n"), b';');
+        assert_eq!(detect_delimiter("sample\tpopulation\tyear\n"), b'\t');
+        assert_eq!(detect_delimiter("sample,population,year\n"), b',');
+        assert_eq!(detect_delimiter("\"a;b\",c,d\n"), b',');
+        assert_eq!(detect_delimiter("single\n"), b',');
+    }
+
+    #[test]
+    fn decodes_bom_and_refuses_binary() {
+        assert_eq!(decode("f.csv", b"\xEF\xBB\xBFa,b\n").unwrap(), "a,b\n");
+        assert_eq!(decode("f.csv", b"a\nb\x00\n").unwrap_err().to_string().lines().next().unwrap(), "f.csv:2: the file contains NUL bytes, so it is not a text table");
+        assert!(matches!(decode("f.csv", b"a\n\xff\n"), Err(DataError::NotUtf8 { .. })));
+        assert!(matches!(decode("f.csv", b"  \n"), Err(DataError::Empty { .. })));
+    }
+
+    #[test]
+    fn splits_records_with_physical_lines() {
+        let t = split_records("f.csv", "a,b\r\n1,2\r\n\r\n3,4\r\n").unwrap();
+        assert_eq!(t.header, vec!["a", "b"]);
+        assert_eq!(t.records, vec![(2, vec!["1".to_string(), "2".to_string()]), (4, vec!["3".to_string(), "4".to_string()])]);
+        let err = split_records("f.csv", "a,b\n1,2\n3\n").unwrap_err();
+        assert_eq!(err.to_string().lines().next().unwrap(), "f.csv:3: the row has 1 cells but the header has 2 columns");
+    }
+}

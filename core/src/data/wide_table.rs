@@ -1,0 +1,329 @@
+//! The wide genotype table: one row per sample, `sample`, `population`, `year`, then one column
+//! per locus with cells `a/b`.
+//!
+//! Allele labels are interned per locus into codes 1, 2, … in order of first appearance; code 0
+//! is untyped. A malformed cell (one allele missing, one allele only, three alleles, a label
+//! with other characters or over 32 characters) becomes a finding naming line, column and text
+//! and is treated as untyped, unless `strict` turns it into an error.
+
+use std::collections::{BTreeMap, HashMap};
+
+use popgauge_abi::{AlleleCode, Finding, GenotypeMatrix, LocusMeta, MatrixError, SampleMeta, Where, did_you_mean};
+
+use super::DataError;
+use super::delimited::{DelimitedText, decode, split_records};
+use crate::source::Location;
+
+/// The metadata columns every wide table has.
+pub const REQUIRED_COLUMNS: [&str; 3] = ["sample", "population", "year"];
+
+/// Years outside this range are refused as typing errors.
+pub const YEAR_RANGE: std::ops::RangeInclusive<i32> = 1700..=2200;
+
+/// Longest allele label accepted.
+pub const MAX_LABEL_LEN: usize = 32;
+
+/// How to read a wide table.
+#[derive(Debug, Clone, Copy)]
+pub struct WideOptions<'a> {
+    /// File name for messages (relative to the case folder).
+    pub file: &'a str,
+    /// Cell spellings that mean untyped.
+    pub missing: &'a [String],
+    /// Columns to skip.
+    pub ignore_columns: &'a [String],
+    /// Bad cells are errors.
+    pub strict: bool,
+}
+
+/// A wide table read into a matrix, with the findings made on the way.
+#[derive(Debug)]
+pub struct WideTable {
+    /// The genotypes.
+    pub matrix: GenotypeMatrix,
+    /// Bad-cell findings, in file order.
+    pub findings: Vec<Finding>,
+}
+
+/// Reads a wide genotype table from raw bytes.
+///
+/// # Errors
+/// A [`DataError`] for structural problems (encoding, header, ragged rows, years, duplicate
+/// ids) and, with `strict`, for the first bad cell.
+pub fn read_wide_table(bytes: &[u8], options: &WideOptions<'_>) -> Result<WideTable, DataError> {
+    let text = decode(options.file, bytes)?;
+    let table = split_records(options.file, &text)?;
+    let layout = Layout::from_header(&table, options)?;
+    if table.records.is_empty() {
+        return Err(DataError::NoSamples { file: options.file.into() });
+    }
+    let mut builder = Builder::new(&layout, options);
+    for (line, cells) in &table.records {
+        builder.add_row(*line, cells)?;
+    }
+    builder.finish()
+}
+
+/// Where the metadata and loci sit in the header.
+struct Layout {
+    sample: usize,
+    population: usize,
+    year: usize,
+    /// (column index, locus name)
+    loci: Vec<(usize, String)>,
+}
+
+impl Layout {
+    fn from_header(table: &DelimitedText, options: &WideOptions<'_>) -> Result<Layout, DataError> {
+        let header = &table.header;
+        let mut first_seen: HashMap<&str, usize> = HashMap::new();
+        for (i, name) in header.iter().enumerate() {
+            if let Some(first) = first_seen.insert(name.as_str(), i) {
+                return Err(DataError::DuplicateColumn { at: Location::line(options.file, 1), column: name.clone(), first: first + 1, second: i + 1 });
+            }
+        }
+        for ignored in options.ignore_columns {
+            if !first_seen.contains_key(ignored.as_str()) {
+                let help = match did_you_mean(ignored, header.iter().map(String::as_str)) {
+                    Some(s) => format!("did you mean `{s}`? Otherwise remove it from `ignore_columns`"),
+                    None => "remove it from `ignore_columns`, or check the header row".into(),
+                };
+                return Err(DataError::UnknownIgnoredColumn { file: options.file.into(), column: ignored.clone(), help });
+            }
+        }
+        let find = |column: &str| {
+            first_seen.get(column).copied().ok_or_else(|| missing_column(options.file, column, header))
+        };
+        let (sample, population, year) = (find("sample")?, find("population")?, find("year")?);
+        let loci: Vec<(usize, String)> = header
+            .iter()
+            .enumerate()
+            .filter(|(_, name)| !REQUIRED_COLUMNS.contains(&name.as_str()) && !options.ignore_columns.contains(name))
+            .map(|(i, name)| (i, name.clone()))
+            .collect();
+        if let Some((i, _)) = loci.iter().find(|(_, name)| name.is_empty()) {
+            return Err(DataError::BadField {
+                at: Location::line(options.file, 1),
+                column: format!("#{}", i + 1),
+                text: String::new(),
+                problem: "a header cell is empty".into(),
+                help: "name every column; a locus column needs the locus name".into(),
+            });
+        }
+        if loci.is_empty() {
+            return Err(DataError::NoLoci { file: options.file.into() });
+        }
+        Ok(Layout { sample, population, year, loci })
+    }
+}
+
+fn missing_column(file: &str, column: &str, header: &[String]) -> DataError {
+    let shown: Vec<&str> = header.iter().take(6).map(String::as_str).collect();
+    let found = if header.len() > 6 { format!("{}, …", shown.join(", ")) } else { shown.join(", ") };
+    let help = match did_you_mean(column, header.iter().map(String::as_str)) {
+        Some(s) => format!("rename the column `{s}` to `{column}`, or fix the header row"),
+        None => format!("add a `{column}` column (the wide table needs sample, population and year), or fix the header row"),
+    };
+    DataError::MissingColumn { file: file.into(), column: column.into(), found, help }
+}
+
+/// What is wrong with a genotype cell.
+#[derive(Debug, Clone, PartialEq, Eq)]
+enum CellProblem {
+    OneAlleleMissing,
+    Haploid,
+    TooManyAlleles(usize),
+    BadLabel(String),
+    LongLabel(String),
+}
+
+impl CellProblem {
+    fn describe(&self) -> String {
+        match self {
+            CellProblem::OneAlleleMissing => "one allele missing".into(),
+            CellProblem::Haploid => "a single allele; diploid cells are written a/b".into(),
+            CellProblem::TooManyAlleles(n) => format!("{n} alleles; diploid cells have two"),
+            CellProblem::BadLabel(l) => format!("allele label \"{l}\" has characters other than letters, digits, `.`, `_` and `-`"),
+            CellProblem::LongLabel(l) => format!("allele label \"{l}\" is longer than {MAX_LABEL_LEN} characters"),
+        }
+    }
+
+    fn code(&self) -> &'static str {
+        match self {
+            CellProblem::OneAlleleMissing => "half-missing-genotype",
+            CellProblem::Haploid => "haploid-genotype",
+            CellProblem::TooManyAlleles(_) => "too-many-alleles",
+            CellProblem::BadLabel(_) | CellProblem::LongLabel(_) => "bad-allele-label",
+        }
+    }
+}
+
+/// A parsed cell: untyped, two labels, or a problem.
+#[derive(Debug, PartialEq, Eq)]
+enum ParsedCell<'t> {
+    Untyped,
+    Typed(&'t str, &'t str),
+    Bad(CellProblem),
+}
+
+fn is_missing_half(half: &str) -> bool {
+    matches!(half, "" | "." | "?" | "-" | "NA")
+}
+
+fn check_label(label: &str) -> Option<CellProblem> {
+    if label.chars().count() > MAX_LABEL_LEN {
+        return Some(CellProblem::LongLabel(label.into()));
+    }
+    let allowed = |c: char| c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-');
+    (!label.chars().all(allowed)).then(|| CellProblem::BadLabel(label.into()))
+}
+
+fn parse_cell<'t>(text: &'t str, missing: &[String]) -> ParsedCell<'t> {
+    if missing.iter().any(|m| m == text) {
+        return ParsedCell::Untyped;
+    }
+    let halves: Vec<&str> = text.split('/').map(str::trim).collect();
+    match halves.as_slice() {
+        [_] => ParsedCell::Bad(CellProblem::Haploid),
+        [a, b] => match (is_missing_half(a), is_missing_half(b)) {
+            (true, true) => ParsedCell::Untyped,
+            (true, false) | (false, true) => ParsedCell::Bad(CellProblem::OneAlleleMissing),
+            (false, false) => match check_label(a).or_else(|| check_label(b)) {
+                Some(problem) => ParsedCell::Bad(problem),
+                None => ParsedCell::Typed(a, b),
+            },
+        },
+        more => ParsedCell::Bad(CellProblem::TooManyAlleles(more.len())),
+    }
+}
+
+/// Accumulates rows into per-locus code columns.
+struct Builder<'a> {
+    layout: &'a Layout,
+    options: &'a WideOptions<'a>,
+    samples: Vec<SampleMeta>,
+    first_line: HashMap<String, usize>,
+    labels: Vec<(Vec<String>, HashMap<String, u16>)>,
+    codes: Vec<Vec<AlleleCode>>,
+    findings: Vec<Finding>,
+}
+
+impl<'a> Builder<'a> {
+    fn new(layout: &'a Layout, options: &'a WideOptions<'a>) -> Self {
+        let n = layout.loci.len();
+        Builder {
+            layout,
+            options,
+            samples: Vec::new(),
+            first_line: HashMap::new(),
+            labels: vec![(Vec::new(), HashMap::new()); n],
+            codes: vec![Vec::new(); n],
+            findings: Vec::new(),
+        }
+    }
+
+    fn add_row(&mut self, line: usize, cells: &[String]) -> Result<(), DataError> {
+        let meta = self.sample_meta(line, cells)?;
+        if let Some(first_line) = self.first_line.insert(meta.id.clone(), line) {
+            return Err(DataError::DuplicateSample { at: Location::line(self.options.file, line), id: meta.id, first_line });
+        }
+        for locus in 0..self.layout.loci.len() {
+            let (a, b) = self.genotype(line, &meta.id, locus, &cells[self.layout.loci[locus].0])?;
+            self.codes[locus].push(a);
+            self.codes[locus].push(b);
+        }
+        self.samples.push(meta);
+        Ok(())
+    }
+
+    fn sample_meta(&self, line: usize, cells: &[String]) -> Result<SampleMeta, DataError> {
+        let at = || Location::line(self.options.file, line);
+        let required = |index: usize, column: &str| -> Result<String, DataError> {
+            let text = &cells[index];
+            if text.is_empty() {
+                return Err(DataError::BadField { at: at(), column: column.into(), text: String::new(), problem: "the cell is empty".into(), help: format!("every sample needs a {column}") });
+            }
+            Ok(text.clone())
+        };
+        let id = required(self.layout.sample, "sample")?;
+        let population = required(self.layout.population, "population")?;
+        let year_text = required(self.layout.year, "year")?;
+        let year = match year_text.parse::<i32>() {
+            Ok(y) if YEAR_RANGE.contains(&y) => y,
+            Ok(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: format!("the year is outside {}–{}", YEAR_RANGE.start(), YEAR_RANGE.end()), help: "write the sampling year with four digits, for example 2021".into() }),
+            Err(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: "the year is not a whole number".into(), help: "write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)".into() }),
+        };
+        Ok(SampleMeta { id, population, year })
+    }
+
+    fn genotype(&mut self, line: usize, sample: &str, locus: usize, text: &str) -> Result<(AlleleCode, AlleleCode), DataError> {
+        match parse_cell(text, self.options.missing) {
+            ParsedCell::Untyped => Ok((AlleleCode::UNTYPED, AlleleCode::UNTYPED)),
+            ParsedCell::Typed(a, b) => Ok((self.intern(locus, a)?, self.intern(locus, b)?)),
+            ParsedCell::Bad(problem) => {
+                self.bad_cell(line, sample, locus, text, problem)?;
+                Ok((AlleleCode::UNTYPED, AlleleCode::UNTYPED))
+            }
+        }
+    }
+
+    fn bad_cell(&mut self, line: usize, sample: &str, locus: usize, text: &str, problem: CellProblem) -> Result<(), DataError> {
+        let file = self.options.file;
+        let column = self.layout.loci[locus].1.clone();
+        if self.options.strict {
+            return Err(DataError::BadCell { at: Location::line(file, line), column, text: text.into(), problem: problem.describe() });
+        }
+        let message = format!(
+            "{file} line {line}, column {column}, cell \"{text}\": {}; treated as untyped (set strict = true to stop instead)",
+            problem.describe()
+        );
+        let location = Where { file: Some(file.into()), line: Some(line as u64), column: Some(column), sample: Some(sample.into()), ..Where::default() };
+        self.findings.push(Finding::warning(problem.code(), message, location));
+        Ok(())
+    }
+
+    fn intern(&mut self, locus: usize, label: &str) -> Result<AlleleCode, DataError> {
+        let (labels, index) = &mut self.labels[locus];
+        if let Some(&code) = index.get(label) {
+            return Ok(AlleleCode(code));
+        }
+        let code = u16::try_from(labels.len() + 1).map_err(|_| DataError::TooManyAlleles {
+            file: self.options.file.into(),
+            locus: self.layout.loci[locus].1.clone(),
+        })?;
+        labels.push(label.to_string());
+        index.insert(label.to_string(), code);
+        Ok(AlleleCode(code))
+    }
+
+    fn finish(self) -> Result<WideTable, DataError> {
+        let loci: Vec<LocusMeta> = self
+            .layout
+            .loci
+            .iter()
+            .zip(self.labels)
+            .map(|((_, name), (alleles, _))| LocusMeta { name: name.clone(), alleles, chromosome: None })
+            .collect();
+        let codes: Vec<AlleleCode> = self.codes.into_iter().flatten().collect();
+        let matrix = GenotypeMatrix::new(self.samples, loci, codes).map_err(|e| match e {
+            MatrixError::TooManyAlleles { locus, .. } => DataError::TooManyAlleles { file: self.options.file.into(), locus },
+            // The builder writes exactly two codes per sample and locus, each interned above.
+            other => DataError::Csv { at: Location::file(self.options.file), message: format!("internal error: {other}") },
+        })?;
+        Ok(WideTable { matrix, findings: sort_findings(self.findings) })
+    }
+}
+
+/// Findings in file order (line, then column order of appearance is kept by a stable sort).
+fn sort_findings(mut findings: Vec<Finding>) -> Vec<Finding> {
+    findings.sort_by_key(|f| f.location.line);
+    findings
+}
+
+/// Counts of distinct labels per locus, for tests and summaries.
+pub fn allele_label_counts(matrix: &GenotypeMatrix) -> BTreeMap<String, usize> {
+    matrix.loci().iter().map(|l| (l.name.clone(), l.alleles.len())).collect()
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,149 @@
+//! Runs a recipe's steps in order over the loaded data.
+//!
+//! Each step sees a read-only view of the samples and loci still in play, its resolved
+//! parameters, its derived seed and the results of the steps before it. A step's filter
+//! narrows the view for every later step; the exclusions stay listed in its results.
+
+use std::collections::{BTreeSet, HashMap};
+
+use popgauge_abi::{AssessmentInfo, Filter, GenotypeView, Seed, StepContext, StepResult};
+
+use crate::data::LoadedData;
+use crate::progress::Progress;
+use crate::provenance::hash::{derive_seed, hash_canonical};
+use crate::recipe::Recipe;
+
+/// What the engine records about one step for the provenance record.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StepRun {
+    /// Step id.
+    pub id: String,
+    /// `uses` name.
+    pub uses: String,
+    /// Step version.
+    pub version: String,
+    /// Resolved parameters.
+    pub params: popgauge_abi::Params,
+    /// SHA-256 of the canonical parameters.
+    pub params_sha256: String,
+    /// Derived seed.
+    pub seed: Seed,
+    /// SHA-256 of the canonical result.
+    pub result_sha256: String,
+}
+
+/// All the engine produced.
+#[derive(Debug, Clone)]
+pub struct EngineOutput {
+    /// The assessment facts steps saw (recipe plus population sheet).
+    pub assessment: AssessmentInfo,
+    /// Results of each step, in recipe order.
+    pub results: Vec<StepResult>,
+    /// What provenance needs of each step.
+    pub runs: Vec<StepRun>,
+}
+
+/// Why the run stopped.
+#[derive(Debug, thiserror::Error)]
+pub enum EngineError {
+    /// A step could not produce results.
+    #[error("case.toml:{line}: step \"{id}\" (uses \"{uses}\") failed: {message}\n  help: {help}")]
+    StepFailed {
+        /// Step id.
+        id: String,
+        /// `uses` name.
+        uses: String,
+        /// Recipe line of the step.
+        line: usize,
+        /// The step's message.
+        message: String,
+        /// How to proceed.
+        help: String,
+    },
+}
+
+/// Runs every step of `recipe` over `data`.
+///
+/// # Errors
+/// [`EngineError::StepFailed`] when a step returns an error or an unusable result.
+pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress) -> Result<EngineOutput, EngineError> {
+    let mut assessment = recipe.assessment.clone();
+    assessment.populations = data.populations.clone();
+    let mut active = ActiveSet::all(data);
+    let mut results: Vec<StepResult> = Vec::with_capacity(recipe.steps.len());
+    let mut runs = Vec::with_capacity(recipe.steps.len());
+    let total = recipe.steps.len();
+    for (index, planned) in recipe.steps.iter().enumerate() {
+        progress.stage(index + 1, total, &format!("{} ({})", planned.id, planned.uses));
+        let fail = |message: String, help: &str| EngineError::StepFailed {
+            id: planned.id.clone(),
+            uses: planned.uses.clone(),
+            line: planned.line,
+            message,
+            help: help.into(),
+        };
+        let seed = derive_seed(assessment.seed, &planned.id);
+        let ctx = StepContext {
+            view: GenotypeView::new(&data.matrix, &active.samples, &active.loci),
+            params: &planned.params,
+            seed,
+            earlier: &results,
+            assessment: &assessment,
+            input_findings: &data.findings,
+        };
+        let descriptor = planned.step.descriptor();
+        let output = planned
+            .step
+            .run(&ctx)
+            .map_err(|e| fail(e.message, "check the step's findings and parameters; a step that cannot run on these data stops the assessment"))?;
+        for (name, table) in &output.tables {
+            table.check_rectangular().map_err(|e| fail(format!("table `{name}`: {e}"), "this is a defect in the step; report it to its author"))?;
+        }
+        active.apply(&data.matrix, &output.filter).map_err(|e| fail(e, "this is a defect in the step; report it to its author"))?;
+        let result = StepResult::from_output(&planned.id, &descriptor, output);
+        runs.push(StepRun {
+            id: planned.id.clone(),
+            uses: planned.uses.clone(),
+            version: descriptor.version.clone(),
+            params: planned.params.clone(),
+            params_sha256: hash_canonical(&planned.params).unwrap_or_default(),
+            seed,
+            result_sha256: hash_canonical(&result).unwrap_or_default(),
+        });
+        results.push(result);
+    }
+    Ok(EngineOutput { assessment, results, runs })
+}
+
+/// The matrix indices of the samples and loci still in play.
+struct ActiveSet {
+    samples: Vec<usize>,
+    loci: Vec<usize>,
+}
+
+impl ActiveSet {
+    fn all(data: &LoadedData) -> ActiveSet {
+        ActiveSet { samples: data.matrix.all_sample_indices(), loci: data.matrix.all_locus_indices() }
+    }
+
+    fn apply(&mut self, matrix: &popgauge_abi::GenotypeMatrix, filter: &Filter) -> Result<(), String> {
+        let sample_index: HashMap<&str, usize> = matrix.samples().iter().enumerate().map(|(i, s)| (s.id.as_str(), i)).collect();
+        let locus_index: HashMap<&str, usize> = matrix.loci().iter().enumerate().map(|(i, l)| (l.name.as_str(), i)).collect();
+        let drop_samples = names_to_indices(&filter.samples, &sample_index, "sample")?;
+        let drop_loci = names_to_indices(&filter.loci, &locus_index, "locus")?;
+        self.samples.retain(|i| !drop_samples.contains(i));
+        self.loci.retain(|i| !drop_loci.contains(i));
+        Ok(())
+    }
+}
+
+fn names_to_indices(
+    exclusions: &[popgauge_abi::Exclusion],
+    index: &HashMap<&str, usize>,
+    kind: &str,
+) -> Result<BTreeSet<usize>, String> {
+    exclusions
+        .iter()
+        .map(|e| index.get(e.name.as_str()).copied().ok_or_else(|| format!("its filter names {kind} \"{}\", which the data do not have", e.name)))
+        .collect()
+}

@@ -1,0 +1,6 @@
+//! Provenance: hashing, and the record of what went in, what ran and what came out.
+
+pub mod hash;
+pub mod record;
+
+pub use record::ProvenanceRecord;

@@ -1,0 +1,118 @@
+//! The provenance record (`provenance.json`): what went in, what ran, what came out.
+
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+use popgauge_abi::Params;
+
+/// Schema identifier written into every record.
+pub const PROVENANCE_SCHEMA: &str = "popgauge.provenance/1";
+
+/// The tool that made the record.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ToolBuild {
+    /// Always `popgauge`.
+    pub name: String,
+    /// Semantic version.
+    pub version: String,
+    /// Target triple parts: architecture and operating system.
+    pub target: String,
+    /// `release` or `debug`.
+    pub profile: String,
+}
+
+impl ToolBuild {
+    /// This build.
+    pub fn current() -> ToolBuild {
+        ToolBuild {
+            name: "popgauge".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            target: format!("{}-{}", std::env::consts::ARCH, std::env::consts::OS),
+            profile: if cfg!(debug_assertions) { "debug" } else { "release" }.into(),
+        }
+    }
+}
+
+/// A file read or written, with its size and SHA-256.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct FileEntry {
+    /// What the file is (`recipe`, `genotypes`, `populations`, `results`, `table`).
+    pub role: String,
+    /// Path relative to the case folder (inputs) or the output folder (outputs).
+    pub path: String,
+    /// Size in bytes.
+    pub size: u64,
+    /// Lower-case hex SHA-256 of the bytes.
+    pub sha256: String,
+}
+
+/// One step as it ran.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StepEntry {
+    /// Recipe id.
+    pub id: String,
+    /// `uses` name.
+    pub uses: String,
+    /// Step version.
+    pub version: String,
+    /// SHA-256 of an external plugin library; null for built-in steps.
+    pub plugin_sha256: Option<String>,
+    /// Resolved parameters (defaults filled in).
+    pub params: Params,
+    /// SHA-256 of the canonical parameters.
+    pub params_sha256: String,
+    /// The step's derived seed.
+    pub seed: u64,
+    /// SHA-256 of the step's canonical result (its entry in results.json).
+    pub result_sha256: String,
+}
+
+/// Facts about the assessment.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct AssessmentEntry {
+    /// Title.
+    pub title: String,
+    /// Assessment date printed on the document.
+    pub date: String,
+    /// True when the recipe gave no date and the run date was used.
+    pub date_defaulted: bool,
+    /// Master seed.
+    pub seed: u64,
+}
+
+/// When and by whom the run was made.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RunEntry {
+    /// Start, RFC 3339 UTC.
+    pub started: String,
+    /// End, RFC 3339 UTC.
+    pub ended: String,
+}
+
+/// The whole record.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "popgauge provenance record (provenance.json)")]
+pub struct ProvenanceRecord {
+    /// `popgauge.provenance/1`.
+    pub schema: String,
+    /// The tool build.
+    pub tool: ToolBuild,
+    /// The assessment.
+    pub assessment: AssessmentEntry,
+    /// The run.
+    pub run: RunEntry,
+    /// The recipe file.
+    pub recipe: FileEntry,
+    /// The data files.
+    pub inputs: Vec<FileEntry>,
+    /// The steps in run order.
+    pub steps: Vec<StepEntry>,
+    /// Every output file except this record.
+    pub outputs: Vec<FileEntry>,
+}

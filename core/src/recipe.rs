@@ -1,0 +1,185 @@
+//! The assessment recipe (`case.toml`): parsed strictly, then resolved into typed settings.
+//!
+//! Parsing happens twice (STYLE.md): [`raw`] keeps spans so that every message names a line;
+//! [`resolve`] fills defaults, checks paths against the case folder, resolves each `uses` name
+//! and validates each step's parameters against its descriptor before anything runs.
+
+pub mod raw;
+pub mod resolve;
+
+use std::fmt;
+use std::path::PathBuf;
+
+use popgauge_abi::{AssessmentInfo, ParamError, Params, Step};
+
+use crate::source::Location;
+
+pub use resolve::load_recipe;
+
+/// The name of the recipe file inside a case folder.
+pub const RECIPE_FILE: &str = "case.toml";
+
+/// Cell spellings that mean "not typed" unless the recipe says otherwise.
+pub const DEFAULT_MISSING: [&str; 3] = ["", "NA", "./."];
+
+/// Ne thresholds used when the recipe gives none (Franklin 1980; Soulé 1980).
+pub const DEFAULT_THRESHOLDS: [f64; 2] = [50.0, 500.0];
+
+/// Master seed used when the recipe gives none (recorded in the provenance like any other).
+pub const DEFAULT_SEED: u64 = 1;
+
+/// A file the assessment reads.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct InputFile {
+    /// What the file is for (`recipe`, `genotypes`, `populations`).
+    pub role: String,
+    /// The path as written in the recipe (relative to the case folder).
+    pub relative: String,
+    /// The path on disk.
+    pub path: PathBuf,
+}
+
+/// The `[data]` section, resolved.
+#[derive(Debug, Clone)]
+pub struct DataSpec {
+    /// The wide genotype table.
+    pub genotypes: InputFile,
+    /// The optional population sheet.
+    pub populations: Option<InputFile>,
+    /// Cell spellings that mean "not typed".
+    pub missing: Vec<String>,
+    /// Columns that are neither metadata nor loci.
+    pub ignore_columns: Vec<String>,
+    /// Bad cells are errors instead of findings.
+    pub strict: bool,
+}
+
+/// A step ready to run.
+#[derive(Clone)]
+pub struct PlannedStep {
+    /// The recipe's id.
+    pub id: String,
+    /// The `uses` name.
+    pub uses: String,
+    /// The implementation.
+    pub step: &'static dyn Step,
+    /// Parameters with defaults filled in.
+    pub params: Params,
+    /// Line of the `[[step]]` header in the recipe.
+    pub line: usize,
+}
+
+impl fmt::Debug for PlannedStep {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("PlannedStep")
+            .field("id", &self.id)
+            .field("uses", &self.uses)
+            .field("params", &self.params)
+            .finish()
+    }
+}
+
+/// The `[report]` section, resolved.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportSpec {
+    /// `standard` or a template folder relative to the case.
+    pub template: String,
+    /// Ne thresholds, ascending.
+    pub thresholds: Vec<f64>,
+}
+
+/// A recipe with defaults filled in and every reference checked.
+#[derive(Debug, Clone)]
+pub struct Recipe {
+    /// The case folder.
+    pub case_dir: PathBuf,
+    /// The recipe file itself.
+    pub recipe_file: InputFile,
+    /// Facts for steps and the document (the population sheet is added when data load).
+    pub assessment: AssessmentInfo,
+    /// True when the recipe gave no date and today's was used.
+    pub date_defaulted: bool,
+    /// The data section.
+    pub data: DataSpec,
+    /// Steps in run order.
+    pub steps: Vec<PlannedStep>,
+    /// The report section.
+    pub report: ReportSpec,
+}
+
+impl Recipe {
+    /// Every input file: the recipe, the genotypes and the population sheet when given.
+    pub fn input_files(&self) -> Vec<&InputFile> {
+        let mut files = vec![&self.recipe_file, &self.data.genotypes];
+        files.extend(self.data.populations.as_ref());
+        files
+    }
+}
+
+/// Why a recipe cannot be used.
+#[derive(Debug, thiserror::Error)]
+pub enum RecipeError {
+    /// The case folder or recipe cannot be read.
+    #[error("{path}: cannot read the recipe: {source}\n  help: give a case folder that contains {RECIPE_FILE} (`popgauge new DIR` writes one)")]
+    Unreadable {
+        /// The path tried.
+        path: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// TOML syntax or a value of the wrong type.
+    #[error("{at}: {message}\n  help: {help}")]
+    Syntax {
+        /// Where.
+        at: Location,
+        /// What the parser said.
+        message: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// A key the recipe format does not have.
+    #[error("{at}: unknown key `{key}`\n  help: {}", unknown_key_help(suggestion.as_deref(), expected))]
+    UnknownKey {
+        /// Where.
+        at: Location,
+        /// The key written.
+        key: String,
+        /// The closest known key.
+        suggestion: Option<String>,
+        /// Keys allowed there.
+        expected: Vec<String>,
+    },
+    /// A value that parses but makes no sense.
+    #[error("{at}: {message}\n  help: {help}")]
+    Invalid {
+        /// Where.
+        at: Location,
+        /// What is wrong.
+        message: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// A step's parameters do not fit its descriptor.
+    #[error("{at}: {error} for step \"{step}\" (uses \"{uses}\")\n  help: {}", error.help())]
+    Params {
+        /// Where.
+        at: Location,
+        /// Step id.
+        step: String,
+        /// Step `uses`.
+        uses: String,
+        /// What the descriptor refused.
+        error: ParamError,
+    },
+}
+
+fn unknown_key_help(suggestion: Option<&str>, expected: &[String]) -> String {
+    match suggestion {
+        Some(s) => format!("did you mean `{s}`?"),
+        None if expected.is_empty() => "remove it; see the commented recipe that `popgauge new DIR` writes".into(),
+        None => format!(
+            "keys allowed here: {}",
+            expected.iter().map(|k| format!("`{k}`")).collect::<Vec<_>>().join(", ")
+        ),
+    }
+}

@@ -1,0 +1,120 @@
+//! The recipe as written: serde types with spans, parsed strictly (unknown keys are errors).
+
+use std::collections::BTreeMap;
+
+use schemars::JsonSchema;
+use serde::Deserialize;
+use toml::Spanned;
+
+/// `case.toml` as written.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "popgauge recipe (case.toml)")]
+pub struct RawRecipe {
+    /// Facts printed on the document.
+    #[schemars(with = "RawAssessment")]
+    pub assessment: Spanned<RawAssessment>,
+    /// The data files.
+    #[schemars(with = "RawData")]
+    pub data: Spanned<RawData>,
+    /// The steps, in the order they run.
+    #[serde(default, rename = "step")]
+    #[schemars(with = "Vec<RawStep>")]
+    pub steps: Vec<Spanned<RawStep>>,
+    /// How the document is typeset.
+    #[serde(default)]
+    pub report: Option<RawReport>,
+}
+
+/// `[assessment]`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawAssessment {
+    /// Document title (free text).
+    pub title: String,
+    /// Species assessed.
+    pub species: String,
+    /// Person responsible for the assessment.
+    #[serde(default)]
+    pub assessor: Option<String>,
+    /// Organisation.
+    #[serde(default)]
+    pub organisation: Option<String>,
+    /// Assessment date printed on the document, `YYYY-MM-DD`; default: today (recorded).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub date: Option<Spanned<String>>,
+    /// Generation time in years, to turn years into generations.
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub generation_time_years: Option<Spanned<f64>>,
+    /// Master seed; each step derives its own from it and the step id.
+    #[serde(default)]
+    #[schemars(with = "Option<u64>")]
+    pub seed: Option<Spanned<i64>>,
+}
+
+/// `[data]`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawData {
+    /// Wide genotype table (CSV), relative to the case folder.
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub genotypes: Option<Spanned<String>>,
+    /// VCF file (not read by this version).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub vcf: Option<Spanned<String>>,
+    /// Sample sheet for a VCF (`sample,population,year`).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub samples: Option<Spanned<String>>,
+    /// Population sheet (optional CSV).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub populations: Option<Spanned<String>>,
+    /// Cell spellings that mean "not typed"; default `["", "NA", "./."]`.
+    #[serde(default)]
+    pub missing: Option<Vec<String>>,
+    /// Columns that are neither metadata nor loci.
+    #[serde(default)]
+    pub ignore_columns: Option<Vec<String>>,
+    /// Turn bad cells into errors instead of findings.
+    #[serde(default)]
+    pub strict: Option<bool>,
+}
+
+/// One `[[step]]`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawStep {
+    /// Unique id; names the step's results.
+    #[schemars(with = "String")]
+    pub id: Spanned<String>,
+    /// A built-in step name, or `plugin:relative/path/lib.so`.
+    #[schemars(with = "String")]
+    pub uses: Spanned<String>,
+    /// SHA-256 of an external plugin library (required for `plugin:` steps).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub sha256: Option<Spanned<String>>,
+    /// The step's parameters; `popgauge steps` lists them.
+    #[serde(default)]
+    #[schemars(with = "Option<BTreeMap<String, serde_json::Value>>")]
+    pub params: Option<BTreeMap<Spanned<String>, Spanned<toml::Value>>>,
+}
+
+/// `[report]`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawReport {
+    /// `standard` or a path to a template folder in the case.
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub template: Option<Spanned<String>>,
+    /// Ne thresholds, e.g. `[50, 500]` or `[100, 1000]`.
+    #[serde(default)]
+    #[schemars(with = "Option<Vec<f64>>")]
+    pub thresholds: Option<Spanned<Vec<f64>>>,
+}

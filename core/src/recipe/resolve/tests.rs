@@ -1,0 +1,106 @@
+use super::*;
+
+const MINIMAL: &str = r#"[assessment]
+title = "T"
+species = "S"
+date = "2026-11-30"
+seed = 7
+
+[data]
+genotypes = "g.csv"
+
+[[step]]
+id = "qc"
+uses = "validate"
+[step.params]
+max_missing_locus = 0.1
+"#;
+
+fn case_with(recipe: &str) -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("case.toml"), recipe).unwrap();
+    std::fs::write(dir.path().join("g.csv"), "sample,population,year,L1\ns1,N,2020,1/2\n").unwrap();
+    dir
+}
+
+fn error_of(recipe: &str) -> String {
+    let dir = case_with(recipe);
+    load_recipe(dir.path(), false).unwrap_err().to_string()
+}
+
+#[test]
+fn resolves_defaults_and_parameters() {
+    let dir = case_with(MINIMAL);
+    let recipe = load_recipe(dir.path(), false).unwrap();
+    assert_eq!(recipe.assessment.date, "2026-11-30");
+    assert_eq!(recipe.assessment.seed, 7);
+    assert_eq!(recipe.report.thresholds, vec![50.0, 500.0]);
+    assert_eq!(recipe.data.missing, vec!["", "NA", "./."]);
+    let step = &recipe.steps[0];
+    assert_eq!((step.id.as_str(), step.uses.as_str(), step.line), ("qc", "validate", 10));
+    assert_eq!(step.params["max_missing_locus"], serde_json::json!(0.1));
+    assert_eq!(step.params["min_group_size"], serde_json::json!(5));
+}
+
+#[test]
+fn unknown_keys_name_the_line_and_suggest() {
+    let text = MINIMAL.replace("species = \"S\"", "species = \"S\"\ntitel = \"x\"");
+    assert_eq!(error_of(&text), "case.toml:4:1: unknown key `titel`\n  help: did you mean `title`?");
+}
+
+#[test]
+fn unknown_parameters_name_the_line_and_suggest() {
+    let text = MINIMAL.replace("max_missing_locus", "max_mising_locus");
+    assert_eq!(
+        error_of(&text),
+        "case.toml:14:1: unknown parameter `max_mising_locus` for step \"qc\" (uses \"validate\")\n  help: did you mean `max_missing_locus`? `popgauge steps` lists each step's parameters"
+    );
+}
+
+#[test]
+fn out_of_range_parameters_are_refused() {
+    let text = MINIMAL.replace("max_missing_locus = 0.1", "max_missing_locus = 2");
+    assert!(error_of(&text).starts_with("case.toml:14:1: parameter `max_missing_locus` is 2 but must be a number from 0 to 1"));
+}
+
+#[test]
+fn unknown_uses_and_duplicate_ids() {
+    let text = MINIMAL.replace("uses = \"validate\"", "uses = \"validat\"");
+    assert_eq!(error_of(&text), "case.toml:12:8: unknown step `uses = \"validat\"`\n  help: did you mean \"validate\"? `popgauge steps` lists the built-in steps");
+    let text = format!("{MINIMAL}\n[[step]]\nid = \"qc\"\nuses = \"diversity\"\n");
+    assert!(error_of(&text).starts_with("case.toml:17:6: step id \"qc\" is used twice (first at line 10)"));
+}
+
+#[test]
+fn bad_dates_seeds_and_thresholds() {
+    assert!(error_of(&MINIMAL.replace("2026-11-30", "2026-02-30")).starts_with("case.toml:4:8: `date` is \"2026-02-30\", not a calendar date"));
+    assert!(error_of(&MINIMAL.replace("seed = 7", "seed = -1")).starts_with("case.toml:5:8: `seed` is -1"));
+    let text = format!("{MINIMAL}\n[report]\nthresholds = [500, 50]\n");
+    assert!(error_of(&text).contains("it must list positive Ne values in ascending order"));
+    assert!(error_of(&MINIMAL.replace("seed = 7", "seed = \"seven\"")).contains("invalid type"));
+}
+
+#[test]
+fn paths_must_stay_in_the_case_folder() {
+    let text = MINIMAL.replace("g.csv", "../g.csv");
+    assert!(error_of(&text).starts_with("case.toml:8:13: `genotypes` path \"../g.csv\" leaves the case folder"));
+    let text = MINIMAL.replace("g.csv", "missing.csv");
+    assert!(error_of(&text).starts_with("case.toml:8:13: `genotypes` file \"missing.csv\" cannot be opened"));
+    let outside = tempfile::tempdir().unwrap();
+    std::fs::write(outside.path().join("x.csv"), "x").unwrap();
+    let dir = case_with(&MINIMAL.replace("g.csv", "link.csv"));
+    #[cfg(unix)]
+    std::os::unix::fs::symlink(outside.path().join("x.csv"), dir.path().join("link.csv")).unwrap();
+    #[cfg(unix)]
+    assert!(load_recipe(dir.path(), false).unwrap_err().to_string().contains("is a link to a file outside the case folder"));
+    #[cfg(unix)]
+    assert!(load_recipe(dir.path(), true).is_ok());
+}
+
+#[test]
+fn missing_sections_and_recipe() {
+    assert!(error_of("[assessment]\ntitle = \"T\"\nspecies = \"S\"\n").contains("missing field `data`"));
+    let empty = tempfile::tempdir().unwrap();
+    assert!(load_recipe(empty.path(), false).unwrap_err().to_string().contains("cannot read the recipe"));
+}
+

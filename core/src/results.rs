@@ -1,0 +1,113 @@
+//! The results document (`results.json`) and the per-table CSV files.
+
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+use popgauge_abi::{AssessmentInfo, Finding, StepResult, Table};
+
+use crate::data::LoadedData;
+use crate::engine::EngineOutput;
+
+/// Schema identifier written into every results document.
+pub const RESULTS_SCHEMA: &str = "popgauge.results/1";
+
+/// The tool that produced the results.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ToolName {
+    /// Always `popgauge`.
+    pub name: String,
+    /// Semantic version.
+    pub version: String,
+}
+
+/// Sample count of one group as read (before any exclusion).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct GroupCount {
+    /// Population.
+    pub population: String,
+    /// Year.
+    pub year: i32,
+    /// Samples read.
+    pub n: usize,
+}
+
+/// What was read, before any step.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct DataSummary {
+    /// Genotype file (relative to the case folder).
+    pub genotypes: String,
+    /// Samples read.
+    pub samples: usize,
+    /// Loci read.
+    pub loci: usize,
+    /// Groups read.
+    pub groups: Vec<GroupCount>,
+    /// Findings made while reading.
+    pub findings: Vec<Finding>,
+}
+
+/// `results.json`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "popgauge results (results.json)")]
+pub struct ResultsDocument {
+    /// `popgauge.results/1`.
+    pub schema: String,
+    /// The tool.
+    pub tool: ToolName,
+    /// Facts of the assessment.
+    pub assessment: AssessmentInfo,
+    /// What was read.
+    pub data: DataSummary,
+    /// Each step's results in recipe order.
+    pub steps: Vec<StepResult>,
+}
+
+impl ResultsDocument {
+    /// Assembles the document.
+    pub fn new(genotypes_file: &str, data: &LoadedData, engine: &EngineOutput) -> ResultsDocument {
+        let all_samples = data.matrix.all_sample_indices();
+        let all_loci = data.matrix.all_locus_indices();
+        let view = data.matrix.full_view(&all_samples, &all_loci);
+        let groups = view
+            .groups()
+            .into_iter()
+            .map(|g| GroupCount { population: g.population, year: g.year, n: g.samples.len() })
+            .collect();
+        ResultsDocument {
+            schema: RESULTS_SCHEMA.into(),
+            tool: ToolName { name: "popgauge".into(), version: env!("CARGO_PKG_VERSION").into() },
+            assessment: engine.assessment.clone(),
+            data: DataSummary {
+                genotypes: genotypes_file.into(),
+                samples: data.matrix.samples().len(),
+                loci: data.matrix.loci().len(),
+                groups,
+                findings: data.findings.clone(),
+            },
+            steps: engine.results.clone(),
+        }
+    }
+
+    /// Every table as (`tables/<step>.<table>.csv`, CSV bytes), in step then table order.
+    pub fn table_files(&self) -> Vec<(String, Vec<u8>)> {
+        self.steps
+            .iter()
+            .flat_map(|step| step.tables.iter().map(move |(name, table)| (format!("tables/{}.{name}.csv", step.id), table_csv(table))))
+            .collect()
+    }
+}
+
+/// A table as CSV: header row, then rows; numbers through the one formatter, null empty.
+pub fn table_csv(table: &Table) -> Vec<u8> {
+    let mut writer = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
+    // Writing to memory cannot fail except on allocation failure.
+    let _ = writer.write_record(&table.columns);
+    for row in &table.rows {
+        let _ = writer.write_record(row.iter().map(|c| c.to_string()));
+    }
+    writer.into_inner().unwrap_or_default()
+}

@@ -1,0 +1,21 @@
+//! JSON Schemas of the recipe, results and provenance record, generated from the Rust types.
+//!
+//! `schemas/` in the repository holds these files; a test regenerates them and fails when the
+//! committed copies differ (run it with `POPGAUGE_UPDATE_SCHEMAS=1` to rewrite them).
+
+use schemars::schema_for;
+
+use crate::provenance::ProvenanceRecord;
+use crate::recipe::raw::RawRecipe;
+use crate::results::ResultsDocument;
+
+/// Each schema as (file name, pretty JSON with a trailing newline).
+pub fn all_schemas() -> Vec<(&'static str, String)> {
+    let pretty = |v: schemars::Schema| format!("{}\n", serde_json::to_string_pretty(&v).unwrap_or_default());
+    vec![
+        ("recipe.schema.json", pretty(schema_for!(RawRecipe))),
+        ("results.schema.json", pretty(schema_for!(ResultsDocument))),
+        ("provenance.schema.json", pretty(schema_for!(ProvenanceRecord))),
+        ("plugin-descriptor.schema.json", pretty(schema_for!(popgauge_abi::Descriptor))),
+    ]
+}

@@ -1,0 +1,61 @@
+//! # popgauge-abi
+//!
+//! The contract between the popgauge engine and every step it runs, built-in or external.
+//! A step is a type implementing [`Step`]: it publishes a [`Descriptor`] (its `uses` name,
+//! version and typed parameters with defaults) and, given a [`StepContext`] (a read-only
+//! [`GenotypeView`], its resolved parameters, a [`Seed`] and the results of earlier steps),
+//! returns a [`StepOutput`] of tables, findings, citations and an optional [`Filter`].
+//!
+//! Principal types:
+//! - [`GenotypeMatrix`] owns the samples × loci genotype codes (two allele codes per cell,
+//!   code 0 = untyped); [`GenotypeView`] is a zero-copy subset of it (the samples and loci
+//!   still in play after earlier filters).
+//! - [`Table`] and [`Cell`] hold results exactly as they reach `results.json` and CSV;
+//!   [`format_number`] is the one number formatter.
+//! - [`Finding`] is a data-quality or interpretation note with a [`FindingLevel`].
+//!
+//! ```
+//! use popgauge_abi::{Descriptor, ParamKind, ParamSpec, Step, StepContext, StepError, StepOutput, Table, Cell};
+//!
+//! struct CountSamples;
+//! impl Step for CountSamples {
+//!     fn descriptor(&self) -> Descriptor {
+//!         Descriptor::new("count-samples", "0.1.0", "Counts samples per group")
+//!     }
+//!     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+//!         let mut table = Table::new(&["population", "year", "n"]);
+//!         for group in ctx.view.groups() {
+//!             table.push_row(vec![
+//!                 Cell::text(&group.population),
+//!                 Cell::Int(group.year.into()),
+//!                 Cell::Int(group.samples.len() as i64),
+//!             ])?;
+//!         }
+//!         let mut output = StepOutput::default();
+//!         output.tables.insert("counts".into(), table);
+//!         Ok(output)
+//!     }
+//! }
+//! ```
+#![warn(missing_docs)]
+
+mod matrix;
+mod number;
+mod output;
+mod params;
+mod step;
+mod suggest;
+
+pub use matrix::{
+    AlleleCode, AlleleCounts, GenotypeMatrix, GenotypeView, Group, LocusIdx, LocusMeta,
+    MatrixError, SampleIdx, SampleMeta,
+};
+pub use number::format_number;
+pub use output::{
+    Cell, Exclusion, Filter, Finding, FindingLevel, StepOutput, Table, TableError, Where,
+};
+pub use params::{Descriptor, ParamError, ParamKind, ParamSpec, Params};
+pub use step::{
+    AssessmentInfo, PopulationInfo, Seed, Step, StepContext, StepError, StepResult, StepStatus,
+};
+pub use suggest::did_you_mean;

@@ -1,0 +1,11 @@
+//! Acceptance tests: the real `popgauge` binary run on case folders, as a user would.
+//!
+//! One binary, one module per concern. Fixtures live in `tests/fixtures/<name>/`; the harness
+//! copies one into a temporary folder, runs the binary and compares stdout/stderr with paths
+//! normalised.
+
+mod check;
+mod cli;
+mod run;
+mod schemas;
+mod support;

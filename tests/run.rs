@@ -1,0 +1,173 @@
+//! `popgauge run`: outputs, determinism, refusal to overwrite, nothing left behind on failure.
+
+use crate::support::{Case, entries};
+
+fn results(case: &Case, out: &str) -> serde_json::Value {
+    serde_json::from_str(&case.read(&format!("{out}/results.json"))).expect("results.json parses")
+}
+
+fn table_rows<'a>(results: &'a serde_json::Value, step: &str, table: &str) -> (&'a Vec<serde_json::Value>, &'a Vec<serde_json::Value>) {
+    let step = results["steps"].as_array().unwrap().iter().find(|s| s["id"] == step).unwrap();
+    let t = &step["tables"][table];
+    (t["columns"].as_array().unwrap(), t["rows"].as_array().unwrap())
+}
+
+fn cell<'a>(columns: &[serde_json::Value], row: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    let i = columns.iter().position(|c| c == name).unwrap_or_else(|| panic!("no column {name}"));
+    &row[i]
+}
+
+#[test]
+fn writes_results_tables_and_provenance() {
+    let case = Case::fixture("minimal");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert_eq!(run.stdout, "Assessed 8 samples × 3 loci in 2 groups with 2 steps.\nFindings: 0 error(s), 4 warning(s); they are listed in results.json.\nWrote case/out: results.json, provenance.json and 5 tables (tables/*.csv).\n");
+    let files = entries(&case.path().join("out"));
+    assert_eq!(files, vec!["provenance.json", "results.json", "tables"]);
+    let tables = entries(&case.path().join("out/tables"));
+    assert_eq!(tables, vec!["diversity.by_group.csv", "diversity.by_locus.csv", "qc.groups.csv", "qc.loci.csv", "qc.samples.csv"]);
+    let doc = results(&case, "out");
+    assert_eq!(doc["schema"], "popgauge.results/1");
+    assert_eq!(doc["assessment"]["date"], "2026-11-30");
+    assert_eq!(doc["assessment"]["populations"][0]["census_size"], 400.0);
+}
+
+/// Hand calculation on the fixture (North 2020): L1 1/2,1/1,2/2,1/2 → p = 0.5, Ho = 0.5,
+/// He = 8/7·0.5 = 0.571429; L2 likewise; L3 10/12,10/10,12/14,10/14 → p = (.5,.25,.25),
+/// Ho = 0.75, He = 8/7·0.625 = 0.714286. Group: Ho = 0.583333, He = 0.619048,
+/// f = 1 − 1.75/1.857143 = 0.057692 (He unbiased, Nei 1978; F = 1 − ΣHo/ΣHe, DESIGN.md).
+#[test]
+fn diversity_matches_a_hand_calculation() {
+    let case = Case::fixture("minimal");
+    assert_eq!(case.run(&["run", "case"]).code, 0);
+    let doc = results(&case, "out");
+    let (columns, rows) = table_rows(&doc, "diversity", "by_group");
+    let north = rows.iter().find(|r| cell(columns, r, "population") == "North").unwrap();
+    let close = |name: &str, expected: f64| {
+        let got = cell(columns, north, name).as_f64().unwrap();
+        assert!((got - expected).abs() < 1e-6, "{name}: {got} vs {expected}");
+    };
+    close("ho", 0.583333333);
+    close("he", 0.619047619);
+    close("f", 1.0 - 1.75 / (2.0 * 8.0 / 7.0 * 0.5 + 8.0 / 7.0 * 0.625));
+    assert_eq!(cell(columns, north, "n"), 4);
+    assert!(cell(columns, north, "fis").is_null());
+}
+
+#[test]
+fn reruns_are_byte_identical() {
+    let case = Case::fixture("minimal");
+    assert_eq!(case.run(&["run", "case", "--out", "a"]).code, 0);
+    assert_eq!(case.run(&["run", "case", "--out", "b"]).code, 0);
+    let read = |p: &str| std::fs::read(case.root().join(p)).unwrap();
+    assert_eq!(read("a/results.json"), read("b/results.json"));
+    assert_eq!(read("a/tables/diversity.by_group.csv"), read("b/tables/diversity.by_group.csv"));
+    let prov = |p: &str| -> serde_json::Value { serde_json::from_slice(&read(p)).unwrap() };
+    let (a, b) = (prov("a/provenance.json"), prov("b/provenance.json"));
+    assert_eq!(a["steps"], b["steps"], "result hashes, parameters and seeds agree");
+    assert_eq!(a["inputs"], b["inputs"]);
+    assert_eq!(a["outputs"], b["outputs"]);
+}
+
+#[test]
+fn provenance_hashes_inputs_and_outputs() {
+    use sha2_hex::hex_sha256;
+    let case = Case::fixture("minimal");
+    assert_eq!(case.run(&["run", "case"]).code, 0);
+    let prov: serde_json::Value = serde_json::from_str(&case.read("out/provenance.json")).unwrap();
+    assert_eq!(prov["schema"], "popgauge.provenance/1");
+    assert_eq!(prov["recipe"]["sha256"], hex_sha256(&std::fs::read(case.path().join("case.toml")).unwrap()));
+    let genotypes = &prov["inputs"][0];
+    assert_eq!(genotypes["role"], "genotypes");
+    assert_eq!(genotypes["sha256"], hex_sha256(&std::fs::read(case.path().join("genotypes.csv")).unwrap()));
+    for output in prov["outputs"].as_array().unwrap() {
+        let bytes = std::fs::read(case.path().join("out").join(output["path"].as_str().unwrap())).unwrap();
+        assert_eq!(output["sha256"], hex_sha256(&bytes), "{}", output["path"]);
+    }
+    let qc = &prov["steps"][0];
+    assert_eq!(qc["params"]["min_group_size"], 3);
+    assert_eq!(qc["params"]["max_missing_locus"], 0.2, "defaults are recorded");
+    assert!(qc["seed"].as_u64().is_some());
+}
+
+mod sha2_hex {
+    /// SHA-256 through the system's `sha256sum`, an implementation independent of popgauge's.
+    pub fn hex_sha256(bytes: &[u8]) -> String {
+        use std::io::Write;
+        let mut child = std::process::Command::new("sha256sum")
+            .stdin(std::process::Stdio::piped())
+            .stdout(std::process::Stdio::piped())
+            .spawn()
+            .expect("sha256sum is available");
+        child.stdin.take().unwrap().write_all(bytes).unwrap();
+        let out = child.wait_with_output().unwrap();
+        String::from_utf8(out.stdout).unwrap().split_whitespace().next().unwrap().to_string()
+    }
+}
+
+#[test]
+fn existing_output_is_refused_and_untouched_without_force() {
+    let case = Case::fixture("minimal");
+    case.write("out/keep.txt", "mine");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2);
+    assert_eq!(run.stderr, "error: case/out: the output folder already exists; nothing was written\n  help: choose another --out folder, or add --force to replace it\n");
+    assert_eq!(entries(&case.path().join("out")), vec!["keep.txt"]);
+    let forced = case.run(&["run", "case", "--force"]);
+    assert_eq!(forced.code, 0, "{}", forced.stderr);
+    assert!(!case.path().join("out/keep.txt").exists());
+    assert_eq!(entries(case.root()), vec!["case"], "no temporary folders left");
+}
+
+#[test]
+fn a_failed_run_leaves_no_output_folder() {
+    let case = Case::fixture("minimal");
+    case.write("genotypes.csv", "sample,population,year,L1\ns1,North,2020,1/2\ns2,North,twenty,1/1\n");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2);
+    assert_eq!(run.stderr, "error: genotypes.csv:3: column `year` has \"twenty\": the year is not a whole number\n  help: write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)\n");
+    assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
+    assert_eq!(entries(case.root()), vec!["case"]);
+}
+
+#[test]
+fn refuses_to_write_over_the_case_folder() {
+    let case = Case::fixture("minimal");
+    let run = case.run(&["run", "case", "--out", "case", "--force"]);
+    assert_eq!(run.code, 2);
+    assert!(run.stderr.starts_with("error: case: the output folder contains the case folder; popgauge never writes over its inputs"), "{}", run.stderr);
+    assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
+}
+
+#[test]
+fn bad_cells_are_findings_and_strict_mode_fails() {
+    let case = Case::fixture("minimal");
+    let text = case.read("genotypes.csv").replace("a2,North,2020,1/1", "a2,North,2020,1/.");
+    case.write("genotypes.csv", &text);
+    let run = case.run(&["run", "case", "--out", "lenient"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let doc = results(&case, "../lenient");
+    let finding = &doc["data"]["findings"][0];
+    assert_eq!(finding["code"], "half-missing-genotype");
+    assert_eq!(finding["where"]["line"], 3);
+    assert_eq!(finding["where"]["column"], "L1");
+    let recipe = case.read("case.toml").replace("populations = \"populations.csv\"", "populations = \"populations.csv\"\nstrict = true");
+    case.write("case.toml", &recipe);
+    let strict = case.run(&["run", "case", "--out", "strict"]);
+    assert_eq!(strict.code, 2);
+    assert!(strict.stderr.starts_with("error: genotypes.csv:3: column `L1`, cell \"1/.\": one allele missing"), "{}", strict.stderr);
+    assert!(!case.root().join("strict").exists());
+}
+
+#[test]
+fn the_demo_case_runs() {
+    let case = Case::demo();
+    let run = case.run(&["run", "case", "--out", "demo-out"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let doc: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(case.root().join("demo-out/results.json")).unwrap()).unwrap();
+    let (columns, rows) = table_rows(&doc, "diversity", "by_group");
+    assert_eq!(rows.len(), 12, "4 populations × 3 years");
+    let populations: std::collections::BTreeSet<String> = rows.iter().map(|r| cell(columns, r, "population").as_str().unwrap().to_string()).collect();
+    assert_eq!(populations.len(), 4);
+}
