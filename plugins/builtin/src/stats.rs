@@ -5,6 +5,7 @@
 //! heterozygosity is Nei's (1978) unbiased estimator; a quantity with a zero or undefined
 //! denominator is `None`, which reaches tables as `null`.
 
+pub mod bootstrap;
 pub mod heterozygosity;
 pub mod null_allele;
 
