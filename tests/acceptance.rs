@@ -6,6 +6,10 @@
 
 mod check;
 mod cli;
+mod plan;
+mod plugins;
+mod report;
 mod run;
 mod schemas;
 mod support;
+mod verify;

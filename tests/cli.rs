@@ -23,7 +23,10 @@ fn steps_lists_parameters_with_defaults() {
     let json = popgauge(&["steps", "--json"], dir.path());
     let parsed: serde_json::Value = serde_json::from_str(&json.stdout).unwrap();
     let names: Vec<&str> = parsed.as_array().unwrap().iter().map(|d| d["uses"].as_str().unwrap()).collect();
-    assert_eq!(names, vec!["validate", "diversity"]);
+    assert_eq!(&names[..2], &["validate", "diversity"], "validation and diversity come first");
+    for expected in ["hwe", "differentiation", "ne-ld", "trend", "status"] {
+        assert!(names.contains(&expected), "{expected} missing from {names:?}");
+    }
     let unknown = popgauge(&["steps", "validat"], dir.path());
     assert_eq!(unknown.code, 2);
     assert!(unknown.stderr.starts_with("error: no built-in step is called \"validat\""));

@@ -22,9 +22,9 @@ fn writes_results_tables_and_provenance() {
     let case = Case::fixture("minimal");
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
-    assert_eq!(run.stdout, "Assessed 8 samples × 3 loci in 2 groups with 2 steps.\nFindings: 0 error(s), 4 warning(s); they are listed in results.json.\nWrote case/out: results.json, provenance.json and 5 tables (tables/*.csv).\n");
+    assert_eq!(run.stdout, "Assessed 8 samples × 3 loci in 2 groups with 2 steps.\nFindings: 0 error(s), 4 warning(s); they are listed in results.json.\nWrote case/out: assessment.pdf, results.json, provenance.json, 5 tables (tables/*.csv) and 0 figure(s) (figures/*.svg).\n");
     let files = entries(&case.path().join("out"));
-    assert_eq!(files, vec!["provenance.json", "results.json", "tables"]);
+    assert_eq!(files, vec!["assessment.json", "assessment.pdf", "assessment.typ", "provenance.json", "results.json", "tables"]);
     let tables = entries(&case.path().join("out/tables"));
     assert_eq!(tables, vec!["diversity.by_group.csv", "diversity.by_locus.csv", "qc.groups.csv", "qc.loci.csv", "qc.samples.csv"]);
     let doc = results(&case, "out");
@@ -37,6 +37,7 @@ fn writes_results_tables_and_provenance() {
 /// He = 8/7·0.5 = 0.571429; L2 likewise; L3 10/12,10/10,12/14,10/14 → p = (.5,.25,.25),
 /// Ho = 0.75, He = 8/7·0.625 = 0.714286. Group: Ho = 0.583333, He = 0.619048,
 /// f = 1 − 1.75/1.857143 = 0.057692 (He unbiased, Nei 1978; F = 1 − ΣHo/ΣHe, DESIGN.md).
+/// FIS (Weir & Cockerham 1984, METHODS §2.1) = 1 − 1.75/1.875 = 0.066667.
 #[test]
 fn diversity_matches_a_hand_calculation() {
     let case = Case::fixture("minimal");
@@ -52,7 +53,8 @@ fn diversity_matches_a_hand_calculation() {
     close("he", 0.619047619);
     close("f", 1.0 - 1.75 / (2.0 * 8.0 / 7.0 * 0.5 + 8.0 / 7.0 * 0.625));
     assert_eq!(cell(columns, north, "n"), 4);
-    assert!(cell(columns, north, "fis").is_null());
+    // WC84 FIS = 1 − ΣHo/ΣHe* with He* = n/(n−1)·(1 − Σp² − Ho/2n): 0.583333, 0.583333, 0.708333.
+    close("fis", 1.0 - 1.75 / 1.875);
 }
 
 #[test]

@@ -2,8 +2,11 @@
 
 pub mod check;
 pub mod new;
+pub mod plan;
 pub mod run;
 pub mod steps;
+pub mod verify;
+pub mod typeset;
 
 use std::io::{IsTerminal, Write};
 use std::process::ExitCode;
@@ -17,6 +20,8 @@ use crate::progress::Progress;
 pub const EXIT_OK: u8 = 0;
 /// Exit code: `--strict` and error-level findings.
 pub const EXIT_FINDINGS: u8 = 1;
+/// Exit code: `verify` found a difference.
+pub const EXIT_DIFFERENCES: u8 = 1;
 /// Exit code: bad input (recipe, data, output folder).
 pub const EXIT_BAD_INPUT: u8 = 2;
 /// Exit code: a step failed.
@@ -43,10 +48,19 @@ pub enum Command {
     Run(run::Args),
     /// Check a case's recipe and data without computing estimates.
     Check(check::Args),
-    /// List the built-in steps with their parameters.
+    /// List the built-in steps with their parameters, or describe a plugin library.
     Steps(steps::Args),
     /// Create a case folder with a commented recipe to fill in.
     New(new::Args),
+    /// Size a sampling design before fieldwork: simulate plausible Ne and compare LD estimates by sample size.
+    Plan(plan::Args),
+    /// Check a provenance record: re-hash the inputs, re-run the steps, re-typeset, and say what differs.
+    Verify(verify::Args),
+    /// Typeset an output folder's assessment.pdf again after editing assessment.typ.
+    Typeset(typeset::Args),
+    /// Internal: runs one plugin call in an isolated child process (spawned by popgauge itself).
+    #[command(hide = true)]
+    PluginWorker,
 }
 
 /// Runs a parsed command line.
@@ -59,6 +73,10 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Check(args) => check::run(args),
         Command::Steps(args) => steps::run(args),
         Command::New(args) => new::run(args),
+        Command::Plan(args) => plan::run(args),
+        Command::Verify(args) => verify::run(args),
+        Command::Typeset(args) => typeset::run(args),
+        Command::PluginWorker => Ok(crate::host::worker::serve()),
     }
 }
 

@@ -6,9 +6,10 @@
 
 use std::collections::{BTreeSet, HashMap};
 
-use popgauge_abi::{AssessmentInfo, Filter, GenotypeView, Seed, StepContext, StepResult};
+use popgauge_abi::{AssessmentInfo, Filter, GenotypeView, Seed, StepContext, StepResult, StepStatus};
 
 use crate::data::LoadedData;
+use crate::host::PluginRecord;
 use crate::progress::Progress;
 use crate::provenance::hash::{derive_seed, hash_canonical};
 use crate::recipe::Recipe;
@@ -30,6 +31,18 @@ pub struct StepRun {
     pub seed: Seed,
     /// SHA-256 of the canonical result.
     pub result_sha256: String,
+    /// The library, hash and descriptor of an external plugin step.
+    pub plugin: Option<PluginRecord>,
+}
+
+const DEFECT_HELP: &str = "this is a defect in the step; report it to its author";
+
+/// The result of an external step that failed: no tables, the reason in `error`.
+fn failed_result(id: &str, descriptor: &popgauge_abi::Descriptor, message: String) -> StepResult {
+    let mut result = StepResult::from_output(id, descriptor, popgauge_abi::StepOutput::default());
+    result.status = StepStatus::Failed;
+    result.error = Some(message);
+    result
 }
 
 /// All the engine produced.
@@ -64,8 +77,12 @@ pub enum EngineError {
 
 /// Runs every step of `recipe` over `data`.
 ///
+/// A built-in step that fails stops the run. An external plugin step that fails (an error, a
+/// panic, a crash, its time limit, invalid or ragged output, a filter naming unknown data) is
+/// recorded with `status: failed` and the reason, and the run goes on without it.
+///
 /// # Errors
-/// [`EngineError::StepFailed`] when a step returns an error or an unusable result.
+/// [`EngineError::StepFailed`] when a built-in step returns an error or an unusable result.
 pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress) -> Result<EngineOutput, EngineError> {
     let mut assessment = recipe.assessment.clone();
     assessment.populations = data.populations.clone();
@@ -92,15 +109,24 @@ pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress
             input_findings: &data.findings,
         };
         let descriptor = planned.step.descriptor();
-        let output = planned
-            .step
-            .run(&ctx)
-            .map_err(|e| fail(e.message, "check the step's findings and parameters; a step that cannot run on these data stops the assessment"))?;
-        for (name, table) in &output.tables {
-            table.check_rectangular().map_err(|e| fail(format!("table `{name}`: {e}"), "this is a defect in the step; report it to its author"))?;
-        }
-        active.apply(&data.matrix, &output.filter).map_err(|e| fail(e, "this is a defect in the step; report it to its author"))?;
-        let result = StepResult::from_output(&planned.id, &descriptor, output);
+        let outcome = planned.step.run(&ctx).map_err(|e| {
+            (e.message, "check the step's findings and parameters; a step that cannot run on these data stops the assessment")
+        });
+        let outcome = outcome.and_then(|output| {
+            for (name, table) in &output.tables {
+                table.check_rectangular().map_err(|e| (format!("table `{name}`: {e}"), DEFECT_HELP))?;
+            }
+            // `apply` changes nothing when the filter names unknown samples or loci.
+            active.apply(&data.matrix, &output.filter).map_err(|e| (e, DEFECT_HELP))?;
+            Ok(output)
+        });
+        let result = match outcome {
+            Ok(output) => StepResult::from_output(&planned.id, &descriptor, output),
+            // An external step's failure (error, panic, crash, time limit, bad output) is
+            // recorded and the assessment goes on; the report marks the step failed.
+            Err((message, _)) if planned.plugin.is_some() => failed_result(&planned.id, &descriptor, message),
+            Err((message, help)) => return Err(fail(message, help)),
+        };
         runs.push(StepRun {
             id: planned.id.clone(),
             uses: planned.uses.clone(),
@@ -109,6 +135,7 @@ pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress
             params_sha256: hash_canonical(&planned.params).unwrap_or_default(),
             seed,
             result_sha256: hash_canonical(&result).unwrap_or_default(),
+            plugin: planned.plugin.clone(),
         });
         results.push(result);
     }

@@ -7,14 +7,14 @@
 //!
 //! Principal parts: [`recipe`] (strict parsing and resolution), [`data`] (readers into a
 //! [`popgauge_abi::GenotypeMatrix`]), [`engine`] (running steps), [`provenance`] (hashes and
-//! the record), [`output`] (atomic folder writing), [`pipeline`] (all of it for one case) and
+//! the record), [`host`] (external plugin libraries), [`output`] (atomic folder writing), [`pipeline`] (all of it for one case) and
 //! [`cli`] (the command line).
 //!
 //! ```no_run
 //! use popgauge::pipeline::{run_case, RunOptions};
 //! use popgauge::progress::Silent;
 //!
-//! let options = RunOptions { out: None, force: false, allow_outside: false };
+//! let options = RunOptions { out: None, force: false, allow_outside: false, operator: None };
 //! let summary = run_case(std::path::Path::new("demo-case"), &options, &mut Silent)?;
 //! println!("{} steps", summary.results.steps.len());
 //! # Ok::<(), popgauge::pipeline::RunError>(())
@@ -25,11 +25,14 @@ pub mod cli;
 pub mod data;
 pub mod dates;
 pub mod engine;
+pub mod host;
 pub mod output;
 pub mod pipeline;
+pub mod planning;
 pub mod progress;
 pub mod provenance;
 pub mod recipe;
+pub mod report;
 pub mod results;
 pub mod schemas;
 pub mod source;

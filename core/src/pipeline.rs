@@ -9,11 +9,13 @@ use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
-use crate::provenance::hash::{FileDigest, digest_bytes, sha256_hex};
+use crate::provenance::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
 use crate::provenance::record::{
-    AssessmentEntry, FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
+    AssessmentEntry, FileEntry, PluginEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
 };
 use crate::recipe::{InputFile, Recipe, RecipeError, load_recipe};
+use crate::report::template::Template;
+use crate::report::{FileFacts, ReportError, ReportSource};
 use crate::results::ResultsDocument;
 
 /// Why an assessment did not complete.
@@ -31,6 +33,9 @@ pub enum RunError {
     /// The output folder.
     #[error(transparent)]
     Output(#[from] OutputError),
+    /// The document (template or typesetting).
+    #[error(transparent)]
+    Report(#[from] ReportError),
 }
 
 /// How to run.
@@ -42,6 +47,8 @@ pub struct RunOptions {
     pub force: bool,
     /// Let data paths leave the case folder.
     pub allow_outside: bool,
+    /// Who ran the assessment, for the provenance record.
+    pub operator: Option<String>,
 }
 
 /// What a completed run produced.
@@ -77,6 +84,8 @@ pub struct LoadedCase {
     pub data: LoadedData,
     /// Digest of the recipe bytes.
     pub recipe_digest: FileDigest,
+    /// The document template (its files are also listed, hashed, among the data's inputs).
+    pub template: Template,
 }
 
 /// Loads and checks a case (recipe and data).
@@ -89,8 +98,45 @@ pub fn load_case(case_dir: &Path, allow_outside: bool) -> Result<LoadedCase, Run
         path: recipe.recipe_file.path.display().to_string(),
         source,
     })?;
-    let data = load_data(&recipe)?;
-    Ok(LoadedCase { recipe, data, recipe_digest: digest_bytes(&recipe_bytes) })
+    let mut data = load_data(&recipe)?;
+    let template = load_template(&recipe)?;
+    data.digests.extend(template_digests(&recipe, &template));
+    Ok(LoadedCase { recipe, data, recipe_digest: digest_bytes(&recipe_bytes), template })
+}
+
+/// The recipe's template: the standard one, or the case's template folder read into memory.
+fn load_template(recipe: &Recipe) -> Result<Template, ReportError> {
+    match &recipe.report.template_dir {
+        None => Ok(Template::standard()),
+        Some(dir) => Template::from_folder(dir, &recipe.report.template, &|_| false),
+    }
+}
+
+/// A custom template's files as inputs (role `template`), so the provenance record hashes them.
+fn template_digests(recipe: &Recipe, template: &Template) -> Vec<(InputFile, FileDigest)> {
+    let Some(dir) = &recipe.report.template_dir else { return Vec::new() };
+    let folder = recipe.report.template.trim_end_matches('/');
+    template
+        .files
+        .iter()
+        .map(|(name, bytes)| {
+            let file = InputFile { role: "template".into(), relative: format!("{folder}/{name}"), path: dir.join(name) };
+            (file, digest_bytes(bytes))
+        })
+        .collect()
+}
+
+/// The case fingerprint printed on the document: the first 16 hex digits of SHA-256 over the
+/// canonical JSON of the recipe hash, the input hashes and the step-result hashes. It
+/// identifies inputs and results (the PDF's own hash cannot be inside the PDF).
+pub fn assessment_fingerprint(case: &LoadedCase, engine: &EngineOutput) -> String {
+    let facts = serde_json::json!({
+        "recipe": case.recipe_digest.sha256,
+        "inputs": case.data.digests.iter().map(|(file, digest)| serde_json::json!({"path": file.relative, "sha256": digest.sha256})).collect::<Vec<_>>(),
+        "results": engine.runs.iter().map(|run| serde_json::json!({"step": run.id, "sha256": run.result_sha256})).collect::<Vec<_>>(),
+    });
+    let digest = hash_canonical(&facts).unwrap_or_default();
+    digest.chars().take(16).collect()
 }
 
 /// Runs the assessment of `case_dir` and writes the output folder.
@@ -104,9 +150,9 @@ pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progre
     let input_paths: Vec<&Path> = case.recipe.input_files().iter().map(|f| f.path.as_path()).collect();
     check_target(&out, options.force, case_dir, &input_paths)?;
     let engine = run_steps(&case.recipe, &case.data, progress)?;
-    let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, &engine);
-    let mut files = output_files(&results);
-    let provenance = provenance_record(&case, &engine, &files, started);
+    let (results, mut files) = render_outputs(&case, &engine)?;
+    let case_folder = relative_path(&absolute_path(&out), &absolute_path(case_dir));
+    let provenance = provenance_record(&case, &engine, &files, RunFacts { started, case_folder, operator: options.operator.clone() });
     files.push(("provenance.json".into(), pretty_json(&provenance)));
     write_folder(&out, &files, options.force)?;
     Ok(RunSummary { out, results, provenance })
@@ -119,22 +165,62 @@ fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
     bytes
 }
 
-fn output_files(results: &ResultsDocument) -> OutputFiles {
-    let mut files = vec![("results.json".to_string(), pretty_json(results))];
+/// Every output file except `provenance.json`, from a case and its step results.
+///
+/// `popgauge verify` regenerates the outputs with this same function, so whatever `run` writes
+/// (results, tables, document, figures) is added here and nowhere else.
+///
+/// # Errors
+/// [`RunError::Report`] when the document cannot be typeset (a custom template that does not
+/// compile, named by file and line).
+pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(ResultsDocument, OutputFiles), RunError> {
+    let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, engine);
+    let mut files = vec![("results.json".to_string(), pretty_json(&results))];
     files.extend(results.table_files());
-    files
+    let fingerprint = assessment_fingerprint(case, engine);
+    let facts = |file: &InputFile, digest: &FileDigest| FileFacts { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() };
+    let source = ReportSource {
+        results: &results,
+        runs: &engine.runs,
+        recipe: facts(&case.recipe.recipe_file, &case.recipe_digest),
+        inputs: case.data.digests.iter().map(|(file, digest)| facts(file, digest)).collect(),
+        fingerprint: &fingerprint,
+    };
+    files.extend(crate::report::render(&source, &case.template)?.into_files());
+    Ok((results, files))
+}
+
+/// The run facts that are not in the case: when, where, by whom.
+struct RunFacts {
+    started: String,
+    case_folder: String,
+    operator: Option<String>,
+}
+
+fn absolute_path(path: &Path) -> PathBuf {
+    path.canonicalize().unwrap_or_else(|_| std::env::current_dir().unwrap_or_default().join(path))
+}
+
+/// `to` relative to `from` (both absolute), e.g. `..` for a case folder holding `out/`.
+fn relative_path(from: &Path, to: &Path) -> String {
+    let from: Vec<_> = from.components().collect();
+    let to: Vec<_> = to.components().collect();
+    let common = from.iter().zip(&to).take_while(|(a, b)| a == b).count();
+    let mut parts: Vec<String> = vec!["..".to_string(); from.len() - common];
+    parts.extend(to[common..].iter().map(|c| c.as_os_str().to_string_lossy().into_owned()));
+    if parts.is_empty() { ".".to_string() } else { parts.join("/") }
 }
 
 fn file_entry(file: &InputFile, digest: &FileDigest) -> FileEntry {
     FileEntry { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() }
 }
 
-fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFiles, started: String) -> ProvenanceRecord {
+fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFiles, facts: RunFacts) -> ProvenanceRecord {
     let recipe = &case.recipe;
     let outputs = files
         .iter()
         .map(|(path, bytes)| FileEntry {
-            role: if path.starts_with("tables/") { "table" } else { "results" }.into(),
+            role: crate::report::output_role(path).unwrap_or(if path.starts_with("tables/") { "table" } else { "results" }).into(),
             path: path.clone(),
             size: bytes.len() as u64,
             sha256: sha256_hex(bytes),
@@ -147,7 +233,8 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
             id: run.id.clone(),
             uses: run.uses.clone(),
             version: run.version.clone(),
-            plugin_sha256: None,
+            plugin_sha256: run.plugin.as_ref().map(|p| p.sha256.clone()),
+            plugin: run.plugin.as_ref().map(PluginEntry::from_record),
             params: run.params.clone(),
             params_sha256: run.params_sha256.clone(),
             seed: run.seed.0,
@@ -163,7 +250,7 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
             date_defaulted: recipe.date_defaulted,
             seed: recipe.assessment.seed,
         },
-        run: RunEntry { started, ended: now_rfc3339() },
+        run: RunEntry { started: facts.started, ended: now_rfc3339(), operator: facts.operator, case_folder: facts.case_folder },
         recipe: file_entry(&recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| file_entry(file, digest)).collect(),
         steps,

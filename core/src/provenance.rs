@@ -2,5 +2,6 @@
 
 pub mod hash;
 pub mod record;
+pub mod verify;
 
 pub use record::ProvenanceRecord;

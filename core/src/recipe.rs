@@ -9,8 +9,11 @@ pub mod resolve;
 
 use std::fmt;
 use std::path::PathBuf;
+use std::sync::Arc;
 
-use popgauge_abi::{AssessmentInfo, ParamError, Params, Step};
+use popgauge_abi::{AssessmentInfo, Descriptor, ParamError, Params, Step, StepContext, StepError, StepOutput};
+
+use crate::host::{LoadError, PluginRecord};
 
 use crate::source::Location;
 
@@ -61,12 +64,27 @@ pub struct PlannedStep {
     pub id: String,
     /// The `uses` name.
     pub uses: String,
-    /// The implementation.
-    pub step: &'static dyn Step,
+    /// The implementation: a built-in step or a loaded plugin library.
+    pub step: Arc<dyn Step>,
     /// Parameters with defaults filled in.
     pub params: Params,
     /// Line of the `[[step]]` header in the recipe.
     pub line: usize,
+    /// The library, hash and descriptor of an external plugin step; `None` for built-in steps.
+    pub plugin: Option<PluginRecord>,
+}
+
+/// A built-in step (a `'static` registry entry) behind the same `Arc<dyn Step>` as a plugin.
+pub struct BuiltinStep(pub &'static dyn Step);
+
+impl Step for BuiltinStep {
+    fn descriptor(&self) -> Descriptor {
+        self.0.descriptor()
+    }
+
+    fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+        self.0.run(ctx)
+    }
 }
 
 impl fmt::Debug for PlannedStep {
@@ -84,6 +102,8 @@ impl fmt::Debug for PlannedStep {
 pub struct ReportSpec {
     /// `standard` or a template folder relative to the case.
     pub template: String,
+    /// The template folder on disk, for a custom template (`None` for `standard`).
+    pub template_dir: Option<PathBuf>,
     /// Ne thresholds, ascending.
     pub thresholds: Vec<f64>,
 }
@@ -158,6 +178,16 @@ pub enum RecipeError {
         message: String,
         /// How to fix it.
         help: String,
+    },
+    /// An external plugin library was refused.
+    #[error("{at}: step \"{step}\": {error}\n  help: {}", error.help())]
+    Plugin {
+        /// Where (the `uses` or `sha256` line).
+        at: Location,
+        /// Step id.
+        step: String,
+        /// Why the library was refused.
+        error: LoadError,
     },
     /// A step's parameters do not fit its descriptor.
     #[error("{at}: {error} for step \"{step}\" (uses \"{uses}\")\n  help: {}", error.help())]

@@ -25,6 +25,9 @@ pub struct Args {
     /// Let data paths in the recipe point outside the case folder.
     #[arg(long)]
     pub allow_outside: bool,
+    /// Who runs the assessment (recorded in provenance.json).
+    #[arg(long, value_name = "NAME")]
+    pub operator: Option<String>,
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
@@ -35,10 +38,13 @@ pub struct Args {
 /// # Errors
 /// Recipe, data, step or output errors, each naming file, line and fix.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
-    let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside };
+    let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside, operator: args.operator.clone() };
     let mut progress = StderrProgress::new(args.quiet);
     let summary = run_case(&args.case, &options, &mut progress)?;
     print_summary(&summary);
+    for failed in summary.results.steps.iter().filter(|s| s.status == popgauge_abi::StepStatus::Failed) {
+        eprintln!("warning: step \"{}\" failed: {}", failed.id, failed.error.as_deref().unwrap_or("no reason given"));
+    }
     let errors = summary.findings_at_least(FindingLevel::Error).len();
     if args.strict && errors > 0 {
         eprintln!("error: {errors} finding(s) at error level and --strict was given; see results.json");
@@ -59,9 +65,10 @@ fn print_summary(summary: &RunSummary) {
     let warnings = summary.findings_at_least(FindingLevel::Warning);
     let errors = warnings.iter().filter(|f| f.level == FindingLevel::Error).count();
     println!("Findings: {errors} error(s), {} warning(s); they are listed in results.json.", warnings.len() - errors);
-    let tables = summary.provenance.outputs.iter().filter(|o| o.role == "table").count();
+    let count = |role: &str| summary.provenance.outputs.iter().filter(|o| o.role == role).count();
+    let (tables, figures) = (count("table"), count("figure"));
     println!(
-        "Wrote {}: results.json, provenance.json and {tables} tables (tables/*.csv).",
+        "Wrote {}: assessment.pdf, results.json, provenance.json, {tables} tables (tables/*.csv) and {figures} figure(s) (figures/*.svg).",
         summary.out.display()
     );
 }

@@ -1,9 +1,13 @@
-//! `popgauge steps`: the built-in steps and their parameters.
+//! `popgauge steps`: the built-in steps and their parameters, or a plugin library's descriptor
+//! and SHA-256 (`--plugin PATH`), ready to paste into a recipe.
 
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 use popgauge_abi::{Descriptor, ParamKind};
 use popgauge_builtin::steps::BUILTIN;
+
+use crate::host::{DEFAULT_TIMEOUT, Isolation, PluginSpec, Session, load_plugin};
 
 /// Arguments of `popgauge steps`.
 #[derive(Debug, clap::Args)]
@@ -13,13 +17,22 @@ pub struct Args {
     /// Print the descriptors as JSON.
     #[arg(long)]
     pub json: bool,
+    /// Describe this plugin library instead: its descriptor and SHA-256 for the recipe.
+    #[arg(long, value_name = "PATH")]
+    pub plugin: Option<PathBuf>,
+    /// Load the plugin in popgauge's own process rather than in a child process.
+    #[arg(long, requires = "plugin")]
+    pub in_process: bool,
 }
 
 /// Prints the descriptors.
 ///
 /// # Errors
-/// An unknown step name.
+/// An unknown step name, or a plugin library that cannot be loaded.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    if let Some(path) = &args.plugin {
+        return describe_plugin(path, &args);
+    }
     let descriptors: Vec<Descriptor> = BUILTIN
         .iter()
         .map(|s| s.descriptor())
@@ -27,7 +40,7 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
         .collect();
     if descriptors.is_empty() {
         let names: Vec<String> = BUILTIN.iter().map(|s| s.descriptor().uses).collect();
-        anyhow::bail!("no built-in step is called \"{}\"\n  help: built-in steps: {}", args.uses.unwrap_or_default(), names.join(", "));
+        anyhow::bail!("no built-in step is called \"{}\"\n  help: built-in steps: {}", args.uses.clone().unwrap_or_default(), names.join(", "));
     }
     if args.json {
         println!("{}", serde_json::to_string_pretty(&descriptors)?);
@@ -36,6 +49,31 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
             print!("{}", describe(d));
         }
     }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn describe_plugin(path: &std::path::Path, args: &Args) -> anyhow::Result<ExitCode> {
+    let shown = path.display().to_string();
+    let spec = PluginSpec {
+        shown: shown.clone(),
+        path: path.to_path_buf(),
+        expected_sha256: None,
+        isolation: if args.in_process { Isolation::InProcess } else { Isolation::Process },
+        timeout: DEFAULT_TIMEOUT,
+    };
+    let session = Session::new()?;
+    let step = load_plugin(&spec, &session).map_err(|e| anyhow::anyhow!("{e}\n  help: {}", e.help()))?;
+    let record = step.record();
+    if args.json {
+        let value = serde_json::json!({ "path": shown, "sha256": record.sha256, "descriptor": record.descriptor });
+        println!("{}", serde_json::to_string_pretty(&value)?);
+        return Ok(ExitCode::SUCCESS);
+    }
+    print!("{}", describe(&record.descriptor));
+    println!("library: {shown}");
+    println!("sha256:  {}\n", record.sha256);
+    println!("Recipe lines (the path is relative to the case folder; review the library before pinning it):\n");
+    println!("[[step]]\nid = \"{}\"\nuses = \"plugin:{shown}\"\nsha256 = \"{}\"", record.descriptor.uses, record.sha256);
     Ok(ExitCode::SUCCESS)
 }
 

@@ -3,7 +3,9 @@
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
-use popgauge_abi::Params;
+use popgauge_abi::{Descriptor, Params};
+
+use crate::host::PluginRecord;
 
 /// Schema identifier written into every record.
 pub const PROVENANCE_SCHEMA: &str = "popgauge.provenance/1";
@@ -60,6 +62,9 @@ pub struct StepEntry {
     pub version: String,
     /// SHA-256 of an external plugin library; null for built-in steps.
     pub plugin_sha256: Option<String>,
+    /// The external plugin library: path, hash, isolation and its descriptor as loaded.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub plugin: Option<PluginEntry>,
     /// Resolved parameters (defaults filled in).
     pub params: Params,
     /// SHA-256 of the canonical parameters.
@@ -68,6 +73,32 @@ pub struct StepEntry {
     pub seed: u64,
     /// SHA-256 of the step's canonical result (its entry in results.json).
     pub result_sha256: String,
+}
+
+/// An external plugin library as it was loaded for a step.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct PluginEntry {
+    /// The path as the recipe writes it after `plugin:` (relative to the case folder).
+    pub path: String,
+    /// SHA-256 of the library bytes that were loaded (equal to the recipe's pin).
+    pub sha256: String,
+    /// `process` (a child process per call) or `in-process`.
+    pub isolation: String,
+    /// The step's descriptor, as the library described itself.
+    pub descriptor: Descriptor,
+}
+
+impl PluginEntry {
+    /// The entry for a loaded plugin.
+    pub fn from_record(record: &PluginRecord) -> PluginEntry {
+        PluginEntry {
+            path: record.path.clone(),
+            sha256: record.sha256.clone(),
+            isolation: record.isolation.as_str().into(),
+            descriptor: record.descriptor.clone(),
+        }
+    }
 }
 
 /// Facts about the assessment.
@@ -92,6 +123,12 @@ pub struct RunEntry {
     pub started: String,
     /// End, RFC 3339 UTC.
     pub ended: String,
+    /// Who ran it (`--operator`), when given.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub operator: Option<String>,
+    /// The case folder relative to the output folder (`..` for the default `CASE/out`), where
+    /// `popgauge verify` looks for the inputs unless told otherwise with `--data`.
+    pub case_folder: String,
 }
 
 /// The whole record.

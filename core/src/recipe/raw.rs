@@ -99,6 +99,16 @@ pub struct RawStep {
     #[serde(default)]
     #[schemars(with = "Option<String>")]
     pub sha256: Option<Spanned<String>>,
+    /// Where a `plugin:` step's code runs: `"process"` (default: a child process, so a crash or
+    /// hang fails only this step) or `"in-process"` (faster; a crash stops popgauge).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub isolation: Option<Spanned<String>>,
+    /// Time limit in seconds of a `plugin:` step run in a child process (default 600); the step
+    /// is stopped and marked failed when it takes longer.
+    #[serde(default)]
+    #[schemars(with = "Option<u64>")]
+    pub timeout_seconds: Option<Spanned<i64>>,
     /// The step's parameters; `popgauge steps` lists them.
     #[serde(default)]
     #[schemars(with = "Option<BTreeMap<String, serde_json::Value>>")]

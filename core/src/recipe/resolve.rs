@@ -1,18 +1,22 @@
 //! From the raw recipe to a [`Recipe`]: defaults, dates, paths, steps and parameters.
 
+use std::cell::OnceCell;
 use std::collections::BTreeMap;
 use std::path::{Component, Path, PathBuf};
+use std::sync::Arc;
+use std::time::Duration;
 
-use popgauge_abi::{AssessmentInfo, did_you_mean};
+use popgauge_abi::{AssessmentInfo, Descriptor, Params, Step, did_you_mean};
 use popgauge_builtin::steps::{BUILTIN, find};
 use toml::Spanned;
 
 use super::raw::{RawData, RawRecipe, RawStep};
 use super::{
-    DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, InputFile, PlannedStep, RECIPE_FILE, Recipe,
+    BuiltinStep, DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, InputFile, PlannedStep, RECIPE_FILE, Recipe,
     RecipeError, ReportSpec,
 };
 use crate::dates::{CivilDate, today};
+use crate::host::{DEFAULT_TIMEOUT, Isolation, LoadError, PluginSpec, Session, load_plugin};
 use crate::source::Location;
 
 /// Reads and resolves `CASE/case.toml`.
@@ -26,7 +30,7 @@ pub fn load_recipe(case_dir: &Path, allow_outside: bool) -> Result<Recipe, Recip
     let text = std::fs::read_to_string(&recipe_path)
         .map_err(|source| RecipeError::Unreadable { path: recipe_path.display().to_string(), source })?;
     let raw = parse(&text)?;
-    Resolver { case_dir, text: &text, allow_outside }.resolve(raw, recipe_path)
+    Resolver { case_dir, text: &text, allow_outside, session: OnceCell::new() }.resolve(raw, recipe_path)
 }
 
 /// Parses recipe text strictly.
@@ -73,6 +77,8 @@ struct Resolver<'a> {
     case_dir: &'a Path,
     text: &'a str,
     allow_outside: bool,
+    /// Private folder for plugin library copies, made when the first plugin step is planned.
+    session: OnceCell<Arc<Session>>,
 }
 
 impl Resolver<'_> {
@@ -206,8 +212,8 @@ impl Resolver<'_> {
 
     fn plan_step(&self, step: &RawStep, line: usize) -> Result<PlannedStep, RecipeError> {
         let uses = step.uses.get_ref();
-        if uses.starts_with("plugin:") {
-            return Err(self.invalid(&step.uses, format!("`uses = \"{uses}\"`: external plugins are not supported by this version"), "use a built-in step; `popgauge steps` lists them"));
+        if let Some(path) = uses.strip_prefix("plugin:") {
+            return self.plan_plugin_step(step, line, path);
         }
         let implementation = find(uses).ok_or_else(|| {
             let names: Vec<String> = BUILTIN.iter().map(|s| s.descriptor().uses).collect();
@@ -220,14 +226,102 @@ impl Resolver<'_> {
         if let Some(sha) = &step.sha256 {
             return Err(self.invalid(sha, "`sha256` pins an external plugin library; built-in steps have none".into(), "remove the `sha256` line"));
         }
+        if let Some(isolation) = &step.isolation {
+            return Err(self.invalid(isolation, "`isolation` applies to external plugin steps; built-in steps run in popgauge".into(), "remove the `isolation` line"));
+        }
+        if let Some(timeout) = &step.timeout_seconds {
+            return Err(self.invalid(timeout, "`timeout_seconds` applies to external plugin steps only".into(), "remove the `timeout_seconds` line"));
+        }
+        let params = self.resolve_params(step, line, &implementation.descriptor())?;
+        Ok(PlannedStep {
+            id: step.id.get_ref().clone(),
+            uses: uses.clone(),
+            step: Arc::new(BuiltinStep(implementation)),
+            params,
+            line,
+            plugin: None,
+        })
+    }
+
+    fn resolve_params(&self, step: &RawStep, line: usize, descriptor: &Descriptor) -> Result<Params, RecipeError> {
         let (given, lines) = self.given_params(step)?;
-        let params = implementation.descriptor().resolve(&given).map_err(|error| RecipeError::Params {
+        descriptor.resolve(&given).map_err(|error| RecipeError::Params {
             at: lines.get(error.name()).cloned().unwrap_or_else(|| Location::line(RECIPE_FILE, line)),
             step: step.id.get_ref().clone(),
-            uses: uses.clone(),
+            uses: step.uses.get_ref().clone(),
             error,
+        })
+    }
+
+    /// A `uses = "plugin:PATH"` step: path, pin, isolation and time limit checked, the library
+    /// loaded and refused at the first problem, then its parameters resolved.
+    fn plan_plugin_step(&self, step: &RawStep, line: usize, path: &str) -> Result<PlannedStep, RecipeError> {
+        let id = step.id.get_ref();
+        let spec = self.plugin_spec(step, path)?;
+        let session = self.plugin_session(&step.uses)?;
+        let external = load_plugin(&spec, &session).map_err(|error| {
+            let line_of = |s: &Spanned<String>| self.at(s).line.unwrap_or(line);
+            let at_line = match (&error, &step.sha256) {
+                (LoadError::Sha256 { .. }, Some(sha)) => line_of(sha),
+                _ => line_of(&step.uses),
+            };
+            RecipeError::Plugin { at: Location::line(RECIPE_FILE, at_line), step: id.clone(), error }
         })?;
-        Ok(PlannedStep { id: step.id.get_ref().clone(), uses: uses.clone(), step: implementation, params, line })
+        let params = self.resolve_params(step, line, &external.descriptor())?;
+        let record = external.record().clone();
+        Ok(PlannedStep {
+            id: id.clone(),
+            uses: step.uses.get_ref().clone(),
+            step: Arc::new(external),
+            params,
+            line,
+            plugin: Some(record),
+        })
+    }
+
+    fn plugin_spec(&self, step: &RawStep, path: &str) -> Result<PluginSpec, RecipeError> {
+        let id = step.id.get_ref();
+        if path.is_empty() {
+            return Err(self.invalid(&step.uses, "`uses = \"plugin:\"` names no library".into(), "write the library's path after `plugin:`, relative to the case folder"));
+        }
+        let written = Path::new(path);
+        let escapes = written.is_absolute() || written.components().any(|c| matches!(c, Component::ParentDir));
+        if escapes && !self.allow_outside {
+            return Err(self.invalid(&step.uses, format!("plugin path \"{path}\" leaves the case folder"), "copy the library into the case folder, or run with --allow-outside if this is intended"));
+        }
+        let expected_sha256 = match &step.sha256 {
+            None => {
+                return Err(self.invalid(&step.uses, format!("step \"{id}\" uses a plugin library but pins no `sha256`"), &format!("review the library, then add `sha256 = \"…\"` with the hash that `popgauge steps --plugin {path}` prints")));
+            }
+            Some(sha) if !(sha.get_ref().len() == 64 && sha.get_ref().chars().all(|c| c.is_ascii_hexdigit())) => {
+                return Err(self.invalid(sha, format!("`sha256` is \"{}\", not 64 hexadecimal digits", sha.get_ref()), &format!("copy the hash that `popgauge steps --plugin {path}` prints")));
+            }
+            Some(sha) => Some(sha.get_ref().to_ascii_lowercase()),
+        };
+        let isolation = match &step.isolation {
+            None => Isolation::Process,
+            Some(text) => Isolation::parse(text.get_ref()).ok_or_else(|| {
+                self.invalid(text, format!("`isolation` is \"{}\"", text.get_ref()), "write \"process\" (default: crashes and hangs fail only this step) or \"in-process\" (faster)")
+            })?,
+        };
+        let timeout = match &step.timeout_seconds {
+            None => DEFAULT_TIMEOUT,
+            Some(t) if !(1..=86_400).contains(t.get_ref()) => {
+                return Err(self.invalid(t, format!("`timeout_seconds` is {}, but it must be a whole number of seconds from 1 to 86400", t.get_ref()), "for example 600 (ten minutes, the default)"));
+            }
+            Some(t) => Duration::from_secs(*t.get_ref() as u64),
+        };
+        Ok(PluginSpec { shown: path.into(), path: self.case_dir.join(written), expected_sha256, isolation, timeout })
+    }
+
+    fn plugin_session(&self, at: &Spanned<String>) -> Result<Arc<Session>, RecipeError> {
+        if let Some(session) = self.session.get() {
+            return Ok(Arc::clone(session));
+        }
+        let session = Session::new().map_err(|e| {
+            self.invalid(at, format!("cannot create a private temporary folder for plugin libraries: {e}"), "check that the temporary folder (TMPDIR) is writable")
+        })?;
+        Ok(Arc::clone(self.session.get_or_init(|| session)))
     }
 
     #[allow(clippy::type_complexity)]
@@ -260,13 +354,35 @@ impl Resolver<'_> {
             }
             None => DEFAULT_THRESHOLDS.to_vec(),
         };
-        let template = match report.and_then(|r| r.template.as_ref()) {
-            Some(t) if t.get_ref() != "standard" => {
-                return Err(self.invalid(t, format!("template \"{}\" cannot be used: this version typesets no document yet", t.get_ref()), "remove `template` or set it to \"standard\""));
-            }
-            _ => "standard".to_string(),
+        let (template, template_dir) = match report.and_then(|r| r.template.as_ref()) {
+            Some(t) if t.get_ref() != "standard" => (t.get_ref().clone(), Some(self.template_folder(t)?)),
+            _ => ("standard".to_string(), None),
         };
-        Ok(ReportSpec { template, thresholds })
+        Ok(ReportSpec { template, template_dir, thresholds })
+    }
+
+    /// A custom template folder: inside the case (like data files), holding `assessment.typ`.
+    fn template_folder(&self, path: &Spanned<String>) -> Result<PathBuf, RecipeError> {
+        let relative = path.get_ref();
+        let written = Path::new(relative);
+        let escapes = written.is_absolute() || written.components().any(|c| matches!(c, Component::ParentDir));
+        if escapes && !self.allow_outside {
+            return Err(self.invalid(path, format!("template folder \"{relative}\" leaves the case folder"), "copy the template folder into the case folder, or run with --allow-outside if this is intended"));
+        }
+        let canonical = self.case_dir.join(written).canonicalize().map_err(|e| {
+            self.invalid(path, format!("template folder \"{relative}\" cannot be opened: {e}"), "give \"standard\" or a folder in the case that holds assessment.typ (copy templates/standard/ to start)")
+        })?;
+        if !canonical.is_dir() {
+            return Err(self.invalid(path, format!("template \"{relative}\" is not a folder"), "give \"standard\" or a folder in the case that holds assessment.typ"));
+        }
+        let case_canonical = self.case_dir.canonicalize().unwrap_or_else(|_| self.case_dir.to_path_buf());
+        if !self.allow_outside && !canonical.starts_with(&case_canonical) {
+            return Err(self.invalid(path, format!("template folder \"{relative}\" is a link to a folder outside the case folder"), "copy the template folder into the case folder, or run with --allow-outside if this is intended"));
+        }
+        if !canonical.join("assessment.typ").is_file() {
+            return Err(self.invalid(path, format!("template folder \"{relative}\" has no assessment.typ"), "a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)"));
+        }
+        Ok(canonical)
     }
 }
 

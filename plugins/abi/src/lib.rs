@@ -13,6 +13,8 @@
 //! - [`Table`] and [`Cell`] hold results exactly as they reach `results.json` and CSV;
 //!   [`format_number`] is the one number formatter.
 //! - [`Finding`] is a data-quality or interpretation note with a [`FindingLevel`].
+//! - [`ffi`] is the versioned C ABI of external step libraries (`popgauge_plugin.h` mirrors
+//!   it); [`sdk`] and [`export_step!`] turn a `Step` implementation into such a library.
 //!
 //! ```
 //! use popgauge_abi::{Descriptor, ParamKind, ParamSpec, Step, StepContext, StepError, StepOutput, Table, Cell};
@@ -39,10 +41,12 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod ffi;
 mod matrix;
 mod number;
 mod output;
 mod params;
+pub mod sdk;
 mod step;
 mod suggest;
 

@@ -8,7 +8,10 @@
 use std::collections::BTreeMap;
 
 /// An allele code within one locus; 0 means untyped.
+///
+/// `repr(transparent)`: a buffer of `u16` from the plugin ABI is read as codes without copying.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[repr(transparent)]
 pub struct AlleleCode(pub u16);
 
 impl AlleleCode {
@@ -87,7 +90,53 @@ pub enum MatrixError {
 pub struct GenotypeMatrix {
     samples: Vec<SampleMeta>,
     loci: Vec<LocusMeta>,
-    codes: Vec<AlleleCode>,
+    codes: CodeBuffer,
+}
+
+/// The code buffer: owned, or borrowed from memory the matrix does not own (a plugin reading
+/// the host's buffer, the plugin worker reading a mapped file), so that the codes are never
+/// copied across the plugin boundary.
+enum CodeBuffer {
+    Owned(Vec<AlleleCode>),
+    Borrowed { start: *const AlleleCode, len: usize },
+}
+
+// SAFETY: a borrowed buffer is only read, and `GenotypeMatrix::from_borrowed_codes` requires it
+// to stay valid and unmodified while the matrix exists, so sharing it between threads is as
+// safe as sharing a `&[AlleleCode]`.
+unsafe impl Send for CodeBuffer {}
+// SAFETY: as for `Send`: the buffer is immutable for the matrix's lifetime.
+unsafe impl Sync for CodeBuffer {}
+
+impl CodeBuffer {
+    fn as_slice(&self) -> &[AlleleCode] {
+        match self {
+            CodeBuffer::Owned(codes) => codes,
+            // SAFETY: the constructor's contract keeps `start..start+len` valid while `self` lives.
+            CodeBuffer::Borrowed { start, len } => unsafe { std::slice::from_raw_parts(*start, *len) },
+        }
+    }
+}
+
+impl Clone for CodeBuffer {
+    /// A clone owns its codes, so it may outlive a borrowed original.
+    fn clone(&self) -> Self {
+        CodeBuffer::Owned(self.as_slice().to_vec())
+    }
+}
+
+impl PartialEq for CodeBuffer {
+    fn eq(&self, other: &Self) -> bool {
+        self.as_slice() == other.as_slice()
+    }
+}
+
+impl Eq for CodeBuffer {}
+
+impl std::fmt::Debug for CodeBuffer {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{} codes", self.as_slice().len())
+    }
 }
 
 impl GenotypeMatrix {
@@ -100,33 +149,26 @@ impl GenotypeMatrix {
         loci: Vec<LocusMeta>,
         codes: Vec<AlleleCode>,
     ) -> Result<Self, MatrixError> {
-        let expected = samples.len() * loci.len() * 2;
-        if codes.len() != expected {
-            return Err(MatrixError::WrongLength {
-                samples: samples.len(),
-                loci: loci.len(),
-                expected,
-                found: codes.len(),
-            });
-        }
-        let per_locus = samples.len() * 2;
-        for (l, locus) in loci.iter().enumerate() {
-            if locus.alleles.len() > u16::MAX as usize {
-                return Err(MatrixError::TooManyAlleles {
-                    locus: locus.name.clone(),
-                    labels: locus.alleles.len(),
-                });
-            }
-            let block = &codes[l * per_locus..(l + 1) * per_locus];
-            if let Some(bad) = block.iter().find(|c| c.0 as usize > locus.alleles.len()) {
-                return Err(MatrixError::CodeOutOfRange {
-                    locus: locus.name.clone(),
-                    labels: locus.alleles.len(),
-                    code: bad.0,
-                });
-            }
-        }
-        Ok(GenotypeMatrix { samples, loci, codes })
+        check_codes(&samples, &loci, &codes)?;
+        Ok(GenotypeMatrix { samples, loci, codes: CodeBuffer::Owned(codes) })
+    }
+
+    /// Builds a matrix over a code buffer it does not own, without copying it (the plugin SDK
+    /// reads the host's buffer this way). The buffer is checked like [`GenotypeMatrix::new`].
+    ///
+    /// # Errors
+    /// [`MatrixError`] when the buffer length or a code does not fit the metadata.
+    ///
+    /// # Safety
+    /// `codes` must stay valid and unmodified for as long as the returned matrix exists (a
+    /// clone owns a copy and is unaffected).
+    pub unsafe fn from_borrowed_codes(
+        samples: Vec<SampleMeta>,
+        loci: Vec<LocusMeta>,
+        codes: &[AlleleCode],
+    ) -> Result<Self, MatrixError> {
+        check_codes(&samples, &loci, codes)?;
+        Ok(GenotypeMatrix { samples, loci, codes: CodeBuffer::Borrowed { start: codes.as_ptr(), len: codes.len() } })
     }
 
     /// All samples, in input order.
@@ -141,7 +183,7 @@ impl GenotypeMatrix {
 
     /// The raw locus-major code buffer.
     pub fn codes(&self) -> &[AlleleCode] {
-        &self.codes
+        self.codes.as_slice()
     }
 
     /// A view of every sample and locus.
@@ -158,6 +200,37 @@ impl GenotypeMatrix {
     pub fn all_locus_indices(&self) -> Vec<usize> {
         (0..self.loci.len()).collect()
     }
+}
+
+/// Checks the buffer length and that every code has a label.
+fn check_codes(samples: &[SampleMeta], loci: &[LocusMeta], codes: &[AlleleCode]) -> Result<(), MatrixError> {
+    let expected = samples.len() * loci.len() * 2;
+    if codes.len() != expected {
+        return Err(MatrixError::WrongLength {
+            samples: samples.len(),
+            loci: loci.len(),
+            expected,
+            found: codes.len(),
+        });
+    }
+    let per_locus = samples.len() * 2;
+    for (l, locus) in loci.iter().enumerate() {
+        if locus.alleles.len() > u16::MAX as usize {
+            return Err(MatrixError::TooManyAlleles {
+                locus: locus.name.clone(),
+                labels: locus.alleles.len(),
+            });
+        }
+        let block = &codes[l * per_locus..(l + 1) * per_locus];
+        if let Some(bad) = block.iter().find(|c| c.0 as usize > locus.alleles.len()) {
+            return Err(MatrixError::CodeOutOfRange {
+                locus: locus.name.clone(),
+                labels: locus.alleles.len(),
+                code: bad.0,
+            });
+        }
+    }
+    Ok(())
 }
 
 /// One sampling group: a population in a year.
@@ -274,7 +347,8 @@ impl<'a> GenotypeView<'a> {
     fn codes(&self, sample: SampleIdx, locus: LocusIdx) -> (AlleleCode, AlleleCode) {
         let n = self.matrix.samples.len();
         let at = (self.loci[locus] * n + self.samples[sample]) * 2;
-        (self.matrix.codes[at], self.matrix.codes[at + 1])
+        let codes = self.matrix.codes();
+        (codes[at], codes[at + 1])
     }
 
     /// Groups (population, year) of the view's samples, sorted by population then year.

@@ -75,9 +75,10 @@ fn quoted_list(items: &[String]) -> String {
 }
 
 /// One parameter a step accepts.
+// No `deny_unknown_fields` here: serde cannot combine it with the flattened `kind`, and with it
+// no descriptor would read back from JSON (as external plugins send them).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
-#[serde(deny_unknown_fields)]
 pub struct ParamSpec {
     /// Parameter name as written in `[step.params]`.
     pub name: String,
@@ -219,6 +220,11 @@ impl Descriptor {
 }
 
 fn check_value(spec: &ParamSpec, value: &Value) -> Result<Value, ParamError> {
+    // `null` means "chosen from the data" and is admissible exactly where it is the default
+    // (a resolved record written by popgauge carries it explicitly).
+    if value.is_null() && spec.default.is_null() {
+        return Ok(Value::Null);
+    }
     let wrong_type = || ParamError::WrongType {
         name: spec.name.clone(),
         expected: spec.kind.describe(),
@@ -310,6 +316,14 @@ mod tests {
         assert!(descriptor().check_defaults().is_ok());
     }
 
+    /// Common practice: a descriptor survives JSON, as it must to cross the plugin ABI.
+    #[test]
+    fn descriptors_read_back_from_json() {
+        let d = descriptor().param("list", ParamKind::TextList { choices: vec![] }, json!([]), "texts");
+        let back: Descriptor = serde_json::from_str(&serde_json::to_string(&d).unwrap()).unwrap();
+        assert_eq!(back, d);
+    }
+
     #[test]
     fn refuses_unknown_names_with_a_suggestion() {
         let err = descriptor().resolve(&given(&[("max_mising_locus", json!(0.1))])).unwrap_err();
@@ -328,5 +342,14 @@ mod tests {
         assert_eq!(err.to_string(), "parameter `plan` is \"III\" but must be one of \"I\", \"II\"");
         let err = d.resolve(&given(&[("max_missing_locus", json!("0.2"))])).unwrap_err();
         assert!(matches!(err, ParamError::WrongType { .. }));
+        let err = d.resolve(&given(&[("min_group_size", Value::Null)])).unwrap_err();
+        assert!(matches!(err, ParamError::WrongType { .. }), "null only where it is the default");
+    }
+
+    #[test]
+    fn null_is_accepted_where_it_is_the_default() {
+        let d = descriptor().param("size", ParamKind::Integer { min: 2, max: 10 }, Value::Null, "automatic when null");
+        let resolved = d.resolve(&given(&[("size", Value::Null)])).unwrap();
+        assert_eq!(resolved["size"], Value::Null);
     }
 }

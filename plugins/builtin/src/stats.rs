@@ -6,8 +6,17 @@
 //! denominator is `None`, which reaches tables as `null`.
 
 pub mod bootstrap;
+pub mod drift;
+pub mod fdr;
+pub mod gst;
 pub mod heterozygosity;
+pub mod hwe_exact;
+pub mod intervals;
 pub mod null_allele;
+pub mod permutation;
+pub mod rarefaction;
+pub mod trend;
+pub mod weir_cockerham;
 
 /// Arithmetic mean; `None` for no values.
 pub fn mean(values: impl IntoIterator<Item = f64>) -> Option<f64> {

@@ -3,11 +3,28 @@
 
 use popgauge_abi::Step;
 
+pub mod differentiation;
 pub mod diversity;
+pub mod hwe;
+pub mod ne_hetx;
+pub mod ne_ld;
+pub mod ne_temporal;
+pub mod status;
+pub mod trend;
 pub mod validate;
 
 /// Every built-in step, in the order `popgauge steps` lists them.
-pub const BUILTIN: &[&dyn Step] = &[&validate::Validate, &diversity::Diversity];
+pub const BUILTIN: &[&dyn Step] = &[
+    &validate::Validate,
+    &diversity::Diversity,
+    &hwe::Hwe,
+    &differentiation::Differentiation,
+    &ne_ld::NeLd,
+    &ne_temporal::NeTemporal,
+    &ne_hetx::NeHetx,
+    &trend::Trend,
+    &status::Status,
+];
 
 /// The built-in step a recipe's `uses` names, if any.
 pub fn find(uses: &str) -> Option<&'static dyn Step> {
@@ -38,6 +55,7 @@ mod tests {
     fn registry_holds_the_designed_names() {
         assert!(find("validate").is_some());
         assert!(find("diversity").is_some());
+        assert!(find("hwe").is_some());
     }
 
     /// STYLE: every default is within its own range, parameter names are unique within a step,

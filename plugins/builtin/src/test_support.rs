@@ -2,6 +2,8 @@
 //! strings such as `"152/156"`, a runner that resolves parameters the way the engine does, and
 //! table accessors.
 
+pub(crate) mod sim;
+
 use std::collections::{BTreeMap, BTreeSet};
 
 use popgauge_abi::{

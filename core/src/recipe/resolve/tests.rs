@@ -104,3 +104,55 @@ fn missing_sections_and_recipe() {
     assert!(load_recipe(empty.path(), false).unwrap_err().to_string().contains("cannot read the recipe"));
 }
 
+
+#[test]
+fn report_templates_are_standard_or_a_folder_in_the_case() {
+    let standard = load_recipe(case_with(&format!("{MINIMAL}\n[report]\ntemplate = \"standard\"\n")).path(), false).unwrap();
+    assert_eq!((standard.report.template.as_str(), standard.report.template_dir.is_none()), ("standard", true));
+    let dir = case_with(&format!("{MINIMAL}\n[report]\ntemplate = \"layout\"\n"));
+    let error = load_recipe(dir.path(), false).unwrap_err().to_string();
+    assert!(error.starts_with("case.toml:17:12: template folder \"layout\" cannot be opened"), "{error}");
+    std::fs::create_dir(dir.path().join("layout")).unwrap();
+    let error = load_recipe(dir.path(), false).unwrap_err().to_string();
+    assert!(error.starts_with("case.toml:17:12: template folder \"layout\" has no assessment.typ"), "{error}");
+    std::fs::write(dir.path().join("layout/assessment.typ"), "Hello").unwrap();
+    let recipe = load_recipe(dir.path(), false).unwrap();
+    assert!(recipe.report.template_dir.unwrap().ends_with("layout"));
+    let outside = format!("{MINIMAL}\n[report]\ntemplate = \"../layout\"\n");
+    assert!(error_of(&outside).contains("template folder \"../layout\" leaves the case folder"));
+}
+
+#[test]
+fn plugin_keys_are_checked_before_anything_loads() {
+    let plugin = "[[step]]\nid = \"ext\"\nuses = \"plugin:libx.so\"\n";
+    let with = |extra: &str| format!("{MINIMAL}\n{plugin}{extra}");
+    assert_eq!(
+        error_of(&with("sha256 = \"abc\"\n")),
+        "case.toml:19:10: `sha256` is \"abc\", not 64 hexadecimal digits\n  help: copy the hash that `popgauge steps --plugin libx.so` prints"
+    );
+    let pin = format!("sha256 = \"{}\"\n", "a".repeat(64));
+    assert_eq!(
+        error_of(&with(&format!("{pin}isolation = \"sandbox\"\n"))),
+        "case.toml:20:13: `isolation` is \"sandbox\"\n  help: write \"process\" (default: crashes and hangs fail only this step) or \"in-process\" (faster)"
+    );
+    assert_eq!(
+        error_of(&with(&format!("{pin}timeout_seconds = 0\n"))),
+        "case.toml:20:19: `timeout_seconds` is 0, but it must be a whole number of seconds from 1 to 86400\n  help: for example 600 (ten minutes, the default)"
+    );
+    assert_eq!(
+        error_of(&format!("{MINIMAL}\n[[step]]\nid = \"ext\"\nuses = \"plugin:../libx.so\"\n{pin}")),
+        "case.toml:18:8: plugin path \"../libx.so\" leaves the case folder\n  help: copy the library into the case folder, or run with --allow-outside if this is intended"
+    );
+}
+
+#[test]
+fn plugin_keys_are_refused_on_built_in_steps() {
+    assert_eq!(
+        error_of(&MINIMAL.replace("uses = \"validate\"\n", "uses = \"validate\"\nisolation = \"process\"\n")),
+        "case.toml:13:13: `isolation` applies to external plugin steps; built-in steps run in popgauge\n  help: remove the `isolation` line"
+    );
+    assert_eq!(
+        error_of(&MINIMAL.replace("uses = \"validate\"\n", "uses = \"validate\"\ntimeout_seconds = 5\n")),
+        "case.toml:13:19: `timeout_seconds` applies to external plugin steps only\n  help: remove the `timeout_seconds` line"
+    );
+}

@@ -1,0 +1,44 @@
+//! `popgauge verify PROVENANCE`: reproduce an assessment from its provenance record.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use super::{EXIT_DIFFERENCES, StderrProgress};
+use crate::provenance::verify::{record_in, verify};
+
+/// Arguments of `popgauge verify`.
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The provenance.json of an output folder (or the output folder itself).
+    pub provenance: PathBuf,
+    /// The folder holding the case's recipe and data, when it has moved since the run
+    /// [default: the case folder recorded relative to the output folder].
+    #[arg(long, value_name = "DIR")]
+    pub data: Option<PathBuf>,
+    /// Show no progress.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Verifies and prints one line per input, step and output.
+///
+/// # Errors
+/// An unreadable record or a case that cannot be loaded at all.
+pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    let record = if args.provenance.is_dir() { record_in(&args.provenance) } else { args.provenance.clone() };
+    let report = verify(&record, args.data.as_deref(), &mut StderrProgress::new(args.quiet))?;
+    for note in &report.notes {
+        println!("{note}");
+    }
+    for item in &report.items {
+        println!("{item}");
+    }
+    let differences = report.differences();
+    if differences == 0 {
+        println!("verified: every input, step and output is the same as recorded");
+        Ok(ExitCode::SUCCESS)
+    } else {
+        println!("NOT verified: {differences} item(s) differ from the record");
+        Ok(ExitCode::from(EXIT_DIFFERENCES))
+    }
+}

@@ -1,0 +1,796 @@
+//! The science sections: data and validation, diversity, Hardy–Weinberg, differentiation,
+//! effective size, trends and additional (plugin) analyses.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use serde::Serialize;
+
+use popgauge_abi::{Finding, FindingLevel, StepResult};
+
+use super::super::contract::{Results, Row, Rows, col, table, table_of, uses};
+use super::super::figures::{Figure, IntervalPoint, Series};
+use super::super::format::{self, NumberStyle};
+use super::table::{HeatCell, HeatTable, TableData, generic};
+use super::{BODY_ROWS, Extras};
+use crate::engine::StepRun;
+
+/// What every section builder reads.
+pub(crate) struct Context<'a> {
+    /// The results.
+    pub results: Results<'a>,
+    /// Population names, sorted; a population's index is its colour and marker in charts.
+    pub populations: &'a [String],
+    /// Steps as they ran (parameters, seeds).
+    pub runs: &'a [StepRun],
+    /// Ne thresholds, ascending.
+    pub thresholds: &'a [f64],
+    /// Generation time in years.
+    pub generation_time: Option<f64>,
+}
+
+impl Context<'_> {
+    /// A population's chart style index.
+    pub fn style_of(&self, population: &str) -> usize {
+        self.populations.iter().position(|p| p == population).unwrap_or(self.populations.len())
+    }
+
+    /// A resolved parameter of the last step with this `uses`.
+    pub fn param(&self, uses: &str, name: &str) -> Option<&serde_json::Value> {
+        let step = self.results.step(uses)?;
+        self.runs.iter().find(|r| r.id == step.id).and_then(|r| r.params.get(name))
+    }
+}
+
+/// Data and validation.
+#[derive(Debug, Clone, Serialize)]
+pub struct DataSection {
+    /// Genotype file.
+    pub genotypes: String,
+    /// Samples, loci and groups read.
+    pub samples_read: usize,
+    /// Loci read.
+    pub loci_read: usize,
+    /// Groups read.
+    pub groups_read: usize,
+    /// Id of the `validate` step, when in the recipe.
+    pub validate_step: Option<String>,
+    /// Samples and loci kept after all exclusions, display text.
+    pub samples_kept: Option<String>,
+    /// Loci kept.
+    pub loci_kept: Option<String>,
+    /// Samples per group: read and kept.
+    pub groups: TableData,
+    /// Every exclusion by any step (body part).
+    pub exclusions: TableData,
+    /// Appendix key of the rest of the exclusions.
+    pub exclusions_more: Option<String>,
+    /// Finding counts.
+    pub errors: usize,
+    /// Warnings.
+    pub warnings: usize,
+    /// Informational findings.
+    pub infos: usize,
+    /// Errors and warnings (body part).
+    pub findings: TableData,
+    /// Appendix key of all findings.
+    pub findings_all: Option<String>,
+}
+
+/// Diversity and inbreeding.
+#[derive(Debug, Clone, Serialize)]
+pub struct DiversitySection {
+    /// Step id.
+    pub step: String,
+    /// Per group.
+    pub by_group: TableData,
+    /// Appendix key of the per-locus table.
+    pub by_locus: Option<String>,
+}
+
+/// Hardy–Weinberg tests.
+#[derive(Debug, Clone, Serialize)]
+pub struct HweSection {
+    /// Step id.
+    pub step: String,
+    /// Per group: loci tested, significant after FDR, deficits, excesses.
+    pub summary: TableData,
+    /// Appendix key of the per-locus table.
+    pub by_locus: Option<String>,
+}
+
+/// Differentiation.
+#[derive(Debug, Clone, Serialize)]
+pub struct DifferentiationSection {
+    /// Step id.
+    pub step: String,
+    /// FST below the diagonal (shaded), permutation p above.
+    pub matrix: Option<HeatTable>,
+    /// Which year the matrix shows (`pooled` or a year).
+    pub matrix_years: String,
+    /// Global FST with its interval, display text.
+    pub global: Option<String>,
+    /// Isolation-by-distance test, as a table.
+    pub ibd_test: Option<TableData>,
+    /// Appendix key of the full pairwise table.
+    pub pairwise: Option<String>,
+}
+
+/// Effective population size by method.
+#[derive(Debug, Clone, Serialize)]
+pub struct NeSection {
+    /// One block per Ne step.
+    pub methods: Vec<NeMethod>,
+    /// What the chart shows (its source), when drawn.
+    pub chart_source: Option<String>,
+}
+
+/// One Ne step's estimates.
+#[derive(Debug, Clone, Serialize)]
+pub struct NeMethod {
+    /// Step id.
+    pub step: String,
+    /// `ne-ld`, `ne-temporal` or `ne-hetx`.
+    pub uses: String,
+    /// Estimates (body part).
+    pub table: TableData,
+    /// Appendix key of the rest.
+    pub more: Option<String>,
+}
+
+/// Trends.
+#[derive(Debug, Clone, Serialize)]
+pub struct TrendSection {
+    /// Step id.
+    pub step: String,
+    /// Tests per population and metric.
+    pub tests: TableData,
+    /// Paired two-point comparisons, when the step made them.
+    pub paired: Option<TableData>,
+}
+
+/// A step the document has no section for.
+#[derive(Debug, Clone, Serialize)]
+pub struct AdditionalStep {
+    /// Step id.
+    pub id: String,
+    /// `uses` name.
+    pub uses: String,
+    /// Version.
+    pub version: String,
+    /// Its tables (body part), by name.
+    pub tables: Vec<NamedTable>,
+    /// Its findings, as text.
+    pub findings: Vec<String>,
+}
+
+/// A named table with an appendix key for its rest.
+#[derive(Debug, Clone, Serialize)]
+pub struct NamedTable {
+    /// Table name.
+    pub name: String,
+    /// Rows (body part).
+    pub table: TableData,
+    /// Appendix key of the rest.
+    pub more: Option<String>,
+}
+
+// ---------------------------------------------------------------------------------------------
+// Data and validation
+
+pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSection {
+    let doc = ctx.results.doc();
+    let validate = ctx.results.step(uses::VALIDATE);
+    let excluded_samples: BTreeSet<&str> = doc.steps.iter().flat_map(|s| s.exclusions.samples.iter().map(|e| e.name.as_str())).collect();
+    let excluded_loci: BTreeSet<&str> = doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
+    let mut exclusions = exclusions_table(&doc.steps, validate);
+    let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into());
+    let findings: Vec<(String, &Finding)> = doc
+        .data
+        .findings
+        .iter()
+        .map(|f| ("input".to_string(), f))
+        .chain(doc.steps.iter().flat_map(|s| s.findings.iter().map(move |f| (s.id.clone(), f))))
+        .collect();
+    let count = |level| findings.iter().filter(|(_, f)| f.level == level).count();
+    let serious: Vec<&(String, &Finding)> = findings.iter().filter(|(_, f)| f.level >= FindingLevel::Warning).collect();
+    let mut body_findings = findings_table(serious.iter().copied().take(15));
+    body_findings.drop_empty_columns(&[]);
+    let findings_all = (findings.len() > body_findings.rows.len()).then(|| extras.appendix("All findings".into(), findings_table(findings.iter())));
+    DataSection {
+        genotypes: doc.data.genotypes.clone(),
+        samples_read: doc.data.samples,
+        loci_read: doc.data.loci,
+        groups_read: doc.data.groups.len(),
+        validate_step: validate.map(|s| s.id.clone()),
+        samples_kept: validate.map(|_| (doc.data.samples.saturating_sub(excluded_samples.len())).to_string()),
+        loci_kept: validate.map(|_| (doc.data.loci.saturating_sub(excluded_loci.len())).to_string()),
+        groups: groups_table(ctx),
+        exclusions,
+        exclusions_more,
+        errors: count(FindingLevel::Error),
+        warnings: count(FindingLevel::Warning),
+        infos: count(FindingLevel::Info),
+        findings: body_findings,
+        findings_all,
+    }
+}
+
+fn groups_table(ctx: &Context<'_>) -> TableData {
+    if let Some(groups) = ctx.results.table(uses::VALIDATE, table::GROUPS) {
+        let mut t = TableData::new(&[("Population", false), ("Year", true), ("Samples read", true), ("Kept", true), ("Group", false)]);
+        for row in groups.iter() {
+            t.push(vec![
+                text(&row, col::POPULATION),
+                whole(&row, col::YEAR),
+                whole(&row, col::N_TOTAL),
+                whole(&row, col::N_KEPT),
+                text(&row, col::STATUS),
+            ]);
+        }
+        return t;
+    }
+    let mut t = TableData::new(&[("Population", false), ("Year", true), ("Samples read", true)]);
+    for group in &ctx.results.doc().data.groups {
+        t.push(vec![group.population.clone(), group.year.to_string(), group.n.to_string()]);
+    }
+    t
+}
+
+fn exclusions_table(steps: &[StepResult], validate: Option<&StepResult>) -> TableData {
+    let samples = validate.and_then(|v| table_of(v, table::SAMPLES));
+    let group_of = |name: &str| -> String {
+        samples
+            .and_then(|t| t.iter().find(|r| r.text(col::SAMPLE) == Some(name)))
+            .map(|r| format!("{} {}", r.text(col::POPULATION).unwrap_or(""), r.label(col::YEAR).unwrap_or_default()).trim().to_string())
+            .unwrap_or_default()
+    };
+    let mut t = TableData::new(&[("What", false), ("Name", false), ("Group", false), ("Step", false), ("Reason", false)]);
+    for step in steps {
+        for e in &step.exclusions.loci {
+            t.push(vec!["locus".into(), e.name.clone(), format::UNDEFINED.into(), step.id.clone(), e.reason.clone()]);
+        }
+        for e in &step.exclusions.samples {
+            let group = group_of(&e.name);
+            t.push(vec!["sample".into(), e.name.clone(), if group.is_empty() { format::UNDEFINED.into() } else { group }, step.id.clone(), e.reason.clone()]);
+        }
+    }
+    t
+}
+
+fn findings_table<'f>(findings: impl Iterator<Item = &'f (String, &'f Finding)>) -> TableData {
+    let mut t = TableData::new(&[("Level", false), ("Source", false), ("Where", false), ("Finding", false)]);
+    for (source, finding) in findings {
+        t.push(vec![finding.level.to_string(), source.clone(), where_text(&finding.location), finding.message.clone()]);
+    }
+    t
+}
+
+fn where_text(w: &popgauge_abi::Where) -> String {
+    let mut parts = Vec::new();
+    if let Some(file) = &w.file {
+        parts.push(match w.line {
+            Some(line) => format!("{file}:{line}"),
+            None => file.clone(),
+        });
+    }
+    if let Some(c) = &w.column {
+        parts.push(format!("column {c}"));
+    }
+    match (&w.population, w.year) {
+        (Some(p), Some(y)) => parts.push(format!("{p} {y}")),
+        (Some(p), None) => parts.push(p.clone()),
+        (None, Some(y)) => parts.push(y.to_string()),
+        (None, None) => {}
+    }
+    if let Some(l) = &w.locus {
+        parts.push(format!("locus {l}"));
+    }
+    if let Some(s) = &w.sample {
+        parts.push(format!("sample {s}"));
+    }
+    if parts.is_empty() { format::UNDEFINED.into() } else { parts.join(", ") }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Diversity, Hardy–Weinberg
+
+pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<DiversitySection> {
+    let step = ctx.results.step(uses::DIVERSITY)?;
+    let by_group = table_of(step, table::BY_GROUP)?;
+    let mut t = TableData::new(&[
+        ("Population", false),
+        ("Year", true),
+        ("n", true),
+        ("Ho", true),
+        ("He", true),
+        ("F", true),
+        ("FIS (95 % CI)", true),
+        ("Ar", true),
+        ("PAr", true),
+        ("Alleles", true),
+    ]);
+    for row in by_group.iter() {
+        let fis = match row.num(col::FIS) {
+            None => format::UNDEFINED.to_string(),
+            Some(fis) => match (row.num(col::FIS_LOW), row.num(col::FIS_HIGH)) {
+                (None, None) => format::fixed(fis, 3),
+                (low, high) => format!("{} ({})", format::fixed(fis, 3), format::interval(low, high, NumberStyle::Fixed(3))),
+            },
+        };
+        t.push(vec![
+            text(&row, col::POPULATION),
+            whole(&row, col::YEAR),
+            whole(&row, col::N),
+            fixed3(&row, col::HO),
+            fixed3(&row, col::HE),
+            fixed3(&row, col::F),
+            fis,
+            fixed3(&row, col::AR),
+            fixed3(&row, col::PAR),
+            format::maybe(row.num(col::ALLELES_MEAN), NumberStyle::Fixed(2)),
+        ]);
+    }
+    t.drop_empty_columns(&["Population", "Year", "Ho", "He", "F"]);
+    let by_locus = table_of(step, table::BY_LOCUS).filter(|t| !t.is_empty()).map(|t| {
+        let mut data = generic(&t);
+        data.drop_empty_columns(&[]);
+        extras.appendix(format!("Diversity per locus and group (step \"{}\")", step.id), data)
+    });
+    he_over_years(ctx, &by_group, extras);
+    Some(DiversitySection { step: step.id.clone(), by_group: t, by_locus })
+}
+
+/// He over years per population, with the trend step's least-squares slope when present.
+fn he_over_years(ctx: &Context<'_>, by_group: &Rows<'_>, extras: &mut Extras) {
+    let slopes = trend_slopes(ctx, "he");
+    let series = series_by_population(ctx, by_group.iter().filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::HE)?))), &slopes);
+    if series.iter().any(|s| s.points.len() >= 2) {
+        let alt = format!("Expected heterozygosity He per population and sampling year{}.", if slopes.is_empty() { "" } else { ", with the least-squares trend of each population as a dashed line" });
+        extras.figure("he-years", Figure::Lines { series, x_label: "Sampling year".into(), y_label: "He (unbiased)".into(), log_y: false, y_from_zero: false }, alt);
+    }
+}
+
+/// One series per population from (population, x, y) triples, points sorted by x.
+fn series_by_population(ctx: &Context<'_>, values: impl Iterator<Item = (String, f64, f64)>, slopes: &BTreeMap<String, f64>) -> Vec<Series> {
+    let mut by_population: BTreeMap<String, Vec<(f64, f64)>> = BTreeMap::new();
+    for (population, x, y) in values {
+        by_population.entry(population).or_default().push((x, y));
+    }
+    by_population
+        .into_iter()
+        .map(|(name, mut points)| {
+            points.sort_by(|a, b| a.0.total_cmp(&b.0));
+            Series { style: ctx.style_of(&name), slope: slopes.get(&name).copied(), name, points }
+        })
+        .collect()
+}
+
+/// Least-squares slopes per population for one trend metric.
+fn trend_slopes(ctx: &Context<'_>, metric: &str) -> BTreeMap<String, f64> {
+    ctx.results
+        .table(uses::TREND, table::TESTS)
+        .map(|t| {
+            t.iter()
+                .filter(|r| r.text(col::METRIC) == Some(metric))
+                .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::OLS_SLOPE).filter(|s| s.is_finite())?)))
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+pub(crate) fn hwe_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<HweSection> {
+    let step = ctx.results.step(uses::HWE)?;
+    let by_locus = table_of(step, table::BY_LOCUS)?;
+    #[derive(Default)]
+    struct Tally {
+        tested: usize,
+        significant: usize,
+        deficit: usize,
+        excess: usize,
+    }
+    let mut tallies: BTreeMap<(String, String), Tally> = BTreeMap::new();
+    for row in by_locus.iter() {
+        let key = (text(&row, col::POPULATION), whole(&row, col::YEAR));
+        let tally = tallies.entry(key).or_default();
+        if row.num(col::P_VALUE).is_some() {
+            tally.tested += 1;
+        }
+        if row.num(col::Q_VALUE).is_some_and(|q| q < 0.05) {
+            tally.significant += 1;
+            match row.text(col::DIRECTION) {
+                Some(d) if d.contains("deficit") => tally.deficit += 1,
+                Some(d) if d.contains("excess") => tally.excess += 1,
+                _ => {}
+            }
+        }
+    }
+    let mut summary = TableData::new(&[("Population", false), ("Year", true), ("Loci tested", true), ("q < 0.05", true), ("Deficit", true), ("Excess", true)]);
+    for ((population, year), t) in tallies {
+        summary.push(vec![population, year, t.tested.to_string(), t.significant.to_string(), t.deficit.to_string(), t.excess.to_string()]);
+    }
+    let key = (!by_locus.is_empty()).then(|| extras.appendix(format!("Hardy–Weinberg tests per locus and group (step \"{}\")", step.id), generic(&by_locus)));
+    Some(HweSection { step: step.id.clone(), summary, by_locus: key })
+}
+
+// ---------------------------------------------------------------------------------------------
+// Differentiation
+
+pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<DifferentiationSection> {
+    let step = ctx.results.step(uses::DIFFERENTIATION)?;
+    let pairwise = table_of(step, table::PAIRWISE);
+    let (matrix, matrix_years) = match &pairwise {
+        Some(p) => fst_matrix(ctx, p, extras),
+        None => (None, String::new()),
+    };
+    let global = table_of(step, table::GLOBAL).and_then(|g| {
+        let row = g.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| g.iter().next())?;
+        let fst = row.num(col::FST)?;
+        Some(match (row.num(col::FST_LOW), row.num(col::FST_HIGH)) {
+            (None, None) => format::fixed(fst, 3),
+            (low, high) => format!("{} (95 % CI {})", format::fixed(fst, 3), format::interval(low, high, NumberStyle::Fixed(3))),
+        })
+    });
+    if let Some(ibd) = table_of(step, table::IBD) {
+        isolation_by_distance(&ibd, table_of(step, table::IBD_TEST), extras);
+    }
+    let ibd_test = table_of(step, table::IBD_TEST).filter(|t| !t.is_empty()).map(|t| generic(&t));
+    let pairwise_key = pairwise.filter(|p| !p.is_empty()).map(|p| {
+        let mut data = generic(&p);
+        data.drop_empty_columns(&[]);
+        extras.appendix(format!("Pairwise differentiation (step \"{}\")", step.id), data)
+    });
+    Some(DifferentiationSection { step: step.id.clone(), matrix, matrix_years, global, ibd_test, pairwise: pairwise_key })
+}
+
+/// The FST matrix of the pooled rows (year `null`), or of the latest year when every row has
+/// one; FST below the diagonal, permutation p above.
+fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (Option<HeatTable>, String) {
+    let pooled: Vec<Row<'_>> = pairwise.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
+    let (rows, years) = if pooled.is_empty() {
+        let latest = pairwise.iter().filter_map(|r| r.int(col::YEAR)).max();
+        (pairwise.iter().filter(|r| r.int(col::YEAR) == latest).collect::<Vec<_>>(), latest.map_or_else(String::new, |y| y.to_string()))
+    } else {
+        (pooled, "pooled".to_string())
+    };
+    let names: Vec<String> = ctx
+        .populations
+        .iter()
+        .filter(|p| rows.iter().any(|r| r.text(col::POP_A) == Some(p.as_str()) || r.text(col::POP_B) == Some(p.as_str())))
+        .cloned()
+        .collect();
+    if names.len() < 2 {
+        return (None, years);
+    }
+    let index = |name: Option<&str>| name.and_then(|n| names.iter().position(|p| p == n));
+    let mut fst = vec![vec![None; names.len()]; names.len()];
+    let mut p = vec![vec![None; names.len()]; names.len()];
+    for row in &rows {
+        if let (Some(a), Some(b)) = (index(row.text(col::POP_A)), index(row.text(col::POP_B))) {
+            let (hi, lo) = if a > b { (a, b) } else { (b, a) };
+            fst[hi][lo] = row.num(col::FST);
+            p[lo][hi] = row.num(col::FST_P);
+        }
+    }
+    let max = fst.iter().flatten().flatten().copied().filter(|v| v.is_finite()).fold(0.0_f64, f64::max);
+    let cells = (0..names.len())
+        .map(|i| {
+            (0..names.len())
+                .map(|j| match i.cmp(&j) {
+                    std::cmp::Ordering::Equal => HeatCell { text: String::new(), heat: None },
+                    std::cmp::Ordering::Greater => HeatCell {
+                        text: format::maybe(fst[i][j], NumberStyle::Fixed(3)),
+                        heat: fst[i][j].filter(|v| v.is_finite()).map(|v| if max > 0.0 { (v / max).clamp(0.0, 1.0) } else { 0.0 }),
+                    },
+                    std::cmp::Ordering::Less => HeatCell { text: format::maybe(p[i][j], NumberStyle::PValue), heat: None },
+                })
+                .collect()
+        })
+        .collect();
+    let alt = format!("Heat map of pairwise FST between {} populations ({}); darker cells are more differentiated, the largest value is {}.", names.len(), years, format::fixed(max, 3));
+    extras.figure("fst-heatmap", Figure::HeatMap { labels: names.clone(), values: fst, value_label: "FST".into() }, alt);
+    (Some(HeatTable { labels: names, cells, max: format::fixed(max, 3) }), years)
+}
+
+/// The isolation-by-distance scatter: the first column naming a distance against the first
+/// naming FST, with the test's slope when it gives one.
+fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Extras) {
+    let columns = &ibd.table().columns;
+    let x = columns.iter().find(|c| c.contains("dist"));
+    let y = columns.iter().find(|c| c.contains("fst") && c.contains("lin")).or_else(|| columns.iter().find(|c| c.contains("fst")));
+    let (Some(x), Some(y)) = (x, y) else { return };
+    let pooled: Vec<Row<'_>> = ibd.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
+    let rows = if pooled.is_empty() { ibd.iter().collect() } else { pooled };
+    let points: Vec<(f64, f64)> = rows.iter().filter_map(|r| Some((r.num(x)?, r.num(y)?))).filter(|p| p.0.is_finite() && p.0 > 0.0 && p.1.is_finite()).collect();
+    if points.len() < 3 {
+        return;
+    }
+    // The test regresses on ln(distance) (Rousset 1997), so the chart's distance axis is
+    // logarithmic and the fitted line straight on it.
+    let test_row = test.and_then(|t| t.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| t.iter().next()));
+    let fit = test_row.and_then(|r| Some((r.num("intercept")?, r.num("slope")?)));
+    let x_label = if x.contains("km") { "Geographic distance (km, logarithmic axis)".to_string() } else { x.replace('_', " ") };
+    let y_label = if y.contains("lin") { "FST/(1 − FST)".to_string() } else { y.replace('_', " ") };
+    let alt = format!("Isolation by distance: {y_label} against {x_label} for {} population pairs.", points.len());
+    extras.figure("ibd", Figure::Scatter { points, fit, log_x: x.contains("dist"), x_label, y_label }, alt);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Effective population size
+
+pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSection> {
+    let mut methods = Vec::new();
+    for uses_name in [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX] {
+        for step in ctx.results.steps(uses_name) {
+            let Some(estimates) = table_of(step, table::ESTIMATES) else { continue };
+            let mut t = match uses_name {
+                uses::NE_LD => ld_table(&estimates),
+                uses::NE_TEMPORAL => temporal_table(&estimates),
+                _ => hetx_table(&estimates),
+            };
+            let more = extras.overflow(&mut t, format!("Ne estimates of step \"{}\" (continued)", step.id));
+            methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more });
+        }
+    }
+    let chart_source = ne_chart(ctx, extras);
+    ne_over_years(ctx, extras);
+    if methods.is_empty() && chart_source.is_none() {
+        return None;
+    }
+    Some(NeSection { methods, chart_source })
+}
+
+fn ld_table(rows: &Rows<'_>) -> TableData {
+    let mut t = TableData::new(&[
+        ("Population", false),
+        ("Year", true),
+        ("Pcrit", true),
+        ("S", true),
+        ("Ne", true),
+        ("95 % CI (resampling)", true),
+        ("95 % CI (jackknife)", true),
+        ("95 % CI (parametric)", true),
+    ]);
+    for row in rows.iter() {
+        t.push(vec![
+            text(&row, col::POPULATION),
+            whole(&row, col::YEAR),
+            format::maybe(row.num(col::PCRIT), NumberStyle::Short(3)),
+            format::maybe(row.num(col::S), NumberStyle::Significant(3)),
+            ne(&row, col::NE),
+            ne_interval(&row, col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH),
+            ne_interval(&row, col::NE_JACK_LOW, col::NE_JACK_HIGH),
+            ne_interval(&row, col::NE_PARAM_LOW, col::NE_PARAM_HIGH),
+        ]);
+    }
+    t.drop_empty_columns(&["Population", "Ne"]);
+    t
+}
+
+fn temporal_table(rows: &Rows<'_>) -> TableData {
+    let mut t = TableData::new(&[("Population", false), ("Interval", false), ("Generations", true), ("Ne (Fs)", true), ("95 % CI", true), ("Ne (Fc)", true), ("Ne (Fk)", true)]);
+    for row in rows.iter() {
+        t.push(vec![
+            text(&row, col::POPULATION),
+            format!("{}–{}", whole(&row, col::YEAR_START), whole(&row, col::YEAR_END)),
+            format::maybe(row.num(col::GENERATIONS), NumberStyle::Short(3)),
+            ne(&row, col::NE_FS),
+            ne_interval(&row, col::NE_LOW, col::NE_HIGH),
+            ne(&row, "ne_fc"),
+            ne(&row, "ne_fk"),
+        ]);
+    }
+    t.drop_empty_columns(&["Population", "Ne (Fs)"]);
+    t
+}
+
+fn hetx_table(rows: &Rows<'_>) -> TableData {
+    let mut t = TableData::new(&[("Population", false), ("Year", true), ("D", true), ("Ne", true)]);
+    for row in rows.iter() {
+        t.push(vec![text(&row, col::POPULATION), whole(&row, col::YEAR), format::maybe(row.num(col::D), NumberStyle::Fixed(3)), ne(&row, col::NE)]);
+    }
+    t
+}
+
+/// The Pcrit the chart and the over-years series use: 0.02 when estimated, else the first.
+fn chosen_pcrit(rows: &Rows<'_>) -> Option<f64> {
+    let values: Vec<f64> = rows.iter().filter_map(|r| r.num(col::PCRIT)).collect();
+    values.iter().copied().find(|p| (p - 0.02).abs() < 1e-12).or_else(|| values.first().copied())
+}
+
+/// Ne per population with its interval, against the thresholds: the status step's chosen
+/// estimate when present, otherwise the latest LD estimate, otherwise the temporal one.
+fn ne_chart(ctx: &Context<'_>, extras: &mut Extras) -> Option<String> {
+    let (points, source) = status_points(ctx).or_else(|| ld_points(ctx)).or_else(|| temporal_points(ctx))?;
+    if points.is_empty() {
+        return None;
+    }
+    let alt = format!(
+        "Effective population size per population ({source}) with 95 % confidence intervals on a logarithmic axis; dashed lines mark the thresholds Ne = {}.",
+        ctx.thresholds.iter().map(|t| format::effective_size(*t)).collect::<Vec<_>>().join(" and ")
+    );
+    extras.figure("ne", Figure::IntervalsAgainstThresholds { points, thresholds: ctx.thresholds.to_vec(), y_label: "Effective population size Ne".into() }, alt);
+    Some(source)
+}
+
+type Points = (Vec<IntervalPoint>, String);
+
+fn status_points(ctx: &Context<'_>) -> Option<Points> {
+    let step = ctx.results.step(uses::STATUS)?;
+    let rows = table_of(step, table::POPULATIONS)?;
+    let latest = latest_rows(&rows);
+    let points = latest
+        .iter()
+        .filter_map(|r| {
+            let population = r.text(col::POPULATION)?;
+            Some(IntervalPoint { label: population.into(), style: ctx.style_of(population), value: r.num(col::NE)?, low: r.num(col::NE_LOW), high: r.num(col::NE_HIGH) })
+        })
+        .collect();
+    Some((points, format!("the estimate chosen by step \"{}\"", step.id)))
+}
+
+fn ld_points(ctx: &Context<'_>) -> Option<Points> {
+    let step = ctx.results.step(uses::NE_LD)?;
+    let rows = table_of(step, table::ESTIMATES)?;
+    let pcrit = chosen_pcrit(&rows);
+    let at_pcrit: Vec<Row<'_>> = rows.iter().filter(|r| r.num(col::PCRIT) == pcrit).collect();
+    let mut points = Vec::new();
+    for population in ctx.populations {
+        let Some(row) = at_pcrit.iter().filter(|r| r.text(col::POPULATION) == Some(population.as_str())).max_by_key(|r| r.int(col::YEAR)) else { continue };
+        let Some(value) = row.num(col::NE) else { continue };
+        // The recommended interval first (resampling individuals), then the loci jackknife,
+        // then the parametric one.
+        let (low, high) = [(col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH), (col::NE_JACK_LOW, col::NE_JACK_HIGH), (col::NE_PARAM_LOW, col::NE_PARAM_HIGH)]
+            .into_iter()
+            .map(|(l, h)| (row.num(l), row.num(h)))
+            .find(|(l, h)| l.is_some() || h.is_some())
+            .unwrap_or((None, None));
+        points.push(IntervalPoint { label: format!("{population} {}", row.label(col::YEAR).unwrap_or_default()), style: ctx.style_of(population), value, low, high });
+    }
+    let pcrit_text = pcrit.map_or_else(String::new, |p| format!(", Pcrit = {}", format::significant(p, 2)));
+    Some((points, format!("LD estimate of the latest sample, step \"{}\"{pcrit_text}", step.id)))
+}
+
+fn temporal_points(ctx: &Context<'_>) -> Option<Points> {
+    let step = ctx.results.step(uses::NE_TEMPORAL)?;
+    let rows = table_of(step, table::ESTIMATES)?;
+    let points = ctx
+        .populations
+        .iter()
+        .filter_map(|population| {
+            let row = rows.iter().filter(|r| r.text(col::POPULATION) == Some(population.as_str())).max_by_key(|r| (r.int(col::YEAR_END), std::cmp::Reverse(r.int(col::YEAR_START))))?;
+            Some(IntervalPoint { label: population.clone(), style: ctx.style_of(population), value: row.num(col::NE_FS)?, low: row.num(col::NE_LOW), high: row.num(col::NE_HIGH) })
+        })
+        .collect();
+    Some((points, format!("temporal estimate over the longest interval, step \"{}\"", step.id)))
+}
+
+/// LD Ne over sampling years per population (log axis), when there are at least two years.
+fn ne_over_years(ctx: &Context<'_>, extras: &mut Extras) {
+    let Some(step) = ctx.results.step(uses::NE_LD) else { return };
+    let Some(rows) = table_of(step, table::ESTIMATES) else { return };
+    let pcrit = chosen_pcrit(&rows);
+    let slopes = trend_slopes(ctx, &format!("ne:{}", step.id));
+    let values = rows
+        .iter()
+        .filter(|r| r.num(col::PCRIT) == pcrit)
+        .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::NE).filter(|v| v.is_finite())?)));
+    let series = series_by_population(ctx, values, &slopes);
+    if series.iter().any(|s| s.points.len() >= 2) {
+        let alt = format!("LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; infinite estimates are left out.", step.id);
+        extras.figure("ne-years", Figure::Lines { series, x_label: "Sampling year".into(), y_label: "Ne (LD)".into(), log_y: true, y_from_zero: false }, alt);
+    }
+}
+
+/// The row of each population with the latest year (or the only row when there is no year).
+pub(crate) fn latest_rows<'a>(rows: &Rows<'a>) -> Vec<Row<'a>> {
+    let mut latest: BTreeMap<String, Row<'a>> = BTreeMap::new();
+    for row in rows.iter() {
+        let Some(population) = row.text(col::POPULATION) else { continue };
+        let newer = latest.get(population).is_none_or(|old| row.int(col::YEAR) >= old.int(col::YEAR));
+        if newer {
+            latest.insert(population.to_string(), row);
+        }
+    }
+    latest.into_values().collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Trends
+
+pub(crate) fn trend_section(ctx: &Context<'_>, _extras: &mut Extras) -> Option<TrendSection> {
+    let step = ctx.results.step(uses::TREND)?;
+    let mut tests = TableData::new(&[
+        ("Population", false),
+        ("Metric", false),
+        ("Points", true),
+        ("Kendall τ", true),
+        ("p (MK)", true),
+        ("Sen slope /yr", true),
+        ("LS slope /yr (95 % CI)", true),
+    ]);
+    if let Some(rows) = table_of(step, table::TESTS) {
+        for row in rows.iter() {
+            let ls = match row.num(col::OLS_SLOPE) {
+                None => format::UNDEFINED.to_string(),
+                Some(s) => format!("{} ({})", format::significant(s, 3), format::interval(row.num(col::OLS_LOW), row.num(col::OLS_HIGH), NumberStyle::Significant(3))),
+            };
+            tests.push(vec![
+                text(&row, col::POPULATION),
+                metric_label(row.text(col::METRIC).unwrap_or("")),
+                whole(&row, col::POINTS),
+                format::maybe(row.num(col::MK_TAU), NumberStyle::Fixed(2)),
+                format::maybe(row.num(col::MK_P), NumberStyle::PValue),
+                format::maybe(row.num(col::SEN_SLOPE), NumberStyle::Significant(3)),
+                ls,
+            ]);
+        }
+    }
+    let paired = table_of(step, table::PAIRED).filter(|t| !t.is_empty()).map(|t| generic(&t));
+    Some(TrendSection { step: step.id.clone(), tests, paired })
+}
+
+/// `he` → `He`, `ne:ld` → `Ne (ld)`.
+pub(crate) fn metric_label(metric: &str) -> String {
+    match metric {
+        "he" => "He".into(),
+        "ho" => "Ho".into(),
+        "ar" => "Ar".into(),
+        "f" => "F".into(),
+        other => match other.strip_prefix("ne:") {
+            Some(step) => format!("Ne ({step})"),
+            None => other.to_string(),
+        },
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Additional analyses
+
+pub(crate) fn additional_steps(ctx: &Context<'_>, extras: &mut Extras) -> Vec<AdditionalStep> {
+    ctx.results
+        .doc()
+        .steps
+        .iter()
+        .filter(|s| !uses::KNOWN.contains(&s.uses.as_str()))
+        .map(|step| AdditionalStep {
+            id: step.id.clone(),
+            uses: step.uses.clone(),
+            version: step.version.clone(),
+            tables: step
+                .tables
+                .keys()
+                .filter_map(|name| {
+                    let rows = table_of(step, name)?;
+                    let mut table = generic(&rows);
+                    let keep = BODY_ROWS.min(20);
+                    let more = table.split_off(keep).map(|rest| extras.appendix(format!("Table \"{name}\" of step \"{}\" (continued)", step.id), rest));
+                    Some(NamedTable { name: name.clone(), table, more })
+                })
+                .collect(),
+            findings: step.findings.iter().map(|f| format!("{}: {}", f.level, f.message)).collect(),
+        })
+        .collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Cell helpers
+
+pub(crate) fn text(row: &Row<'_>, column: &str) -> String {
+    row.label(column).unwrap_or_else(|| format::UNDEFINED.into())
+}
+
+pub(crate) fn whole(row: &Row<'_>, column: &str) -> String {
+    row.cell(column).map_or_else(|| format::UNDEFINED.into(), |c| format::cell(c, NumberStyle::Whole))
+}
+
+pub(crate) fn fixed3(row: &Row<'_>, column: &str) -> String {
+    format::maybe(row.num(column), NumberStyle::Fixed(3))
+}
+
+pub(crate) fn ne(row: &Row<'_>, column: &str) -> String {
+    format::maybe(row.num(column), NumberStyle::EffectiveSize)
+}
+
+pub(crate) fn ne_interval(row: &Row<'_>, low: &str, high: &str) -> String {
+    format::interval(row.num(low), row.num(high), NumberStyle::EffectiveSize)
+}

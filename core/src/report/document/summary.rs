@@ -1,0 +1,356 @@
+//! The executive summary (one status line and one table row per population) and the
+//! projections of heterozygosity and inbreeding from the `status` step.
+
+use serde::Serialize;
+
+use super::super::contract::{Row, col, table, table_of, uses};
+use super::super::figures::{Figure, Series};
+use super::super::format::{self, NumberStyle};
+use super::Extras;
+use super::sections::{Context, latest_rows};
+use super::table::{TableData, generic};
+
+/// The executive summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct Summary {
+    /// Id of the `status` step, when in the recipe.
+    pub status_step: Option<String>,
+    /// Ids of the Ne steps in the recipe.
+    pub ne_steps: Vec<String>,
+    /// Id of the `diversity` step, when in the recipe.
+    pub diversity_step: Option<String>,
+    /// Projection horizon in years (the status step's `horizon_years`).
+    pub horizon_years: Option<String>,
+    /// The horizon in generations.
+    pub horizon_generations: Option<String>,
+    /// One entry per population.
+    pub populations: Vec<PopulationSummary>,
+    /// The status table.
+    pub table: TableData,
+    /// Shares of populations above each threshold (the status step's `indicator`).
+    pub indicator: Option<TableData>,
+}
+
+/// What the summary says about one population.
+#[derive(Debug, Clone, Serialize)]
+pub struct PopulationSummary {
+    /// Name.
+    pub name: String,
+    /// Status from the `status` step.
+    pub status: Option<StatusFacts>,
+    /// Latest diversity.
+    pub diversity: Option<DiversityFacts>,
+    /// He trend in words.
+    pub trend: Option<String>,
+    /// Projected drift over the horizon.
+    pub drift: Option<DriftFacts>,
+}
+
+/// Ne and category of one population.
+#[derive(Debug, Clone, Serialize)]
+pub struct StatusFacts {
+    /// Year the Ne refers to.
+    pub year: Option<String>,
+    /// Ne.
+    pub ne: String,
+    /// Its 95 % interval, when given.
+    pub ne_ci: Option<String>,
+    /// Which estimate the status step chose.
+    pub method: Option<String>,
+    /// The step's category.
+    pub category: String,
+    /// Ne/Nc.
+    pub ne_nc: Option<String>,
+}
+
+/// Latest diversity of one population.
+#[derive(Debug, Clone, Serialize)]
+pub struct DiversityFacts {
+    /// Sampling year.
+    pub year: String,
+    /// Samples.
+    pub n: String,
+    /// Ho.
+    pub ho: String,
+    /// He.
+    pub he: String,
+    /// F.
+    pub f: String,
+}
+
+/// Heterozygosity kept and inbreeding reached over the horizon.
+#[derive(Debug, Clone, Serialize)]
+pub struct DriftFacts {
+    /// Ne used.
+    pub ne: String,
+    /// Share of today's heterozygosity retained.
+    pub h_retained: String,
+    /// Its range over the Ne interval, when given.
+    pub h_retained_ci: Option<String>,
+    /// Share lost.
+    pub h_lost: String,
+    /// F today (latest diversity), when known.
+    pub f_now: Option<String>,
+    /// F at the horizon.
+    pub f_projected: Option<String>,
+}
+
+/// The projections section.
+#[derive(Debug, Clone, Serialize)]
+pub struct ProjectionSection {
+    /// Step id.
+    pub step: String,
+    /// Horizon in years.
+    pub horizon_years: Option<String>,
+    /// Horizon in generations.
+    pub horizon_generations: Option<String>,
+    /// The share of heterozygosity a population should keep over the horizon (Soulé et al.
+    /// 1986), when the step states it.
+    pub retain_target: Option<String>,
+    /// The Ne that keeps that share.
+    pub ne_required: Option<String>,
+    /// Per population: Ne, heterozygosity retained, F now and projected.
+    pub table: TableData,
+}
+
+pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
+    let status = ctx.results.step(uses::STATUS);
+    let status_rows = status.and_then(|s| table_of(s, table::POPULATIONS)).map(|t| latest_rows(&t)).unwrap_or_default();
+    let diversity_rows = ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
+    let (horizon_years, horizon_generations) = horizon(ctx);
+    let populations: Vec<PopulationSummary> = ctx
+        .populations
+        .iter()
+        .map(|name| {
+            let status_row = status_rows.iter().find(|r| r.text(col::POPULATION) == Some(name.as_str()));
+            let diversity_row = diversity_rows.iter().find(|r| r.text(col::POPULATION) == Some(name.as_str()));
+            PopulationSummary {
+                name: name.clone(),
+                status: status_row.map(status_facts),
+                diversity: diversity_row.map(diversity_facts),
+                trend: he_trend(ctx, name),
+                drift: status_row.and_then(|r| drift_facts(r, diversity_row)),
+            }
+        })
+        .collect();
+    let ne_steps = [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX].iter().flat_map(|u| ctx.results.steps(u)).map(|s| s.id.clone()).collect();
+    Summary {
+        status_step: status.map(|s| s.id.clone()),
+        ne_steps,
+        diversity_step: ctx.results.step(uses::DIVERSITY).map(|s| s.id.clone()),
+        horizon_years,
+        horizon_generations,
+        table: status_table(&populations),
+        indicator: status.and_then(|s| table_of(s, table::INDICATOR)).filter(|t| !t.is_empty()).map(|t| generic(&t)),
+        populations,
+    }
+}
+
+/// The projection horizon in years and generations: the status step's `horizon` table when it
+/// has one, else its `horizon_years` parameter and the generation time.
+fn horizon(ctx: &Context<'_>) -> (Option<String>, Option<String>) {
+    let row = ctx.results.table(uses::STATUS, table::HORIZON).and_then(|t| t.iter().next());
+    let years = row.and_then(|r| r.num("horizon_years")).or_else(|| ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64));
+    let generations = row.and_then(|r| r.num(col::GENERATIONS)).or_else(|| years.zip(ctx.generation_time).map(|(y, g)| y / g));
+    (years.map(|y| format::number(y, NumberStyle::Whole)), generations.map(|g| format::short(g, 3)))
+}
+
+fn status_facts(row: &Row<'_>) -> StatusFacts {
+    let ci = match (row.num(col::NE_LOW), row.num(col::NE_HIGH)) {
+        (None, None) => None,
+        (low, high) => Some(format::interval(low, high, NumberStyle::EffectiveSize)),
+    };
+    StatusFacts {
+        year: row.label(col::YEAR),
+        ne: format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
+        ne_ci: ci,
+        method: row.label(col::NE_METHOD),
+        category: row.label(col::CATEGORY).unwrap_or_else(|| format::UNDEFINED.into()),
+        ne_nc: row.num(col::NE_NC).map(|v| format::fixed(v, 2)),
+    }
+}
+
+fn diversity_facts(row: &Row<'_>) -> DiversityFacts {
+    let fixed = |c| format::maybe(row.num(c), NumberStyle::Fixed(3));
+    DiversityFacts {
+        year: row.label(col::YEAR).unwrap_or_default(),
+        n: row.label(col::N).unwrap_or_default(),
+        ho: fixed(col::HO),
+        he: fixed(col::HE),
+        f: fixed(col::F),
+    }
+}
+
+fn drift_facts(status: &Row<'_>, diversity: Option<&Row<'_>>) -> Option<DriftFacts> {
+    let retained = status.num(col::H_RETAINED)?;
+    let ci = match (status.num(col::H_RETAINED_LOW), status.num(col::H_RETAINED_HIGH)) {
+        (None, None) => None,
+        (low, high) => Some(format::interval(low, high, NumberStyle::Percent)),
+    };
+    Some(DriftFacts {
+        ne: format::maybe(status.num(col::NE), NumberStyle::EffectiveSize),
+        h_retained: format::percent(retained),
+        h_retained_ci: ci,
+        h_lost: format::percent(1.0 - retained),
+        // The status step's own starting F when it reports one, else the latest diversity F.
+        f_now: status.num(col::F0).or_else(|| diversity.and_then(|d| d.num(col::F))).map(|f| format::fixed(f, 3)),
+        f_projected: status.num(col::F_PROJECTED).map(|f| format::fixed(f, 3)),
+    })
+}
+
+/// The He trend of a population in words, from the trend step's Mann–Kendall test, or from
+/// the least-squares interval when there are too few points for it.
+fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
+    let tests = ctx.results.table(uses::TREND, table::TESTS)?;
+    let row = tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
+    let slope = row.num(col::SEN_SLOPE).or_else(|| row.num(col::OLS_SLOPE));
+    let direction = |s: f64| if s < 0.0 { "declining" } else { "increasing" };
+    let p_text = |p: f64| match format::p_value(p).strip_prefix("< ") {
+        Some(bound) => format!("p < {bound}"),
+        None => format!("p = {}", format::p_value(p)),
+    };
+    // The step's own verdict when it gives one (`increasing`, `decreasing`, `no trend`).
+    if let (Some(verdict), Some(p)) = (row.text(col::TREND_DIRECTION), row.num(col::MK_P)) {
+        return Some(match verdict {
+            "decreasing" => format!("declining ({})", p_text(p)),
+            "increasing" => format!("increasing ({})", p_text(p)),
+            _ => format!("no significant trend ({})", p_text(p)),
+        });
+    }
+    Some(match (row.num(col::MK_P), slope) {
+        (Some(p), Some(s)) if p < 0.05 && s != 0.0 => format!("{} ({})", direction(s), p_text(p)),
+        (Some(p), _) => format!("no significant trend ({})", p_text(p)),
+        (None, _) => match (row.num(col::OLS_LOW), row.num(col::OLS_HIGH)) {
+            (Some(low), Some(high)) if high < 0.0 || low > 0.0 => format!("{} (95 % CI excludes 0)", direction(low)),
+            _ => "no clear trend".into(),
+        },
+    })
+}
+
+fn status_table(populations: &[PopulationSummary]) -> TableData {
+    let mut t = TableData::new(&[
+        ("Population", false),
+        ("Ne (95 % CI)", true),
+        ("Category", false),
+        ("Year", true),
+        ("Ho", true),
+        ("He", true),
+        ("F", true),
+        ("He trend", false),
+    ]);
+    for p in populations {
+        let ne = p.status.as_ref().map_or_else(
+            || format::UNDEFINED.to_string(),
+            |s| match &s.ne_ci {
+                Some(ci) => format!("{} ({ci})", s.ne),
+                None => s.ne.clone(),
+            },
+        );
+        let undefined = || format::UNDEFINED.to_string();
+        let d = p.diversity.as_ref();
+        t.push(vec![
+            p.name.clone(),
+            ne,
+            p.status.as_ref().map_or_else(undefined, |s| s.category.clone()),
+            d.map_or_else(undefined, |d| d.year.clone()),
+            d.map_or_else(undefined, |d| d.ho.clone()),
+            d.map_or_else(undefined, |d| d.he.clone()),
+            d.map_or_else(undefined, |d| d.f.clone()),
+            p.trend.clone().unwrap_or_else(undefined),
+        ]);
+    }
+    t.drop_empty_columns(&["Population", "Ho", "He", "F"]);
+    t
+}
+
+pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<ProjectionSection> {
+    let step = ctx.results.step(uses::STATUS)?;
+    let rows = table_of(step, table::POPULATIONS)?;
+    let latest = latest_rows(&rows);
+    let diversity_rows = ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
+    let (horizon_years, horizon_generations) = horizon(ctx);
+    let mut t = TableData::new(&[
+        ("Population", false),
+        ("Ne", true),
+        ("H retained", true),
+        ("over the Ne CI", true),
+        ("H lost", true),
+        ("F now", true),
+        ("F projected", true),
+    ]);
+    for row in &latest {
+        let population = row.text(col::POPULATION).unwrap_or("");
+        let diversity = diversity_rows.iter().find(|r| r.text(col::POPULATION) == Some(population));
+        let drift = drift_facts(row, diversity);
+        let undefined = || format::UNDEFINED.to_string();
+        t.push(vec![
+            population.to_string(),
+            format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
+            drift.as_ref().map_or_else(undefined, |d| d.h_retained.clone()),
+            drift.as_ref().and_then(|d| d.h_retained_ci.clone()).unwrap_or_else(undefined),
+            drift.as_ref().map_or_else(undefined, |d| d.h_lost.clone()),
+            drift.as_ref().and_then(|d| d.f_now.clone()).unwrap_or_else(undefined),
+            drift.as_ref().and_then(|d| d.f_projected.clone()).unwrap_or_else(undefined),
+        ]);
+    }
+    t.drop_empty_columns(&["Population", "Ne", "H retained"]);
+    projection_figure(ctx, &latest, extras);
+    let horizon_row = table_of(step, table::HORIZON).and_then(|h| h.iter().next().map(|r| (r.num(col::RETAIN_TARGET), r.num(col::NE_REQUIRED))));
+    let (retain_target, ne_required) = horizon_row.unwrap_or((None, None));
+    Some(ProjectionSection {
+        step: step.id.clone(),
+        horizon_years,
+        horizon_generations,
+        retain_target: retain_target.map(format::percent),
+        ne_required: ne_required.map(format::effective_size),
+        table: t,
+    })
+}
+
+/// Curves of heterozygosity retained over the years ahead: the status step's `projection`
+/// table when it has a time column, otherwise H(t) = H_T^(t/T) from `h_retained` at the
+/// horizon T, which is exactly Wright's (1 − 1/(2Ne))^(t/L) for the step's Ne (the step's
+/// own result, not a new estimate).
+fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras) {
+    let from_table = ctx.results.table(uses::STATUS, table::PROJECTION).and_then(|t| {
+        let time = ["years", "years_ahead", "year_offset", "t_years", "year", "generation", "generations"].into_iter().find(|c| t.has(c))?;
+        t.has(col::H_RETAINED).then_some((t, time))
+    });
+    let series: Vec<Series> = match from_table {
+        Some((t, time)) => {
+            let mut by_population: std::collections::BTreeMap<String, Vec<(f64, f64)>> = Default::default();
+            for row in t.iter() {
+                if let (Some(p), Some(x), Some(h)) = (row.text(col::POPULATION), row.num(time), row.num(col::H_RETAINED)) {
+                    by_population.entry(p.to_string()).or_default().push((x, h * 100.0));
+                }
+            }
+            by_population
+                .into_iter()
+                .map(|(name, mut points)| {
+                    points.sort_by(|a, b| a.0.total_cmp(&b.0));
+                    Series { style: ctx.style_of(&name), name, points, slope: None }
+                })
+                .collect()
+        }
+        None => {
+            let Some(horizon) = ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64).filter(|h| *h > 0.0) else { return };
+            latest
+                .iter()
+                .filter_map(|row| {
+                    let name = row.text(col::POPULATION)?;
+                    let at_horizon = row.num(col::H_RETAINED).filter(|h| h.is_finite() && *h >= 0.0)?;
+                    let points = (0..=20).map(|k| {
+                        let t = horizon * k as f64 / 20.0;
+                        (t, 100.0 * at_horizon.powf(t / horizon))
+                    });
+                    Some(Series { name: name.to_string(), style: ctx.style_of(name), points: points.collect(), slope: None })
+                })
+                .collect()
+        }
+    };
+    if series.is_empty() {
+        return;
+    }
+    let alt = "Projected share of today's heterozygosity retained per population over the years ahead, at each population's current Ne (Wright 1931).".to_string();
+    extras.figure("projection", Figure::Lines { series, x_label: "Years ahead".into(), y_label: "Heterozygosity retained (%)".into(), log_y: false, y_from_zero: false }, alt);
+}

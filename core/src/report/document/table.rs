@@ -1,0 +1,168 @@
+//! Tables as the template receives them: headings and cells already formatted as text.
+
+use serde::Serialize;
+
+use popgauge_abi::Cell;
+
+use super::super::contract::Rows;
+use super::super::format::{self, NumberStyle};
+
+/// A table for the template: every cell is display text, `numeric` says which columns align
+/// right.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct TableData {
+    /// Column headings.
+    pub columns: Vec<String>,
+    /// Per column: right-aligned numbers (true) or left-aligned text.
+    pub numeric: Vec<bool>,
+    /// Rows of display text.
+    pub rows: Vec<Vec<String>>,
+}
+
+impl TableData {
+    /// An empty table with these headings; `numeric` per heading.
+    pub fn new(columns: &[(&str, bool)]) -> TableData {
+        TableData {
+            columns: columns.iter().map(|(c, _)| c.to_string()).collect(),
+            numeric: columns.iter().map(|(_, n)| *n).collect(),
+            rows: Vec::new(),
+        }
+    }
+
+    /// Appends a row (it must have one cell per column; the builders in this module ensure it).
+    pub fn push(&mut self, row: Vec<String>) {
+        debug_assert_eq!(row.len(), self.columns.len(), "a row has one cell per column");
+        self.rows.push(row);
+    }
+
+    /// Whether there are no rows.
+    pub fn is_empty(&self) -> bool {
+        self.rows.is_empty()
+    }
+
+    /// Drops the columns (by heading) whose every cell is undefined (`—`), keeping `keep`.
+    pub fn drop_empty_columns(&mut self, keep: &[&str]) {
+        let empty: Vec<bool> = (0..self.columns.len())
+            .map(|c| {
+                !keep.contains(&self.columns[c].as_str())
+                    && !self.rows.is_empty()
+                    && self.rows.iter().all(|r| r[c] == format::UNDEFINED)
+            })
+            .collect();
+        let retain = |values: &mut Vec<String>| {
+            let mut index = 0;
+            values.retain(|_| {
+                let keep = !empty[index];
+                index += 1;
+                keep
+            });
+        };
+        retain(&mut self.columns);
+        let mut index = 0;
+        self.numeric.retain(|_| {
+            let keep = !empty[index];
+            index += 1;
+            keep
+        });
+        for row in &mut self.rows {
+            retain(row);
+        }
+    }
+
+    /// Splits off the rows after the first `keep` (for a body table whose rest goes to the
+    /// appendix); returns the rest as a table with the same headings.
+    pub fn split_off(&mut self, keep: usize) -> Option<TableData> {
+        if self.rows.len() <= keep {
+            return None;
+        }
+        let rest = self.rows.split_off(keep);
+        Some(TableData { columns: self.columns.clone(), numeric: self.numeric.clone(), rows: rest })
+    }
+}
+
+/// A contract table as it is: every column, headed by its contract name, numbers styled by
+/// [`format::style_for_column`] (appendix and plugin tables).
+pub fn generic(rows: &Rows<'_>) -> TableData {
+    let table = rows.table();
+    let styles: Vec<NumberStyle> = table.columns.iter().map(|c| format::style_for_column(c)).collect();
+    let numeric: Vec<bool> = (0..table.columns.len())
+        .map(|c| {
+            let mut values = table.rows.iter().map(|r| &r[c]).filter(|v| !matches!(v, Cell::Null));
+            values.next().is_some_and(|v| v.as_f64().is_some())
+                && table.rows.iter().all(|r| matches!(r[c], Cell::Null | Cell::Int(_) | Cell::Num(_) | Cell::Inf))
+        })
+        .collect();
+    TableData {
+        columns: table.columns.clone(),
+        numeric,
+        rows: table
+            .rows
+            .iter()
+            .map(|row| row.iter().zip(&styles).map(|(cell, style)| format::cell(cell, *style)).collect())
+            .collect(),
+    }
+}
+
+/// One cell of a heat table: its text and, when it is coloured, its shade in [0, 1].
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HeatCell {
+    /// Display text.
+    pub text: String,
+    /// Shade in [0, 1] (0 = lightest), or `None` for an uncoloured cell.
+    pub heat: Option<f64>,
+}
+
+/// A square matrix of populations with coloured cells.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HeatTable {
+    /// Row and column labels.
+    pub labels: Vec<String>,
+    /// Rows of cells.
+    pub cells: Vec<Vec<HeatCell>>,
+    /// The value the darkest shade stands for, as display text.
+    pub max: String,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use popgauge_abi::Table;
+
+    #[test]
+    fn generic_tables_format_by_column_name_and_align_numbers() {
+        let mut table = Table::new(&["population", "year", "he", "ne", "note"]);
+        table.push_row(vec![Cell::text("North #1"), Cell::Int(2019), Cell::Num(0.61234), Cell::Inf, Cell::Null]).unwrap();
+        table.push_row(vec![Cell::text("South"), Cell::Int(2020), Cell::Null, Cell::Num(46.9), Cell::text("x")]).unwrap();
+        let step = popgauge_abi::StepResult {
+            id: "x".into(),
+            uses: "x".into(),
+            version: "1".into(),
+            status: popgauge_abi::StepStatus::Ok,
+            error: None,
+            tables: [("t".to_string(), table)].into_iter().collect(),
+            findings: vec![],
+            citations: vec![],
+            exclusions: Default::default(),
+        };
+        let rows = super::super::super::contract::table_of(&step, "t").unwrap();
+        let data = generic(&rows);
+        assert_eq!(data.numeric, vec![false, true, true, true, false]);
+        assert_eq!(data.rows[0], vec!["North #1", "2019", "0.612", "∞", "—"]);
+        assert_eq!(data.rows[1], vec!["South", "2020", "—", "47", "x"]);
+    }
+
+    #[test]
+    fn empty_columns_are_dropped_and_long_tables_split() {
+        let mut data = TableData::new(&[("a", false), ("b", true), ("c", true)]);
+        data.push(vec!["1".into(), "—".into(), "—".into()]);
+        data.push(vec!["2".into(), "—".into(), "3".into()]);
+        data.push(vec!["3".into(), "—".into(), "—".into()]);
+        data.drop_empty_columns(&[]);
+        assert_eq!(data.columns, vec!["a", "c"]);
+        assert_eq!(data.numeric, vec![false, true]);
+        let rest = data.split_off(2).unwrap();
+        assert_eq!(data.rows.len(), 2);
+        assert_eq!(rest.rows, vec![vec!["3".to_string(), "—".to_string()]]);
+        assert!(data.split_off(5).is_none());
+    }
+}

@@ -1,0 +1,600 @@
+//! `differentiation`: pairwise and global FST (Weir & Cockerham 1984) with permutation
+//! p-values and bootstrap intervals, Jost's D, G_ST, G′_ST and G″_ST, and isolation by distance
+//! when the population sheet gives coordinates.
+//!
+//! # Groups and comparison sets
+//! With `by_year = false` (the default) a group is a population with all its sampling years
+//! pooled; every pair of populations is compared and `year` is `null`. With `by_year = true` a
+//! group is a (population, year) and pairs are formed only within the same year. A *comparison
+//! set* is the groups compared with each other (all populations, or the populations of one
+//! year); the global estimates are computed per comparison set and the `global` table names it.
+//!
+//! # FST
+//! θ̂ of Weir & Cockerham (1984) as a ratio of sums over alleles and loci, Σa/Σ(a + b + c)
+//! ([`crate::stats::weir_cockerham`]; METHODS §2.1). At each locus *n*ᵢ counts the individuals
+//! of group *i* typed at both alleles (code 0 = untyped is left out, never imputed). A locus
+//! untyped in every individual of a group is dropped from every comparison involving that group
+//! (for the global estimate, from the whole set) and listed in a `locus-untyped-in-group`
+//! finding. A locus monomorphic over the compared groups adds 0 to both sums. Negative θ̂ is
+//! sampling noise and is kept as computed. θ̂ is `null` when Σ(a + b + c) = 0 (no locus
+//! polymorphic in the comparison) or no locus has n̄ > 1, with an `fst-undefined` finding.
+//!
+//! **Intervals**: 95 % percentile bootstrap over loci (`bootstrap` replicates; METHODS
+//! conventions), for each pair and each comparison set; `null` when `bootstrap` = 0 or fewer
+//! than two replicates are defined.
+//!
+//! **Permutation test** (`fst_p`, pairs only): whole individuals (all loci, untyped cells
+//! included) are shuffled between the two groups keeping the group sizes, on the loci used for
+//! the observed θ̂; p = (1 + #{θ̂* ≥ θ̂})/(B + 1) with B = `permutations` (one-sided: large θ̂ is
+//! extreme; [`crate::stats::permutation`]). Permuting genotypes rather than alleles keeps the
+//! test valid when groups depart from Hardy–Weinberg proportions (Goudet et al. 1996). A
+//! replicate in which a locus ends up untyped in one group leaves that locus out of that
+//! replicate. Pairs are estimated in parallel; each pair draws its bootstrap and permutation
+//! replicates from its own stream (named after the year and the two populations), so results
+//! depend neither on the number of threads nor on which other populations are in the data.
+//! The p-values are not adjusted for the number of pairs. A pair of more than
+//! 65,535 individuals is not tested (`fst_p` null).
+//!
+//! # Jost's D and the G_ST family
+//! Per locus over the compared groups (METHODS §2.2; [`crate::stats::gst`]). **Multilocus values
+//! are ratios of averages**: Ĥ_S and Ĥ_T are averaged over the loci polymorphic in the
+//! comparison, then the formula is applied once (not the mean of per-locus values, and not the
+//! harmonic mean of per-locus D). `gst` (Nei 1973), `gst_p` (G′_ST, Hedrick 2005) and `gst_pp`
+//! (G″_ST, Meirmans & Hedrick 2011) use the Nei & Chesser (1983) estimators of Ĥ_S and Ĥ_T;
+//! `jost_d` uses Jost's (2008) own estimators. Where Ĥ_S = 1 or kĤ_T = Ĥ_S the measure is
+//! `null` with a `differentiation-undefined` finding.
+//!
+//! # Isolation by distance
+//! For each comparison set with at least three populations that have latitude and longitude
+//! in the population sheet: great-circle distances by the haversine formula (Sinnott 1984)
+//! with the mean Earth radius 6371.0088 km (IUGG; Moritz 1980), the least-squares regression of
+//! θ̂/(1 − θ̂) on ln(distance in km) (Rousset 1997, two-dimensional habitat), and a Mantel
+//! (1967) test of a positive association between the two (Pearson's r, population labels
+//! permuted `mantel_permutations` times, one-sided). Pairs at zero distance, or with θ̂ `null`
+//! or ≥ 1, are left out (with a finding).
+//!
+//! # Tables
+//! - `pairwise`: pop_a, pop_b, year (`null` when years are pooled), n_a, n_b (samples), loci
+//!   (loci entering θ̂: typed in both groups with n̄ > 1, monomorphic ones included), fst, fst_low, fst_high, fst_p, permutations (defined
+//!   replicates), jost_d, gst, gst_p (G′_ST), gst_pp (G″_ST).
+//! - `global`: comparison (in words), year, populations, samples, loci, fst, fst_low,
+//!   fst_high, bootstrap (defined replicates), jost_d, gst, gst_p, gst_pp.
+//! - `ibd` (when tested): year, pop_a, pop_b, distance_km, fst, fst_linearised.
+//! - `ibd_test` (when tested): year, populations, pairs, slope, intercept, r, mantel_p,
+//!   permutations.
+//!
+//! # Findings
+//! `differentiation-scope` (info: the comparison sets and conventions), `low-sample-size`
+//! (warning, a group of fewer than 10 samples), `no-pairs` (info, a set with fewer than two
+//! groups), `locus-untyped-in-group` (info), `fst-undefined` and `differentiation-undefined`
+//! (warnings, a `null` estimate and why), `permutation-test-disabled` (info), `ibd-not-tested`
+//! (info), `bad-coordinates` and `ibd-pair-excluded` (warnings), and `differentiation-caution`
+//! (info: the cautions a reader needs before acting on these numbers).
+//!
+//! # Citations
+//! Weir & Cockerham (1984); Goudet et al. (1996); Efron & Tibshirani (1993); Nei (1973); Nei &
+//! Chesser (1983); Hedrick (2005); Meirmans & Hedrick (2011); Jost (2008); with isolation by
+//! distance also Rousset (1997), Mantel (1967), Sinnott (1984), Moritz (1980).
+
+mod ibd;
+mod pairs;
+#[cfg(test)]
+mod tests;
+
+use std::collections::BTreeMap;
+
+use popgauge_abi::{
+    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, ParamKind, Seed, Step, StepContext, StepError,
+    StepOutput, Table, Where,
+};
+use rayon::prelude::*;
+use serde::Deserialize;
+use serde_json::json;
+
+use crate::stats::bootstrap::rng;
+use crate::stats::gst::{HEDRICK_2005, JOST_2008, MEIRMANS_HEDRICK_2011, NEI_1973, NEI_CHESSER_1983};
+use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test};
+use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
+use ibd::{IsolationByDistance, MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
+use pairs::{ComparisonEstimate, PairPermutation};
+
+/// A group with fewer samples than this gets a `low-sample-size` warning (METHODS §1).
+pub const LOW_SAMPLE_SIZE: usize = 10;
+/// At most this many locus names are spelled out in one finding.
+const LOCI_LISTED: usize = 10;
+
+/// Goudet et al. (1996), the permutation of genotypes between samples.
+pub const GOUDET_1996: &str = "Goudet J, Raymond M, de Meeüs T, Rousset F (1996) Testing differentiation in \
+diploid populations. Genetics 144:1933–1940.";
+/// Efron & Tibshirani (1993), the percentile bootstrap.
+pub const EFRON_TIBSHIRANI_1993: &str =
+    "Efron B, Tibshirani RJ (1993) An Introduction to the Bootstrap. Chapman & Hall, New York.";
+
+/// Parameters of `differentiation`, as resolved from the descriptor (defaults live there).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Params {
+    /// Permutations of individuals per pair for `fst_p` (0 = no test).
+    pub permutations: u32,
+    /// Groups are (population, year) and pairs stay within a year when true.
+    pub by_year: bool,
+    /// Bootstrap replicates over loci for the FST intervals (0 = no interval).
+    pub bootstrap: u32,
+    /// Permutations of population labels for the Mantel test (0 = no test).
+    pub mantel_permutations: u32,
+}
+
+/// The descriptor of `differentiation`: its name, version and parameters with defaults.
+pub fn descriptor() -> Descriptor {
+    let count = ParamKind::Integer { min: 0, max: 1_000_000 };
+    Descriptor::new(
+        "differentiation",
+        "0.1.0",
+        "Pairwise and global FST (Weir & Cockerham 1984) with permutation p-values and bootstrap intervals, \
+         Jost's D, G″ST, and isolation by distance",
+    )
+    .param(
+        "permutations",
+        count.clone(),
+        json!(1000),
+        "permutations of individuals between the two groups of each pair for the FST p-value (0 = no test)",
+    )
+    .param(
+        "by_year",
+        ParamKind::Boolean,
+        json!(false),
+        "false: each population with its years pooled; true: groups are (population, year), pairs within a year",
+    )
+    .param(
+        "bootstrap",
+        count.clone(),
+        json!(1000),
+        "bootstrap replicates over loci for the 95% FST intervals (0 = no interval)",
+    )
+    .param(
+        "mantel_permutations",
+        count,
+        json!(9999),
+        "permutations of population labels for the Mantel test of isolation by distance (0 = no test)",
+    )
+}
+
+/// The `differentiation` step.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Differentiation;
+
+impl Step for Differentiation {
+    fn descriptor(&self) -> Descriptor {
+        descriptor()
+    }
+
+    fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+        let params: Params = ctx.params_as()?;
+        let sets = comparison_sets(&ctx.view, params.by_year);
+        let estimates: Vec<SetEstimates<'_>> =
+            sets.iter().map(|set| estimate_set(&ctx.view, set, &params, ctx.seed)).collect();
+        let isolation = ibd::analyse(&estimates, &ctx.assessment.populations, &params, ctx.seed);
+        let mut output = StepOutput::default();
+        output.tables.insert("pairwise".into(), pairwise_table(&estimates)?);
+        output.tables.insert("global".into(), global_table(&estimates)?);
+        if !isolation.tests.is_empty() {
+            output.tables.insert("ibd".into(), ibd_table(&isolation)?);
+            output.tables.insert("ibd_test".into(), ibd_test_table(&isolation)?);
+        }
+        output.findings = collect_findings(&ctx.view, &estimates, &params, isolation.findings.clone());
+        output.citations = citations(!isolation.tests.is_empty());
+        Ok(output)
+    }
+}
+
+/// Groups compared with each other: all populations (years pooled) or those of one year.
+#[derive(Debug, Clone, PartialEq)]
+struct ComparisonSet {
+    /// The year of a per-year set; `None` when years are pooled.
+    year: Option<i32>,
+    /// The groups, sorted by population.
+    groups: Vec<Group>,
+}
+
+impl ComparisonSet {
+    /// The set in words, for the `global` table and findings.
+    fn describe(&self) -> String {
+        match self.year {
+            None => "all populations, sampling years pooled".to_string(),
+            Some(year) => format!("populations sampled in {year}"),
+        }
+    }
+}
+
+/// One pair of a comparison set (indices into its groups, a < b) with its estimates.
+#[derive(Debug, Clone, PartialEq)]
+struct PairResult {
+    a: usize,
+    b: usize,
+    estimate: ComparisonEstimate,
+    permutation: Option<PermutationOutcome>,
+}
+
+/// The estimates of one comparison set.
+#[derive(Debug, Clone, PartialEq)]
+struct SetEstimates<'s> {
+    set: &'s ComparisonSet,
+    /// Allele counts per group and view locus: `counts[group][locus]`.
+    counts: Vec<Vec<AlleleCounts>>,
+    pairs: Vec<PairResult>,
+    /// Every group of the set together; `None` with fewer than two groups.
+    global: Option<ComparisonEstimate>,
+}
+
+fn comparison_sets(view: &GenotypeView<'_>, by_year: bool) -> Vec<ComparisonSet> {
+    if !by_year {
+        return vec![ComparisonSet { year: None, groups: view.populations() }];
+    }
+    let mut by_year: BTreeMap<i32, Vec<Group>> = BTreeMap::new();
+    for group in view.groups() {
+        by_year.entry(group.year).or_default().push(group);
+    }
+    by_year.into_iter().map(|(year, groups)| ComparisonSet { year: Some(year), groups }).collect()
+}
+
+fn estimate_set<'s>(view: &GenotypeView<'_>, set: &'s ComparisonSet, params: &Params, seed: Seed) -> SetEstimates<'s> {
+    let counts: Vec<Vec<AlleleCounts>> = set
+        .groups
+        .iter()
+        .map(|group| (0..view.n_loci()).map(|locus| view.allele_counts(locus, &group.samples)).collect())
+        .collect();
+    let indices: Vec<(usize, usize)> =
+        (0..set.groups.len()).flat_map(|a| ((a + 1)..set.groups.len()).map(move |b| (a, b))).collect();
+    // Pairs run in parallel; each draws from its own streams and `collect` keeps their order,
+    // so the result does not depend on the number of threads.
+    let pairs = indices.par_iter().map(|&pair| estimate_pair(view, set, &counts, pair, params, seed)).collect();
+    let global = (set.groups.len() >= 2).then(|| {
+        let all: Vec<&[AlleleCounts]> = counts.iter().map(Vec::as_slice).collect();
+        let stream = format!("fst-bootstrap/global/{}", year_key(set.year));
+        pairs::estimate(&all, params.bootstrap as usize, &mut rng(seed, &stream))
+    });
+    SetEstimates { set, counts, pairs, global }
+}
+
+/// Estimates one pair. Each pair draws from its own named streams, so a pair's interval and
+/// p-value do not change when other populations are added to or removed from the data.
+fn estimate_pair(
+    view: &GenotypeView<'_>,
+    set: &ComparisonSet,
+    counts: &[Vec<AlleleCounts>],
+    (a, b): (usize, usize),
+    params: &Params,
+    seed: Seed,
+) -> PairResult {
+    let key = format!("{}/{}/{}", year_key(set.year), set.groups[a].population, set.groups[b].population);
+    let bootstrap_stream = format!("fst-bootstrap/{key}");
+    let estimate =
+        pairs::estimate(&[&counts[a], &counts[b]], params.bootstrap as usize, &mut rng(seed, &bootstrap_stream));
+    let permutation = PairPermutation::new(view, &set.groups[a].samples, &set.groups[b].samples, &estimate.loci)
+        .and_then(|mut permuted| {
+            let mut labels = permuted.labels();
+            let observed = permuted.theta(&labels)?;
+            let mut stream = rng(seed, &format!("fst-permutation/{key}"));
+            permutation_test(&mut labels, observed, params.permutations as usize, &mut stream, |order| {
+                permuted.theta(order)
+            })
+        });
+    PairResult { a, b, estimate, permutation }
+}
+
+fn year_key(year: Option<i32>) -> String {
+    year.map_or_else(|| "pooled".to_string(), |y| y.to_string())
+}
+
+fn year_cell(year: Option<i32>) -> Cell {
+    year.map_or(Cell::Null, |y| Cell::Int(y.into()))
+}
+
+/// A count as a table integer (counts never approach `i64::MAX`).
+fn count_cell(count: usize) -> Cell {
+    Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
+}
+
+fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
+    let mut table = Table::new(&[
+        "pop_a",
+        "pop_b",
+        "year",
+        "n_a",
+        "n_b",
+        "loci",
+        "fst",
+        "fst_low",
+        "fst_high",
+        "fst_p",
+        "permutations",
+        "jost_d",
+        "gst",
+        "gst_p",
+        "gst_pp",
+    ]);
+    for set in estimates {
+        for pair in &set.pairs {
+            let (group_a, group_b) = (&set.set.groups[pair.a], &set.set.groups[pair.b]);
+            let e = &pair.estimate;
+            table.push_row(vec![
+                Cell::text(&group_a.population),
+                Cell::text(&group_b.population),
+                year_cell(set.set.year),
+                count_cell(group_a.samples.len()),
+                count_cell(group_b.samples.len()),
+                count_cell(e.loci.len()),
+                Cell::maybe(e.theta),
+                Cell::maybe(e.interval.map(|i| i.low)),
+                Cell::maybe(e.interval.map(|i| i.high)),
+                Cell::maybe(pair.permutation.map(|p| p.p_value())),
+                pair.permutation.map_or(Cell::Null, |p| count_cell(p.replicates)),
+                Cell::maybe(e.indices.jost_d),
+                Cell::maybe(e.indices.gst),
+                Cell::maybe(e.indices.gst_prime),
+                Cell::maybe(e.indices.gst_double_prime),
+            ])?;
+        }
+    }
+    Ok(table)
+}
+
+fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
+    let mut table = Table::new(&[
+        "comparison",
+        "year",
+        "populations",
+        "samples",
+        "loci",
+        "fst",
+        "fst_low",
+        "fst_high",
+        "bootstrap",
+        "jost_d",
+        "gst",
+        "gst_p",
+        "gst_pp",
+    ]);
+    for set in estimates {
+        let Some(e) = &set.global else { continue };
+        table.push_row(vec![
+            Cell::text(set.set.describe()),
+            year_cell(set.set.year),
+            count_cell(set.set.groups.len()),
+            count_cell(set.set.groups.iter().map(|g| g.samples.len()).sum()),
+            count_cell(e.loci.len()),
+            Cell::maybe(e.theta),
+            Cell::maybe(e.interval.map(|i| i.low)),
+            Cell::maybe(e.interval.map(|i| i.high)),
+            count_cell(e.bootstrap_replicates),
+            Cell::maybe(e.indices.jost_d),
+            Cell::maybe(e.indices.gst),
+            Cell::maybe(e.indices.gst_prime),
+            Cell::maybe(e.indices.gst_double_prime),
+        ])?;
+    }
+    Ok(table)
+}
+
+fn ibd_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
+    let mut table = Table::new(&["year", "pop_a", "pop_b", "distance_km", "fst", "fst_linearised"]);
+    for pair in &isolation.pairs {
+        table.push_row(vec![
+            year_cell(pair.year),
+            Cell::text(&pair.pop_a),
+            Cell::text(&pair.pop_b),
+            Cell::number(pair.distance_km),
+            Cell::maybe(pair.fst),
+            Cell::maybe(pair.linearised),
+        ])?;
+    }
+    Ok(table)
+}
+
+fn ibd_test_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
+    let mut table =
+        Table::new(&["year", "populations", "pairs", "slope", "intercept", "r", "mantel_p", "permutations"]);
+    for test in &isolation.tests {
+        table.push_row(vec![
+            year_cell(test.year),
+            count_cell(test.populations),
+            count_cell(test.pairs),
+            Cell::maybe(test.slope),
+            Cell::maybe(test.intercept),
+            Cell::maybe(test.correlation),
+            Cell::maybe(test.mantel.map(|m| m.p_value())),
+            test.mantel.map_or(Cell::Null, |m| count_cell(m.replicates)),
+        ])?;
+    }
+    Ok(table)
+}
+
+fn collect_findings(
+    view: &GenotypeView<'_>,
+    estimates: &[SetEstimates<'_>],
+    params: &Params,
+    isolation_findings: Vec<Finding>,
+) -> Vec<Finding> {
+    let mut findings = vec![scope_finding(estimates, params)];
+    for set in estimates {
+        findings.extend(small_group_findings(set.set));
+        findings.extend(untyped_locus_findings(view, set));
+        if set.set.groups.len() < 2 {
+            findings.push(Finding::info(
+                "no-pairs",
+                format!(
+                    "{}: {} group(s), so there is no pair to compare and no global estimate",
+                    set.set.describe(),
+                    set.set.groups.len()
+                ),
+                Where { year: set.set.year, ..Where::default() },
+            ));
+        }
+        for pair in &set.pairs {
+            let (a, b) = (&set.set.groups[pair.a].population, &set.set.groups[pair.b].population);
+            findings.extend(undefined_findings(&pair.estimate, &format!("pair {a}–{b}"), set.set.year));
+        }
+        if let Some(global) = &set.global {
+            findings.extend(undefined_findings(
+                global,
+                &format!("global estimate ({})", set.set.describe()),
+                set.set.year,
+            ));
+        }
+    }
+    if params.permutations == 0 {
+        findings.push(Finding::info(
+            "permutation-test-disabled",
+            "permutations = 0: no permutation test was run, so fst_p is null (set permutations to 999 or more to test)",
+            Where::default(),
+        ));
+    }
+    findings.extend(isolation_findings);
+    findings.push(caution_finding());
+    findings
+}
+
+fn scope_finding(estimates: &[SetEstimates<'_>], params: &Params) -> Finding {
+    let sets: Vec<String> = estimates.iter().map(|s| s.set.describe()).collect();
+    let message = format!(
+        "differentiation compares {} (by_year = {}); FST is Weir & Cockerham's θ as a ratio of sums over alleles and \
+         loci; jost_d, gst, gst_p (G′ST) and gst_pp (G″ST) are ratios of the averages of HS and HT over loci; \
+         intervals are 95% percentile bootstraps over loci ({} replicates)",
+        sets.join("; "),
+        params.by_year,
+        params.bootstrap
+    );
+    Finding::info("differentiation-scope", message, Where::default())
+}
+
+fn group_location(set: &ComparisonSet, group: &Group) -> Where {
+    Where { population: Some(group.population.clone()), year: set.year, ..Where::default() }
+}
+
+fn group_name(set: &ComparisonSet, group: &Group) -> String {
+    match set.year {
+        None => format!("population {}", group.population),
+        Some(year) => format!("group {} {year}", group.population),
+    }
+}
+
+fn small_group_findings(set: &ComparisonSet) -> Vec<Finding> {
+    set.groups
+        .iter()
+        .filter(|g| g.samples.len() < LOW_SAMPLE_SIZE)
+        .map(|g| {
+            Finding::warning(
+                "low-sample-size",
+                format!(
+                    "{} has {} samples, fewer than {LOW_SAMPLE_SIZE}: its FST, D and G″ST estimates are imprecise \
+                     and the permutation test has little power",
+                    group_name(set, g),
+                    g.samples.len()
+                ),
+                group_location(set, g),
+            )
+        })
+        .collect()
+}
+
+/// One finding per group with loci typed in none of its individuals (dropped from every
+/// comparison with that group).
+fn untyped_locus_findings(view: &GenotypeView<'_>, set: &SetEstimates<'_>) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    for (group, counts) in set.set.groups.iter().zip(&set.counts) {
+        let untyped: Vec<&str> = counts
+            .iter()
+            .enumerate()
+            .filter(|(_, c)| c.typed == 0)
+            .map(|(locus, _)| view.locus(locus).name.as_str())
+            .collect();
+        if untyped.is_empty() || set.set.groups.len() < 2 {
+            continue;
+        }
+        findings.push(Finding::info(
+            "locus-untyped-in-group",
+            format!(
+                "{} is untyped at {} locus/loci ({}): they are left out of every comparison with it and of the \
+                 global estimate",
+                group_name(set.set, group),
+                untyped.len(),
+                list_names(&untyped)
+            ),
+            group_location(set.set, group),
+        ));
+    }
+    findings
+}
+
+fn list_names(names: &[&str]) -> String {
+    let mut listed = names.iter().take(LOCI_LISTED).copied().collect::<Vec<_>>().join(", ");
+    if names.len() > LOCI_LISTED {
+        listed.push_str(&format!(" and {} more", names.len() - LOCI_LISTED));
+    }
+    listed
+}
+
+/// Findings for a comparison whose θ̂ or whose D, G′ST or G″ST is undefined.
+fn undefined_findings(estimate: &ComparisonEstimate, what: &str, year: Option<i32>) -> Vec<Finding> {
+    let location = || Where { year, ..Where::default() };
+    let mut findings = Vec::new();
+    if estimate.theta.is_none() {
+        findings.push(Finding::warning(
+            "fst-undefined",
+            format!(
+                "{what}: FST is undefined (null) because no locus typed in both groups is polymorphic there, or \
+                 no locus has more than one typed individual per group on average ({} loci usable)",
+                estimate.loci.len()
+            ),
+            location(),
+        ));
+    }
+    let i = &estimate.indices;
+    if i.jost_d.is_none() || i.gst_prime.is_none() || i.gst_double_prime.is_none() {
+        let reason = if estimate.polymorphic_loci == 0 {
+            "no locus is polymorphic in the compared groups with at least two typed individuals per group on \
+             average"
+                .to_string()
+        } else {
+            format!(
+                "over its {} polymorphic loci the within-group diversity HS averages 1 (every gene copy distinct, \
+                 alleles confined to single groups) or k·HT = HS, so the measure has a zero denominator",
+                estimate.polymorphic_loci
+            )
+        };
+        findings.push(Finding::warning(
+            "differentiation-undefined",
+            format!("{what}: Jost's D, G′ST or G″ST is undefined (null): {reason}"),
+            location(),
+        ));
+    }
+    findings
+}
+
+fn caution_finding() -> Finding {
+    Finding::info(
+        "differentiation-caution",
+        "FST, D and G″ST are estimates with sampling uncertainty (see the intervals); pairwise p-values are not \
+         adjusted for the number of pairs; a significant difference is not by itself evidence of separate \
+         management units. Decisions on translocation or management units follow the local regulatory framework \
+         and review by a qualified geneticist.",
+        Where::default(),
+    )
+}
+
+fn citations(with_isolation_by_distance: bool) -> Vec<String> {
+    let mut citations = vec![
+        WEIR_COCKERHAM_1984,
+        GOUDET_1996,
+        EFRON_TIBSHIRANI_1993,
+        NEI_1973,
+        NEI_CHESSER_1983,
+        HEDRICK_2005,
+        MEIRMANS_HEDRICK_2011,
+        JOST_2008,
+    ];
+    if with_isolation_by_distance {
+        citations.extend([ROUSSET_1997, MANTEL_1967, SINNOTT_1984, MORITZ_1980]);
+    }
+    citations.into_iter().map(str::to_string).collect()
+}

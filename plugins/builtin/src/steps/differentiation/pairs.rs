@@ -1,0 +1,257 @@
+//! The estimates of one comparison (a pair of groups, or every group of a comparison set) and
+//! the permutation of individuals between the two groups of a pair.
+
+use popgauge_abi::{AlleleCounts, GenotypeView, LocusIdx, SampleIdx};
+use rand_chacha::ChaCha8Rng;
+
+use crate::stats::bootstrap::{Interval, bootstrap_loci, percentile_interval};
+use crate::stats::gst::{DifferentiationIndices, DiversityEstimator, DiversityTotals, LocusSummary, indices};
+use crate::stats::weir_cockerham::{VarianceComponents, locus_components};
+
+/// Level of the bootstrap intervals.
+pub(super) const INTERVAL_LEVEL: f64 = 0.95;
+
+/// FST, its interval and the G_ST family for one comparison.
+#[derive(Debug, Clone, PartialEq)]
+pub(super) struct ComparisonEstimate {
+    /// Loci typed in every compared group with n̄ > 1: those entering θ̂.
+    pub loci: Vec<LocusIdx>,
+    /// The variance components summed over alleles, one per entry of `loci`.
+    pub components: Vec<VarianceComponents>,
+    /// θ̂ = Σa/Σ(a + b + c); `None` when Σ(a + b + c) = 0 or no locus is usable.
+    pub theta: Option<f64>,
+    /// The percentile bootstrap interval of θ̂ over loci.
+    pub interval: Option<Interval>,
+    /// Bootstrap replicates with a defined θ̂*.
+    pub bootstrap_replicates: usize,
+    /// Loci polymorphic in the comparison that enter the G_ST family.
+    pub polymorphic_loci: usize,
+    /// G_ST, G′_ST, G″_ST (Nei–Chesser estimators) and D (Jost's estimators).
+    pub indices: DifferentiationIndices,
+}
+
+/// Estimates one comparison from the allele counts of its groups (`groups[g][locus]`, every
+/// group with one entry per view locus), with `bootstrap` replicates drawn from `rng`.
+pub(super) fn estimate(groups: &[&[AlleleCounts]], bootstrap: usize, rng: &mut ChaCha8Rng) -> ComparisonEstimate {
+    let n_loci = groups.first().map_or(0, |g| g.len());
+    let mut samples: Vec<&AlleleCounts> = Vec::with_capacity(groups.len());
+    let (mut loci, mut components) = (Vec::new(), Vec::new());
+    let (mut nei_chesser, mut jost) = (DiversityTotals::default(), DiversityTotals::default());
+    for locus in 0..n_loci {
+        samples.clear();
+        samples.extend(groups.iter().map(|g| &g[locus]));
+        if samples.iter().any(|s| s.typed == 0) {
+            continue;
+        }
+        if let Some(c) = locus_components(&samples) {
+            loci.push(locus);
+            components.push(c);
+        }
+        if let Some(summary) = LocusSummary::from_counts(&samples) {
+            nei_chesser.add(summary.diversities(DiversityEstimator::NeiChesser));
+            jost.add(summary.diversities(DiversityEstimator::Jost));
+        }
+    }
+    let theta = theta_of(&components, None);
+    let mut replicates =
+        bootstrap_loci(components.len(), bootstrap, rng, |sampled| theta_of(&components, Some(sampled)));
+    ComparisonEstimate {
+        theta,
+        interval: percentile_interval(&mut replicates, INTERVAL_LEVEL),
+        bootstrap_replicates: replicates.len(),
+        polymorphic_loci: nei_chesser.loci(),
+        indices: combined_indices(&nei_chesser, &jost, groups.len()),
+        loci,
+        components,
+    }
+}
+
+/// θ̂ over all loci (`None`) or over the sampled loci (with repeats).
+fn theta_of(components: &[VarianceComponents], sampled: Option<&[usize]>) -> Option<f64> {
+    let sum: VarianceComponents = match sampled {
+        Some(indices) => indices.iter().map(|&i| components[i]).sum(),
+        None => components.iter().copied().sum(),
+    };
+    if components.is_empty() { None } else { sum.theta() }
+}
+
+/// G_ST, G′_ST and G″_ST from the Nei–Chesser averages, D from Jost's (ratio of averages).
+fn combined_indices(nei_chesser: &DiversityTotals, jost: &DiversityTotals, k: usize) -> DifferentiationIndices {
+    let from_nei_chesser = nei_chesser.mean().map(|d| indices(d, k)).unwrap_or_default();
+    let from_jost = jost.mean().map(|d| indices(d, k)).unwrap_or_default();
+    DifferentiationIndices { jost_d: from_jost.jost_d, ..from_nei_chesser }
+}
+
+/// Largest pair (individuals in both groups) the permutation test handles.
+pub(super) const MAX_PERMUTED_INDIVIDUALS: usize = u16::MAX as usize;
+
+/// The individuals of a pair of groups, ready to be shuffled between them.
+///
+/// At each locus tested the distinct genotypes of the pair are listed once and every
+/// individual's genotype is stored as its index in that list (0 = untyped), locus-major. A
+/// replicate counts only the smaller group: a histogram of genotype indices over the individuals
+/// the shuffled labels put in it (one increment per individual), turned into allele counts; the
+/// other group's counts follow by subtraction from the pair totals. All buffers are reused, so
+/// a replicate allocates nothing.
+#[derive(Debug, Clone)]
+pub(super) struct PairPermutation {
+    individuals: usize,
+    counted: usize,
+    /// Genotype indices, `loci × individuals`.
+    codes: Vec<u16>,
+    /// Per locus tested: the range of its genotypes in `genotypes`.
+    genotype_ranges: Vec<(usize, usize)>,
+    /// Distinct genotypes of every locus tested, each locus's list starting with (0, 0) = untyped.
+    genotypes: Vec<(u16, u16)>,
+    totals: Vec<AlleleCounts>,
+    histogram: [Vec<u32>; 2],
+    side: AlleleCounts,
+    rest: AlleleCounts,
+}
+
+impl PairPermutation {
+    /// The pair `first`, `second` (view sample indices) at `loci`; loci monomorphic over the
+    /// pair are left out (they add 0 to every replicate). `None` for a pair of more than
+    /// [`MAX_PERMUTED_INDIVIDUALS`] individuals, whose genotype indices might not fit 16 bits.
+    pub(super) fn new(
+        view: &GenotypeView<'_>,
+        first: &[SampleIdx],
+        second: &[SampleIdx],
+        loci: &[LocusIdx],
+    ) -> Option<Self> {
+        if first.len() + second.len() > MAX_PERMUTED_INDIVIDUALS {
+            return None;
+        }
+        let (smaller, larger) = if first.len() <= second.len() { (first, second) } else { (second, first) };
+        let members: Vec<SampleIdx> = smaller.iter().chain(larger).copied().collect();
+        let mut permutation = PairPermutation {
+            individuals: members.len(),
+            counted: smaller.len(),
+            codes: Vec::with_capacity(loci.len() * members.len()),
+            genotype_ranges: Vec::with_capacity(loci.len()),
+            genotypes: Vec::new(),
+            totals: Vec::with_capacity(loci.len()),
+            histogram: [Vec::new(), Vec::new()],
+            side: AlleleCounts::default(),
+            rest: AlleleCounts::default(),
+        };
+        for &locus in loci {
+            let total = view.allele_counts(locus, &members);
+            if total.distinct() > 1 {
+                permutation.add_locus(view, locus, &members, total);
+            }
+        }
+        Some(permutation)
+    }
+
+    fn add_locus(&mut self, view: &GenotypeView<'_>, locus: LocusIdx, members: &[SampleIdx], total: AlleleCounts) {
+        let start = self.genotypes.len();
+        self.genotypes.push((0, 0));
+        for &sample in members {
+            let index = match view.genotype(sample, locus) {
+                None => 0,
+                Some((a, b)) => {
+                    let genotype = (a.0.min(b.0), a.0.max(b.0));
+                    let known = self.genotypes[start..].iter().position(|&g| g == genotype);
+                    known.unwrap_or_else(|| {
+                        self.genotypes.push(genotype);
+                        self.genotypes.len() - 1 - start
+                    })
+                }
+            };
+            // The index is at most the number of individuals (distinct genotypes plus the
+            // untyped bin), which `new` keeps within u16.
+            self.codes.push(u16::try_from(index).unwrap_or(u16::MAX));
+        }
+        self.genotype_ranges.push((start, self.genotypes.len()));
+        self.totals.push(total);
+    }
+
+    /// The labels of the data as they are: the smaller group first.
+    pub(super) fn labels(&self) -> Vec<u32> {
+        (0..u32::try_from(self.individuals).unwrap_or(u32::MAX)).collect()
+    }
+
+    /// θ̂ with the first labels of `order` (as many as the smaller group) forming that group.
+    pub(super) fn theta(&mut self, order: &[u32]) -> Option<f64> {
+        let counted = &order[..self.counted];
+        let mut sum = VarianceComponents::default();
+        let mut any_locus = false;
+        for (locus, total) in self.totals.iter().enumerate() {
+            let row = &self.codes[locus * self.individuals..(locus + 1) * self.individuals];
+            let (start, end) = self.genotype_ranges[locus];
+            genotype_histogram(row, counted, end - start, &mut self.histogram);
+            counts_from_histogram(&self.histogram[0], &self.genotypes[start..end], total.alleles.len(), &mut self.side);
+            subtract(total, &self.side, &mut self.rest);
+            if let Some(c) = locus_components(&[&self.side, &self.rest]) {
+                sum += c;
+                any_locus = true;
+            }
+        }
+        if any_locus { sum.theta() } else { None }
+    }
+}
+
+/// Counts the genotype indices of `members` in `row` into `histogram[0]` (length `bins`).
+/// Two interleaved histograms, summed at the end, halve the chains of dependent increments
+/// when few genotypes repeat (biallelic loci).
+fn genotype_histogram(row: &[u16], members: &[u32], bins: usize, histogram: &mut [Vec<u32>; 2]) {
+    let [even, odd] = histogram;
+    for h in [&mut *even, &mut *odd] {
+        h.clear();
+        h.resize(bins, 0);
+    }
+    let mut pairs = members.chunks_exact(2);
+    for pair in &mut pairs {
+        even[usize::from(row[pair[0] as usize])] += 1;
+        odd[usize::from(row[pair[1] as usize])] += 1;
+    }
+    for &member in pairs.remainder() {
+        even[usize::from(row[member as usize])] += 1;
+    }
+    for (e, o) in even.iter_mut().zip(odd.iter()) {
+        *e += o;
+    }
+}
+
+/// Allele counts from a genotype histogram (`genotypes[g]` is the genotype of bin g; bin 0 is
+/// untyped), into `counts` for a locus whose count vectors have `length` entries.
+fn counts_from_histogram(histogram: &[u32], genotypes: &[(u16, u16)], length: usize, counts: &mut AlleleCounts) {
+    reset(counts, length);
+    for (&n, &(a, b)) in histogram.iter().zip(genotypes).skip(1) {
+        let (a, b) = (usize::from(a), usize::from(b));
+        counts.typed += n;
+        counts.alleles[a] += n;
+        counts.alleles[b] += n;
+        if a != b {
+            counts.heterozygotes += n;
+            counts.heterozygous_carriers[a] += n;
+            counts.heterozygous_carriers[b] += n;
+        }
+    }
+}
+
+/// `rest = total − part`, element by element (part is a subset of total).
+fn subtract(total: &AlleleCounts, part: &AlleleCounts, rest: &mut AlleleCounts) {
+    reset(rest, total.alleles.len());
+    for (r, (t, p)) in rest.alleles.iter_mut().zip(total.alleles.iter().zip(&part.alleles)) {
+        *r = t - p;
+    }
+    for (r, (t, p)) in
+        rest.heterozygous_carriers.iter_mut().zip(total.heterozygous_carriers.iter().zip(&part.heterozygous_carriers))
+    {
+        *r = t - p;
+    }
+    rest.typed = total.typed - part.typed;
+    rest.heterozygotes = total.heterozygotes - part.heterozygotes;
+}
+
+/// Zeroes `counts` for a locus whose count vectors have `length` entries, keeping capacity.
+fn reset(counts: &mut AlleleCounts, length: usize) {
+    counts.alleles.clear();
+    counts.alleles.resize(length, 0);
+    counts.heterozygous_carriers.clear();
+    counts.heterozygous_carriers.resize(length, 0);
+    counts.typed = 0;
+    counts.heterozygotes = 0;
+}

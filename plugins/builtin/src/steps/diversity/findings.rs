@@ -1,0 +1,211 @@
+//! The findings of `diversity`: small groups, few loci, loci where estimates are null, and the
+//! conventions of F, FIS and rarefaction. Lists of loci go into one finding each, never one
+//! finding per locus.
+
+use popgauge_abi::{Finding, GenotypeView, Where};
+
+use super::richness::Richness;
+use super::{FEW_LOCI, GroupEstimates, LOW_SAMPLE_SIZE, Params};
+
+/// How many items a finding names before it says "and N more".
+const LISTED: usize = 20;
+
+pub(super) fn collect(
+    view: &GenotypeView<'_>,
+    groups: &[GroupEstimates],
+    richness: &Richness,
+    params: &Params,
+) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    for estimates in groups {
+        findings.extend(group_size_findings(estimates));
+    }
+    findings.extend(too_few_typed(view, groups));
+    findings.extend(monomorphic_in_group(view, groups));
+    findings.extend(rarefaction_exclusions(view, groups, richness));
+    findings.push(rarefaction_size(groups, richness));
+    findings.push(fis_interval(params.bootstrap));
+    findings.push(f_definition());
+    findings
+}
+
+fn group_name(estimates: &GroupEstimates) -> String {
+    format!("{} {}", estimates.group.population, estimates.group.year)
+}
+
+fn group_size_findings(estimates: &GroupEstimates) -> Vec<Finding> {
+    let group = &estimates.group;
+    let location = || Where::group(&group.population, group.year);
+    let name = group_name(estimates);
+    let usable_loci = estimates.summarise().usable_loci;
+    let mut findings = Vec::new();
+    if group.samples.len() < LOW_SAMPLE_SIZE {
+        findings.push(Finding::warning(
+            "low-sample-size",
+            format!(
+                "group {name} has {} samples, fewer than {LOW_SAMPLE_SIZE}: its heterozygosity, F and FIS are imprecise",
+                group.samples.len()
+            ),
+            location(),
+        ));
+    }
+    if usable_loci < FEW_LOCI {
+        findings.push(Finding::warning(
+            "few-loci",
+            format!(
+                "group {name} has {usable_loci} loci typed in at least two individuals, fewer than {FEW_LOCI}: \
+                 its mean heterozygosity, F and FIS rest on few loci"
+            ),
+            location(),
+        ));
+    }
+    findings
+}
+
+/// "a, b, c and 4 more".
+fn listing(items: &[String]) -> String {
+    let shown = items.iter().take(LISTED).cloned().collect::<Vec<_>>().join(", ");
+    if items.len() > LISTED { format!("{shown} and {} more", items.len() - LISTED) } else { shown }
+}
+
+fn too_few_typed(view: &GenotypeView<'_>, groups: &[GroupEstimates]) -> Option<Finding> {
+    let items: Vec<String> = groups
+        .iter()
+        .flat_map(|g| {
+            g.loci.iter().enumerate().filter(|(_, l)| !l.heterozygosity.is_usable()).map(move |(locus, l)| {
+                format!("{} in {} ({} typed)", view.locus(locus).name, group_name(g), l.heterozygosity.typed)
+            })
+        })
+        .collect();
+    (!items.is_empty()).then(|| {
+        Finding::info(
+            "too-few-typed",
+            format!(
+                "{} locus–group combinations have fewer than two typed individuals, so Ho, He, F, FIS and the \
+                 effective number of alleles are null there and the locus is left out of that group's means: {}",
+                items.len(),
+                listing(&items)
+            ),
+            Where::default(),
+        )
+    })
+}
+
+fn monomorphic_in_group(view: &GenotypeView<'_>, groups: &[GroupEstimates]) -> Option<Finding> {
+    let items: Vec<String> = groups
+        .iter()
+        .flat_map(|g| {
+            g.loci
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| l.heterozygosity.is_usable() && l.heterozygosity.distinct_alleles == 1)
+                .map(move |(locus, _)| format!("{} in {}", view.locus(locus).name, group_name(g)))
+        })
+        .collect();
+    (!items.is_empty()).then(|| {
+        Finding::info(
+            "monomorphic-in-group",
+            format!(
+                "{} locus–group combinations are monomorphic (Ho = He = 0), so F and FIS are null there; they add \
+                 nothing to a group's ratio of sums: {}",
+                items.len(),
+                listing(&items)
+            ),
+            Where::default(),
+        )
+    })
+}
+
+fn rarefaction_exclusions(view: &GenotypeView<'_>, groups: &[GroupEstimates], richness: &Richness) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    for (estimates, _) in groups.iter().zip(&richness.compared).filter(|(_, compared)| !**compared) {
+        findings.push(Finding::warning(
+            "rarefaction-group-excluded",
+            format!(
+                "group {} has {} sample(s), fewer than two: it is left out of the rarefaction comparison and its \
+                 ar and par are null",
+                group_name(estimates),
+                estimates.group.samples.len()
+            ),
+            Where::group(&estimates.group.population, estimates.group.year),
+        ));
+    }
+    if !richness.dropped.is_empty() {
+        let needed = richness.requested.map_or("two".to_string(), |s| s.to_string());
+        let items: Vec<String> = richness
+            .dropped
+            .iter()
+            .map(|d| {
+                let short: Vec<String> =
+                    d.short.iter().map(|&(g, n)| format!("{} has {n}", group_name(&groups[g]))).collect();
+                format!("{} ({})", view.locus(d.locus).name, short.join("; "))
+            })
+            .collect();
+        findings.push(Finding::warning(
+            "rarefaction-loci-dropped",
+            format!(
+                "{} loci are left out of ar and par for every group because a compared group has fewer than {needed} \
+                 typed individuals there: {}. Set `rarefaction_size` lower, or remove the locus, to keep them",
+                items.len(),
+                listing(&items)
+            ),
+            Where::default(),
+        ));
+    }
+    findings
+}
+
+fn rarefaction_size(groups: &[GroupEstimates], richness: &Richness) -> Finding {
+    let copies: Vec<u32> = richness.copies.iter().flatten().copied().collect();
+    let compared = richness.compared_groups();
+    let rule = match richness.requested {
+        Some(s) => format!("2 × rarefaction_size = {} gene copies at every locus", 2 * s),
+        None => "2 × the smallest number of typed individuals among the compared groups at each locus".into(),
+    };
+    let range = match (copies.iter().min(), copies.iter().max()) {
+        (Some(low), Some(high)) if low == high => format!("g = {low} copies at all {} loci rarefied", copies.len()),
+        (Some(low), Some(high)) => {
+            format!("g ranges from {low} to {high} copies over the {} loci rarefied", copies.len())
+        }
+        _ => "no locus could be rarefied, so ar and par are null".into(),
+    };
+    let private = if compared >= 2 {
+        "par counts the alleles expected in g copies of a group and in no other compared group"
+    } else {
+        "with fewer than two groups compared, par is null"
+    };
+    Finding::info(
+        "rarefaction-size",
+        format!(
+            "ar and par are rarefied to {rule} (Hurlbert 1971; Kalinowski 2004); comparison set: all population–year \
+             groups with at least two samples ({compared} of {} groups); {range}; {private}",
+            groups.len()
+        ),
+        Where::default(),
+    )
+}
+
+fn fis_interval(replicates: u32) -> Finding {
+    let text = if replicates == 0 {
+        "fis_low and fis_high are null: the bootstrap is off (bootstrap = 0)".to_string()
+    } else {
+        format!(
+            "fis_low and fis_high are the 2.5th and 97.5th percentiles of {replicates} bootstrap replicates over loci \
+             (drawn from the step seed; fis_replicates counts the defined ones). The interval reflects the sampling \
+             of loci only; F and FIS are estimates with uncertainty, to be read with their interval and reviewed by a \
+             qualified geneticist before they inform management"
+        )
+    };
+    Finding::info("fis-interval", text, Where::default())
+}
+
+fn f_definition() -> Finding {
+    Finding::info(
+        "f-definition",
+        "F of a group is 1 − ΣHo/ΣHe over the loci typed in at least two of its individuals, with He the unbiased \
+         expected heterozygosity of Nei (1978); per locus F = 1 − Ho/He is null where He = 0. FIS is Weir & \
+         Cockerham's (1984) 1 − Σc/Σ(b + c) over the same loci, equal to 1 − ΣHo/ΣHe* with the Nei–Chesser He*, so \
+         F and FIS differ slightly in small samples",
+        Where::default(),
+    )
+}

@@ -1,0 +1,278 @@
+//! `hwe`: Hardy–Weinberg exact tests per locus and group (population, year), the direction of
+//! any departure, Fisher's combination per group, false-discovery-rate q-values over every test
+//! of the step, and a null-allele indication per locus.
+//!
+//! # Method
+//! At each locus, in each group, the *n* individuals typed at both alleles (code 0 = untyped
+//! is left out, never imputed) form a genotype table, tested given its allele counts
+//! ([`crate::stats::hwe_exact`]):
+//!
+//! - two alleles: the exact test of Wigginton, Cutler & Abecasis (2005) by recurrence;
+//! - three or more: complete enumeration of the tables when they are few (Guo & Thompson
+//!   1992), otherwise a Monte Carlo estimate from `permutations` random tables (default
+//!   10,000): the 2n gene copies are shuffled and paired; p̂ = (b + 1)/(B + 1) with standard
+//!   error `p_se` (0 for exact tests). Each test draws from its own stream of the step seed,
+//!   named after the group and locus, so results do not depend on the order of the tests or on
+//!   which other loci are present.
+//!
+//! `p_value` sums the probabilities of the tables no more probable than the observed one
+//! (ties within a relative 1e−7); `p_mid` is the mid-p; `p_deficit` and `p_excess` are the
+//! one-sided tests on the number of heterozygotes. `direction` is `deficit` when Ho < He
+//! (Nei 1978, unbiased), `excess` when Ho > He, else `none` (compared exactly in integers).
+//!
+//! A locus monomorphic in the group or typed in fewer than two of its individuals is
+//! untestable: its p-values are `null` (not 1) and one info finding lists all such cases.
+//!
+//! # Combining and correcting
+//! - `by_group`: Fisher's (1932) X² = −2 Σ ln p over the loci tested in the group, on 2m
+//!   degrees of freedom. It assumes independent loci; with exact (discrete) p-values it is
+//!   conservative.
+//! - `q_value`: Benjamini & Hochberg (1995) over every locus × group test of the step; the
+//!   family size m is stated in an info finding.
+//! - Null alleles: a `possible-null-allele` warning for a locus where, in at least half of the
+//!   groups in which it was tested, the deficit is significant (`direction` = deficit and
+//!   q < 0.05) and Brookfield's (1996) r = (He − Ho)/(1 + He) ≥ 0.05 (METHODS §4.4; the
+//!   estimator is written from memory and awaits a check against the paper). Inbreeding or a
+//!   Wahlund effect raise both too, so this is an indication only. `null_allele_r` reports r.
+//!
+//! # Tables
+//! - `by_locus`: population, year, locus, n, alleles, method (`exact`/`monte-carlo`), draws,
+//!   p_value, p_se, p_mid, p_deficit, p_excess, q_value, direction, ho, he, null_allele_r.
+//! - `by_group`: population, year, loci_tested, chi2, df, p_value.
+
+use popgauge_abi::{
+    AlleleCounts, Cell, Descriptor, GenotypeView, Group, ParamKind, Seed, Step, StepContext, StepError, StepOutput,
+};
+use rayon::prelude::*;
+use serde::Deserialize;
+use serde_json::json;
+
+use crate::stats::fdr::{
+    BENJAMINI_HOCHBERG_1995, FISHER_1932, FisherCombination, benjamini_hochberg, fisher_combination,
+};
+use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
+use crate::stats::hwe_exact::{self, GenotypeTable, HweTest, HweWorkspace, TestSettings, test_rng};
+use crate::stats::null_allele::{BROOKFIELD_1996, brookfield_null_allele_frequency};
+
+mod findings;
+mod tables;
+
+/// q below this counts as a significant departure for the null-allele indication.
+pub const SIGNIFICANT_Q: f64 = 0.05;
+/// Brookfield's r at or above this counts towards the null-allele indication (METHODS §4.4).
+pub const NULL_ALLELE_R: f64 = 0.05;
+
+/// Parameters of `hwe`, as resolved from the descriptor (defaults live there).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Params {
+    /// Monte Carlo draws for multi-allelic loci with too many tables to enumerate.
+    pub permutations: u32,
+}
+
+/// The descriptor of `hwe`: its name, version and parameters with defaults.
+pub fn descriptor() -> Descriptor {
+    Descriptor::new(
+        "hwe",
+        "0.1.0",
+        "Hardy–Weinberg exact tests per locus and group, deficit/excess, Fisher's combination and FDR q-values",
+    )
+    .param(
+        "permutations",
+        ParamKind::Integer { min: 0, max: 10_000_000 },
+        json!(10_000),
+        "Monte Carlo draws for multi-allelic loci too large to enumerate (0 = leave them untested)",
+    )
+}
+
+/// The `hwe` step.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Hwe;
+
+impl Step for Hwe {
+    fn descriptor(&self) -> Descriptor {
+        descriptor()
+    }
+
+    fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+        let params: Params = ctx.params_as()?;
+        let settings = TestSettings { permutations: params.permutations, ..TestSettings::default() };
+        let groups = ctx.view.groups();
+        let mut results = test_groups(&ctx.view, &groups, &settings, ctx.seed);
+        let family_size = assign_q_values(&mut results);
+        let combined: Vec<Option<FisherCombination>> = results.iter().map(combine_group).collect();
+        let mut output = StepOutput::default();
+        output.tables.insert("by_locus".into(), tables::by_locus(&ctx.view, &groups, &results)?);
+        output.tables.insert("by_group".into(), tables::by_group(&groups, &results, &combined)?);
+        output.findings = findings::collect(&ctx.view, &groups, &results, family_size, &settings);
+        output.citations = citations();
+        Ok(output)
+    }
+}
+
+/// Whether heterozygotes are fewer or more than expected.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Direction {
+    /// Ho < He.
+    Deficit,
+    /// Ho > He.
+    Excess,
+    /// Ho = He.
+    None,
+}
+
+impl Direction {
+    /// The spelling in result tables.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Direction::Deficit => "deficit",
+            Direction::Excess => "excess",
+            Direction::None => "none",
+        }
+    }
+
+    /// Ho against the unbiased He, compared exactly: Ho < He ⟺ H·N(N − 1) < n·(N² − Σcᵤ²).
+    fn of(counts: &AlleleCounts) -> Option<Direction> {
+        if counts.typed < 2 {
+            return None;
+        }
+        let n = u128::from(counts.typed);
+        let copies = 2 * n;
+        let squares: u128 = counts.alleles.iter().map(|&c| u128::from(c) * u128::from(c)).sum();
+        let observed = u128::from(counts.heterozygotes) * copies * (copies - 1);
+        let expected = n * (copies * copies - squares);
+        Some(match observed.cmp(&expected) {
+            std::cmp::Ordering::Less => Direction::Deficit,
+            std::cmp::Ordering::Greater => Direction::Excess,
+            std::cmp::Ordering::Equal => Direction::None,
+        })
+    }
+}
+
+/// Why a locus in a group has no test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Untested {
+    /// Fewer than two typed individuals.
+    TooFewTyped,
+    /// One allele only.
+    Monomorphic,
+    /// Too many tables to enumerate and `permutations` = 0.
+    NoDraws,
+}
+
+/// The test of one locus in one group.
+#[derive(Debug, Clone, PartialEq)]
+struct LocusTest {
+    heterozygosity: LocusHeterozygosity,
+    direction: Option<Direction>,
+    outcome: Result<HweTest, Untested>,
+    q_value: Option<f64>,
+}
+
+impl LocusTest {
+    fn p_value(&self) -> Option<f64> {
+        self.outcome.as_ref().ok().map(|t| t.p_value)
+    }
+
+    fn null_allele_r(&self) -> Option<f64> {
+        Some(brookfield_null_allele_frequency(self.heterozygosity.observed?, self.heterozygosity.expected?))
+    }
+
+    /// A significant deficit with Brookfield's r ≥ 0.05 (METHODS §4.4).
+    fn indicates_null_allele(&self) -> bool {
+        self.direction == Some(Direction::Deficit)
+            && self.q_value.is_some_and(|q| q < SIGNIFICANT_Q)
+            && self.null_allele_r().is_some_and(|r| r >= NULL_ALLELE_R)
+    }
+}
+
+/// Tests of every locus of one group, in view locus order.
+type GroupTests = Vec<LocusTest>;
+
+/// Tests every locus in every group, groups in parallel; each test draws only from its own
+/// named stream, so the thread count does not change any result.
+fn test_groups(view: &GenotypeView<'_>, groups: &[Group], settings: &TestSettings, seed: Seed) -> Vec<GroupTests> {
+    groups.par_iter().map(|group| test_group(view, group, settings, seed)).collect()
+}
+
+fn test_group(view: &GenotypeView<'_>, group: &Group, settings: &TestSettings, seed: Seed) -> GroupTests {
+    let mut counts = AlleleCounts::default();
+    let mut table = GenotypeTable::new();
+    let mut workspace = HweWorkspace::new();
+    let mut compact: Vec<usize> = Vec::new();
+    (0..view.n_loci())
+        .map(|locus| {
+            view.allele_counts_into(locus, &group.samples, &mut counts);
+            fill_table(view, locus, &group.samples, &counts, &mut compact, &mut table);
+            let rng = || test_rng(seed, &group.population, group.year, &view.locus(locus).name);
+            let outcome = match workspace.test(&table, settings, rng) {
+                Some(test) => Ok(test),
+                None if counts.typed < 2 => Err(Untested::TooFewTyped),
+                None if counts.distinct() < 2 => Err(Untested::Monomorphic),
+                None => Err(Untested::NoDraws),
+            };
+            LocusTest {
+                heterozygosity: LocusHeterozygosity::from_counts(&counts),
+                direction: Direction::of(&counts),
+                outcome,
+                q_value: None,
+            }
+        })
+        .collect()
+}
+
+/// The genotype table of `samples` at `locus`, alleles relabelled in code order `0..k`.
+fn fill_table(
+    view: &GenotypeView<'_>,
+    locus: usize,
+    samples: &[usize],
+    counts: &AlleleCounts,
+    compact: &mut Vec<usize>,
+    table: &mut GenotypeTable,
+) {
+    compact.clear();
+    let mut next = 0;
+    compact.extend(counts.alleles.iter().map(|&c| {
+        let index = next;
+        next += usize::from(c > 0);
+        index
+    }));
+    table.reset(next);
+    for &s in samples {
+        if let Some((a, b)) = view.genotype(s, locus) {
+            table.add(compact[a.0 as usize], compact[b.0 as usize]);
+        }
+    }
+}
+
+/// Benjamini–Hochberg q-values over every test of the step; returns the family size m.
+fn assign_q_values(results: &mut [GroupTests]) -> usize {
+    let p_values: Vec<f64> = results.iter().flatten().filter_map(LocusTest::p_value).collect();
+    let q_values = benjamini_hochberg(&p_values);
+    let mut next = q_values.iter();
+    for test in results.iter_mut().flatten() {
+        if test.p_value().is_some() {
+            test.q_value = next.next().copied();
+        }
+    }
+    p_values.len()
+}
+
+fn combine_group(tests: &GroupTests) -> Option<FisherCombination> {
+    let p_values: Vec<f64> = tests.iter().filter_map(LocusTest::p_value).collect();
+    fisher_combination(&p_values)
+}
+
+fn citations() -> Vec<String> {
+    let mut all: Vec<String> = hwe_exact::CITATIONS.iter().map(|c| c.to_string()).collect();
+    all.extend([FISHER_1932, BENJAMINI_HOCHBERG_1995, BROOKFIELD_1996, NEI_1978].map(String::from));
+    all
+}
+
+/// A count as a table integer (counts never approach `i64::MAX`).
+fn count_cell(count: usize) -> Cell {
+    Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
+}
+
+#[cfg(test)]
+mod tests;

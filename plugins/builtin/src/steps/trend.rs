@@ -1,0 +1,659 @@
+//! `trend`: per population, is a metric rising or falling over the sampling years?
+//!
+//! # Series
+//! Each metric gives one value per (population, year), read from earlier results:
+//!
+//! - `he`, `ho`, `ar`, `f`: the columns of the `diversity` step's `by_group` table (the last
+//!   `diversity` step in the recipe);
+//! - `ne:<step id>`: the `ne` column of an `ne-ld` or `ne-hetx` step's `estimates`, or `ne_fs`
+//!   of an `ne-temporal` step. For `ne-ld` the rows at Pcrit = `ld_pcrit` (default 0.02) are
+//!   used, or, when the step did not estimate at that Pcrit, those at the Pcrit of its first
+//!   row (its first requested Pcrit); an info finding says which. A temporal estimate is placed
+//!   at its `year_end`; of several ending in the same year, the one with the latest
+//!   `year_start` is used.
+//!
+//! `null` values are not points. **Ne is analysed on the 1/Ne scale**, proportional to the
+//! rate of inbreeding ΔF = 1/(2Ne) per generation: an infinite estimate becomes 1/Ne = 0 and
+//! stays in the series, which ln Ne could not hold. S, τ, Z and the slopes of an `ne:` metric
+//! are therefore those of 1/Ne (a positive slope means Ne falls), while `direction` speaks of
+//! Ne itself. Other metrics are analysed as they are.
+//!
+//! # Tests (METHODS §8; formulas in [`crate::stats::trend`])
+//! Mann–Kendall S, Var S, τ and a two-sided p (exact null distribution for at most 10 untied
+//! points, otherwise the tie-corrected normal approximation with continuity correction),
+//! Sen's slope with Gilbert's (1987) 95% interval, and the least-squares slope with a 95%
+//! Student-t interval. Slopes are **per year** (per calendar year of sampling, not per
+//! generation). A series needs at least 4 points for the Mann–Kendall test and Sen's interval
+//! and 3 for the least-squares slope; shorter series get `null` there and a `too-few-points`
+//! finding, never a p-value. `direction` is `increasing` or `decreasing` when the
+//! Mann–Kendall p is below `alpha`, `no trend` otherwise, and `null` without a test.
+//!
+//! **Two sampling years.** For a population sampled in exactly two years, the per-locus `he`
+//! and `ho` of `diversity`/`by_locus` (when those metrics are asked for) are compared across
+//! the loci typed in both years: a Wilcoxon signed-rank test of the differences (later minus
+//! earlier; zero differences dropped) and a percentile bootstrap interval of the mean change
+//! over loci (`bootstrap` resamples of loci, seeded from the step seed).
+//!
+//! # Tables
+//! - `tests`: population, metric, scale (`value` or `1/ne`), points, first_year, last_year,
+//!   mk_s, mk_var, mk_tau, mk_z, mk_p, mk_method (`exact`/`normal`), sen_slope, sen_low,
+//!   sen_high, ols_slope, ols_se, ols_low, ols_high, direction.
+//! - `series`: population, metric, year, value (as the source gives it; an infinite Ne is
+//!   `"inf"`), analysed (the value on the tested scale).
+//! - `paired`: population, metric, year_start, year_end, loci (typed in both years), zeros
+//!   (loci without change, dropped from the test), w_plus, w_minus, p_method, p_value,
+//!   mean_change, change_low, change_high, replicates.
+//!
+//! # Findings
+//! `too-few-points` (info) per series too short for a test; `low-power` (info) for a series of
+//! exactly 4 points, whose smallest two-sided p is 0.083; `missing-source` (warning) when a
+//! metric's source step is absent, failed or lacks the table or column, and `no-values` (info)
+//! when it gives only nulls; `ld-pcrit` (info) naming the Pcrit followed; `ne-trend-scale`
+//! (info) on the 1/Ne scale; `trend-caution` (info) on the limits of short series.
+//!
+//! # Citations
+//! Mann (1945); Kendall (1975); Sen (1968); Gilbert (1987); Wilcoxon (1945); Efron &
+//! Tibshirani (1993) — full references in [`CITATIONS`].
+
+pub(crate) mod sources;
+#[cfg(test)]
+mod tests;
+
+use std::collections::BTreeMap;
+
+use popgauge_abi::{
+    Cell, Descriptor, Finding, ParamKind, Step, StepContext, StepError, StepOutput, StepResult, Table, Where,
+    did_you_mean, format_number,
+};
+use serde::Deserialize;
+use serde_json::json;
+
+use crate::stats::bootstrap::{bootstrap_loci, percentile_interval, rng};
+use crate::stats::trend::{
+    LeastSquares, MIN_POINTS_LEAST_SQUARES, MIN_POINTS_MANN_KENDALL, MannKendall, SenSlope, SignedRank, least_squares,
+    mann_kendall, sen_slope, wilcoxon_signed_rank,
+};
+use sources::{NE_STEP_USES, PointsByPopulation, SourceProblem};
+
+/// Confidence level of every interval of this step.
+pub const CONFIDENCE_LEVEL: f64 = 0.95;
+/// The metrics `diversity` provides.
+const DIVERSITY_METRICS: [&str; 4] = ["he", "ho", "ar", "f"];
+/// The diversity metrics with per-locus values, compared by the two-point paired test.
+const PAIRED_METRICS: [&str; 2] = ["he", "ho"];
+
+/// Full references of the methods, for the step's citations.
+pub const CITATIONS: [&str; 6] = [
+    "Mann HB (1945) Nonparametric tests against trend. Econometrica 13:245–259.",
+    "Kendall MG (1975) Rank Correlation Methods, 4th ed. Griffin, London.",
+    "Sen PK (1968) Estimates of the regression coefficient based on Kendall's tau. J Am Stat Assoc 63:1379–1389.",
+    "Gilbert RO (1987) Statistical Methods for Environmental Pollution Monitoring. Van Nostrand Reinhold, New York.",
+    "Wilcoxon F (1945) Individual comparisons by ranking methods. Biometrics Bull 1:80–83.",
+    "Efron B, Tibshirani RJ (1993) An Introduction to the Bootstrap. Chapman & Hall, New York.",
+];
+
+/// Parameters of `trend`, as resolved from the descriptor (defaults live there).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Params {
+    /// Metrics to test: `he`, `ho`, `ar`, `f`, `ne` (every earlier Ne step) or `ne:<step id>`.
+    pub metrics: Vec<String>,
+    /// The Pcrit whose `ne-ld` rows are followed.
+    pub ld_pcrit: f64,
+    /// Significance level for `direction`.
+    pub alpha: f64,
+    /// Bootstrap resamples of loci for the two-point change interval.
+    pub bootstrap: usize,
+}
+
+/// The descriptor of `trend`: its name, version and parameters with defaults.
+pub fn descriptor() -> Descriptor {
+    Descriptor::new(
+        "trend",
+        "0.1.0",
+        "Trends over sampling years per population: Mann–Kendall test, Sen's slope, least-squares slope; \
+         paired test over loci for two sampling years",
+    )
+    .param(
+        "metrics",
+        ParamKind::TextList { choices: Vec::new() },
+        json!(["he", "ho", "ar", "f", "ne"]),
+        "metrics to test: he, ho, ar, f (from diversity), ne (every earlier Ne step) or ne:<step id>",
+    )
+    .param(
+        "ld_pcrit",
+        ParamKind::Number { min: 0.0, max: 0.5 },
+        json!(0.02),
+        "Pcrit of the ne-ld rows to follow (the step's first Pcrit when it has no rows at this one)",
+    )
+    .param(
+        "alpha",
+        ParamKind::Number { min: 0.001, max: 0.5 },
+        json!(0.05),
+        "significance level at which `direction` reports a trend",
+    )
+    .param(
+        "bootstrap",
+        ParamKind::Integer { min: 2000, max: 1_000_000 },
+        json!(2000),
+        "bootstrap resamples of loci for the interval of the change between two sampling years",
+    )
+}
+
+/// The `trend` step.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Trend;
+
+impl Step for Trend {
+    fn descriptor(&self) -> Descriptor {
+        descriptor()
+    }
+
+    fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+        let params: Params = ctx.params_as()?;
+        let metrics = resolve_metrics(&params.metrics, ctx.earlier)?;
+        let mut findings = Vec::new();
+        let series = collect_series(ctx, &metrics, params.ld_pcrit, &mut findings);
+        let tested: Vec<TestedSeries> = series.iter().map(|s| s.test(params.alpha)).collect();
+        let paired = paired_changes(ctx, &metrics, &params, &mut findings);
+        findings.extend(point_count_findings(&tested));
+        findings.extend(interpretation_findings(&metrics));
+        let mut output = StepOutput::default();
+        output.tables.insert("tests".into(), tests_table(&tested)?);
+        output.tables.insert("series".into(), series_table(&series)?);
+        output.tables.insert("paired".into(), paired_table(&paired)?);
+        output.findings = findings;
+        output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
+        Ok(output)
+    }
+}
+
+/// Where a metric's values come from.
+#[derive(Debug, Clone, PartialEq, Eq)]
+enum Metric {
+    /// A column of `diversity`/`by_group`.
+    Diversity(&'static str),
+    /// The Ne of an earlier Ne step.
+    Ne { step_id: String, uses: String },
+}
+
+impl Metric {
+    /// The `metric` column: the source column name or `ne:<step id>`.
+    fn name(&self) -> String {
+        match self {
+            Metric::Diversity(column) => column.to_string(),
+            Metric::Ne { step_id, .. } => format!("ne:{step_id}"),
+        }
+    }
+
+    fn scale(&self) -> Scale {
+        match self {
+            Metric::Diversity(_) => Scale::Value,
+            Metric::Ne { .. } => Scale::InverseNe,
+        }
+    }
+}
+
+/// The scale a series is tested on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Scale {
+    /// The value itself.
+    Value,
+    /// 1/Ne (an infinite Ne gives 0).
+    InverseNe,
+}
+
+impl Scale {
+    fn as_str(self) -> &'static str {
+        match self {
+            Scale::Value => "value",
+            Scale::InverseNe => "1/ne",
+        }
+    }
+
+    /// The value on this scale; `None` for an Ne that is not a positive size.
+    fn transform(self, value: f64) -> Option<f64> {
+        match self {
+            Scale::Value => Some(value),
+            Scale::InverseNe if value > 0.0 => Some(1.0 / value),
+            Scale::InverseNe => None,
+        }
+    }
+}
+
+/// Turns the `metrics` parameter into sources, in the order given, without repeats.
+fn resolve_metrics(requested: &[String], earlier: &[StepResult]) -> Result<Vec<Metric>, StepError> {
+    let ne_steps: Vec<&StepResult> = earlier.iter().filter(|r| NE_STEP_USES.contains(&r.uses.as_str())).collect();
+    let ne_metric = |r: &StepResult| Metric::Ne { step_id: r.id.clone(), uses: r.uses.clone() };
+    let mut metrics: Vec<Metric> = Vec::new();
+    for word in requested {
+        let found: Vec<Metric> = if let Some(&column) = DIVERSITY_METRICS.iter().find(|&&m| m == word) {
+            vec![Metric::Diversity(column)]
+        } else if word == "ne" {
+            ne_steps.iter().map(|r| ne_metric(r)).collect()
+        } else if let Some(id) = word.strip_prefix("ne:") {
+            let step = ne_steps.iter().find(|r| r.id == id).ok_or_else(|| unknown_ne_step(word, &ne_steps))?;
+            vec![ne_metric(step)]
+        } else {
+            return Err(unknown_metric(word, &ne_steps));
+        };
+        for metric in found {
+            if !metrics.contains(&metric) {
+                metrics.push(metric);
+            }
+        }
+    }
+    Ok(metrics)
+}
+
+fn known_metric_names(ne_steps: &[&StepResult]) -> Vec<String> {
+    let mut names: Vec<String> = DIVERSITY_METRICS.iter().map(|m| m.to_string()).collect();
+    names.push("ne".into());
+    names.extend(ne_steps.iter().map(|r| format!("ne:{}", r.id)));
+    names
+}
+
+fn unknown_metric(word: &str, ne_steps: &[&StepResult]) -> StepError {
+    let known = known_metric_names(ne_steps);
+    let hint = did_you_mean(word, known.iter().map(String::as_str))
+        .map(|s| format!("did you mean \"{s}\"? "))
+        .unwrap_or_default();
+    StepError::new(format!(
+        "parameter `metrics`: unknown metric \"{word}\"\n  help: {hint}choose from {}",
+        known.join(", ")
+    ))
+}
+
+fn unknown_ne_step(word: &str, ne_steps: &[&StepResult]) -> StepError {
+    let help = if ne_steps.is_empty() {
+        "no Ne step runs before this one: add an ne-ld, ne-temporal or ne-hetx step earlier in the recipe, \
+         or remove it from `metrics`"
+            .to_string()
+    } else {
+        let ids: Vec<String> = ne_steps.iter().map(|r| format!("ne:{}", r.id)).collect();
+        format!("the Ne steps before this one are {}", ids.join(", "))
+    };
+    StepError::new(format!("parameter `metrics`: \"{word}\" names no earlier Ne step\n  help: {help}"))
+}
+
+/// One (population, metric) series: raw values by year.
+struct Series {
+    population: String,
+    metric: String,
+    scale: Scale,
+    values: BTreeMap<i32, f64>,
+}
+
+impl Series {
+    /// (year, value on the tested scale) of the points that have one.
+    fn analysed(&self) -> Vec<(f64, f64)> {
+        self.values.iter().filter_map(|(&y, &v)| Some((f64::from(y), self.scale.transform(v)?))).collect()
+    }
+
+    fn test(&self, alpha: f64) -> TestedSeries<'_> {
+        let points = self.analysed();
+        let times: Vec<f64> = points.iter().map(|p| p.0).collect();
+        let values: Vec<f64> = points.iter().map(|p| p.1).collect();
+        let mann_kendall = mann_kendall(&values);
+        let sen = mann_kendall.and_then(|mk| sen_slope(&times, &values, mk.variance, CONFIDENCE_LEVEL));
+        let least_squares = least_squares(&times, &values, CONFIDENCE_LEVEL);
+        let direction = mann_kendall.map(|mk| self.direction(&mk, alpha));
+        TestedSeries { series: self, points: points.len(), mann_kendall, sen, least_squares, direction }
+    }
+
+    /// The direction of the metric itself (so of Ne, not of 1/Ne).
+    fn direction(&self, mk: &MannKendall, alpha: f64) -> &'static str {
+        let rising_on_scale = mk.s > 0;
+        let rising = match self.scale {
+            Scale::Value => rising_on_scale,
+            Scale::InverseNe => !rising_on_scale,
+        };
+        match (mk.p_value < alpha && mk.s != 0, rising) {
+            (false, _) => "no trend",
+            (true, true) => "increasing",
+            (true, false) => "decreasing",
+        }
+    }
+}
+
+/// A series with its tests.
+struct TestedSeries<'s> {
+    series: &'s Series,
+    points: usize,
+    mann_kendall: Option<MannKendall>,
+    sen: Option<SenSlope>,
+    least_squares: Option<LeastSquares>,
+    direction: Option<&'static str>,
+}
+
+/// Every (population, metric) series, by population then metric in the order asked.
+fn collect_series(
+    ctx: &StepContext<'_>,
+    metrics: &[Metric],
+    ld_pcrit: f64,
+    findings: &mut Vec<Finding>,
+) -> Vec<Series> {
+    let mut series: Vec<(usize, Series)> = Vec::new();
+    for (order, metric) in metrics.iter().enumerate() {
+        let Some(points) = metric_points(ctx, metric, ld_pcrit, findings) else { continue };
+        for (population, values) in points {
+            let scale = metric.scale();
+            series.push((order, Series { population, metric: metric.name(), scale, values }));
+        }
+    }
+    series.sort_by(|a, b| a.1.population.cmp(&b.1.population).then(a.0.cmp(&b.0)));
+    series.into_iter().map(|(_, s)| s).collect()
+}
+
+/// The values of one metric by population, or `None` (with a finding) when its source is
+/// missing or unreadable.
+fn metric_points(
+    ctx: &StepContext<'_>,
+    metric: &Metric,
+    ld_pcrit: f64,
+    findings: &mut Vec<Finding>,
+) -> Option<PointsByPopulation> {
+    let read = match metric {
+        Metric::Diversity(column) => match ctx.earlier_by_uses("diversity") {
+            Some(result) => sources::diversity_points(result, column),
+            None => Err(SourceProblem(
+                "no diversity step runs before trend; add one earlier in the recipe or remove the metric from `metrics`"
+                    .into(),
+            )),
+        },
+        Metric::Ne { step_id, uses } => {
+            let result = ctx.earlier.iter().find(|r| &r.id == step_id)?;
+            ne_points(result, uses, ld_pcrit, findings)
+        }
+    };
+    match read {
+        Ok(points) if points.is_empty() => {
+            findings.push(Finding::info(
+                "no-values",
+                format!(
+                    "trend of {}: the source step gives no values (every cell is null), so there is nothing to test",
+                    metric.name()
+                ),
+                Where::default(),
+            ));
+            None
+        }
+        Ok(points) => Some(points),
+        Err(SourceProblem(reason)) => {
+            findings.push(Finding::warning(
+                "missing-source",
+                format!("trend of {} skipped: {reason}", metric.name()),
+                Where::default(),
+            ));
+            None
+        }
+    }
+}
+
+fn ne_points(
+    result: &StepResult,
+    uses: &str,
+    ld_pcrit: f64,
+    findings: &mut Vec<Finding>,
+) -> Result<PointsByPopulation, SourceProblem> {
+    match uses {
+        "ne-ld" => {
+            let Some(pcrit) = sources::ld_pcrit_used(result, ld_pcrit)? else {
+                return Ok(PointsByPopulation::new());
+            };
+            findings.push(Finding::info(
+                "ld-pcrit",
+                format!("trend of ne:{} follows the ne-ld estimates at Pcrit {pcrit}", result.id),
+                Where::default(),
+            ));
+            sources::ld_points(result, &pcrit)
+        }
+        "ne-temporal" => sources::temporal_points(result),
+        _ => sources::hetx_points(result),
+    }
+}
+
+/// A two-point comparison over loci.
+struct PairedChange {
+    population: String,
+    metric: &'static str,
+    year_start: i32,
+    year_end: i32,
+    loci: usize,
+    test: Option<SignedRank>,
+    mean_change: Option<f64>,
+    interval: Option<(f64, f64)>,
+    replicates: usize,
+}
+
+/// The paired comparisons for populations sampled in exactly two years.
+fn paired_changes(
+    ctx: &StepContext<'_>,
+    metrics: &[Metric],
+    params: &Params,
+    findings: &mut Vec<Finding>,
+) -> Vec<PairedChange> {
+    let Some(diversity) = ctx.earlier_by_uses("diversity") else { return Vec::new() };
+    let mut changes = Vec::new();
+    for metric in PAIRED_METRICS.iter().filter(|m| metrics.contains(&Metric::Diversity(m))) {
+        let values = match sources::locus_values(diversity, metric) {
+            Ok(values) => values,
+            Err(SourceProblem(reason)) => {
+                findings.push(Finding::warning(
+                    "missing-source",
+                    format!("paired test of {metric} skipped: {reason}"),
+                    Where::default(),
+                ));
+                continue;
+            }
+        };
+        for (population, years) in &values {
+            if let [(first, before), (last, after)] = years.iter().collect::<Vec<_>>()[..] {
+                let differences = paired_differences(before, after);
+                let seed_stream = format!("paired/{population}/{metric}");
+                let (mean_change, interval) =
+                    mean_change_with_interval(&differences, params.bootstrap, ctx, &seed_stream);
+                changes.push(PairedChange {
+                    population: population.clone(),
+                    metric,
+                    year_start: *first,
+                    year_end: *last,
+                    loci: differences.len(),
+                    test: wilcoxon_signed_rank(&differences),
+                    mean_change,
+                    interval,
+                    replicates: params.bootstrap,
+                });
+            }
+        }
+    }
+    changes.sort_by(|a, b| a.population.cmp(&b.population));
+    changes
+}
+
+/// Later minus earlier value at each locus present in both years, in locus-name order.
+fn paired_differences(before: &BTreeMap<String, f64>, after: &BTreeMap<String, f64>) -> Vec<f64> {
+    before.iter().filter_map(|(locus, b)| Some(after.get(locus)? - b)).collect()
+}
+
+/// The mean change over loci and its percentile bootstrap interval (loci resampled).
+fn mean_change_with_interval(
+    differences: &[f64],
+    replicates: usize,
+    ctx: &StepContext<'_>,
+    stream: &str,
+) -> (Option<f64>, Option<(f64, f64)>) {
+    let mean_of = |indices: &[usize]| crate::stats::mean(indices.iter().map(|&i| differences[i]));
+    let all: Vec<usize> = (0..differences.len()).collect();
+    let mean_change = mean_of(&all);
+    let mut generator = rng(ctx.seed, stream);
+    let mut replicate_means = bootstrap_loci(differences.len(), replicates, &mut generator, mean_of);
+    let interval = percentile_interval(&mut replicate_means, CONFIDENCE_LEVEL).map(|i| (i.low, i.high));
+    (mean_change, interval)
+}
+
+fn tests_table(tested: &[TestedSeries<'_>]) -> Result<Table, StepError> {
+    let mut table = Table::new(&[
+        "population",
+        "metric",
+        "scale",
+        "points",
+        "first_year",
+        "last_year",
+        "mk_s",
+        "mk_var",
+        "mk_tau",
+        "mk_z",
+        "mk_p",
+        "mk_method",
+        "sen_slope",
+        "sen_low",
+        "sen_high",
+        "ols_slope",
+        "ols_se",
+        "ols_low",
+        "ols_high",
+        "direction",
+    ]);
+    for t in tested {
+        let years = t.series.analysed();
+        let mk = t.mann_kendall.as_ref();
+        let ols = t.least_squares.as_ref();
+        table.push_row(vec![
+            Cell::text(&t.series.population),
+            Cell::text(&t.series.metric),
+            Cell::text(t.series.scale.as_str()),
+            Cell::Int(t.points as i64),
+            years.first().map_or(Cell::Null, |p| Cell::Int(p.0 as i64)),
+            years.last().map_or(Cell::Null, |p| Cell::Int(p.0 as i64)),
+            mk.map_or(Cell::Null, |m| Cell::Int(m.s)),
+            Cell::maybe(mk.map(|m| m.variance)),
+            Cell::maybe(mk.map(|m| m.tau)),
+            Cell::maybe(mk.map(|m| m.z)),
+            Cell::maybe(mk.map(|m| m.p_value)),
+            mk.map_or(Cell::Null, |m| Cell::text(m.method.as_str())),
+            Cell::maybe(t.sen.map(|s| s.slope)),
+            Cell::maybe(t.sen.and_then(|s| s.low)),
+            Cell::maybe(t.sen.and_then(|s| s.high)),
+            Cell::maybe(ols.map(|o| o.slope)),
+            Cell::maybe(ols.map(|o| o.standard_error)),
+            Cell::maybe(ols.map(|o| o.low)),
+            Cell::maybe(ols.map(|o| o.high)),
+            t.direction.map_or(Cell::Null, Cell::text),
+        ])?;
+    }
+    Ok(table)
+}
+
+fn series_table(series: &[Series]) -> Result<Table, StepError> {
+    let mut table = Table::new(&["population", "metric", "year", "value", "analysed"]);
+    for s in series {
+        for (&year, &value) in &s.values {
+            table.push_row(vec![
+                Cell::text(&s.population),
+                Cell::text(&s.metric),
+                Cell::Int(year.into()),
+                Cell::number(value),
+                Cell::maybe(s.scale.transform(value)),
+            ])?;
+        }
+    }
+    Ok(table)
+}
+
+fn paired_table(changes: &[PairedChange]) -> Result<Table, StepError> {
+    let mut table = Table::new(&[
+        "population",
+        "metric",
+        "year_start",
+        "year_end",
+        "loci",
+        "zeros",
+        "w_plus",
+        "w_minus",
+        "p_method",
+        "p_value",
+        "mean_change",
+        "change_low",
+        "change_high",
+        "replicates",
+    ]);
+    for c in changes {
+        let test = c.test.as_ref();
+        table.push_row(vec![
+            Cell::text(&c.population),
+            Cell::text(c.metric),
+            Cell::Int(c.year_start.into()),
+            Cell::Int(c.year_end.into()),
+            Cell::Int(c.loci as i64),
+            test.map_or(Cell::Int(c.loci as i64), |t| Cell::Int(t.zeros as i64)),
+            Cell::maybe(test.map(|t| t.w_plus)),
+            Cell::maybe(test.map(|t| t.w_minus)),
+            test.map_or(Cell::Null, |t| Cell::text(t.method.as_str())),
+            Cell::maybe(test.map(|t| t.p_value)),
+            Cell::maybe(c.mean_change),
+            Cell::maybe(c.interval.map(|i| i.0)),
+            Cell::maybe(c.interval.map(|i| i.1)),
+            Cell::Int(c.replicates as i64),
+        ])?;
+    }
+    Ok(table)
+}
+
+/// `too-few-points` for each series too short for the Mann–Kendall test or the least-squares
+/// slope (METHODS §8: n ≥ 4 and n ≥ 3), and `low-power` for a series of exactly 4 points.
+fn point_count_findings(tested: &[TestedSeries<'_>]) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    for t in tested {
+        let location = Where { population: Some(t.series.population.clone()), ..Where::default() };
+        let name = format!("{} in {}", t.series.metric, t.series.population);
+        if t.points < MIN_POINTS_MANN_KENDALL {
+            let ols = if t.points < MIN_POINTS_LEAST_SQUARES {
+                format!(" and fewer than the {MIN_POINTS_LEAST_SQUARES} a least-squares slope needs")
+            } else {
+                String::new()
+            };
+            findings.push(Finding::info(
+                "too-few-points",
+                format!(
+                    "{name}: {} sampling year(s) with a value, fewer than the {MIN_POINTS_MANN_KENDALL} the \
+                     Mann–Kendall test needs{ols}; those columns are null, not a test result",
+                    t.points
+                ),
+                location,
+            ));
+        } else if t.points == MIN_POINTS_MANN_KENDALL {
+            findings.push(Finding::info(
+                "low-power",
+                format!(
+                    "{name}: with 4 sampling years the smallest two-sided Mann–Kendall p is {}, so no trend can \
+                     reach p < 0.05; more sampling years are needed to detect one",
+                    format_number((2000.0_f64 / 24.0).round() / 1000.0)
+                ),
+                location,
+            ));
+        }
+    }
+    findings
+}
+
+fn interpretation_findings(metrics: &[Metric]) -> Vec<Finding> {
+    let mut findings = Vec::new();
+    if metrics.iter().any(|m| matches!(m, Metric::Ne { .. })) {
+        findings.push(Finding::info(
+            "ne-trend-scale",
+            "Ne trends are tested on 1/Ne (proportional to the rate of inbreeding), so an infinite estimate counts \
+             as 1/Ne = 0; the slopes of ne metrics are in 1/Ne per year (positive = Ne falling) and `direction` \
+             speaks of Ne itself",
+            Where::default(),
+        ));
+    }
+    findings.push(Finding::info(
+        "trend-caution",
+        "Trend tests over few sampling years have little power: \"no trend\" is not evidence of stability, and \
+         each yearly value carries its own sampling uncertainty that these tests do not include. Treat trends \
+         as guidance for a qualified geneticist's review, within the local regulatory framework.",
+        Where::default(),
+    ));
+    findings
+}

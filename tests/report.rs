@@ -1,0 +1,262 @@
+//! The typeset assessment document: content, determinism, literal user text, custom and
+//! broken templates, re-typesetting an edited output folder.
+//!
+//! The PDF's text layer is read with `pdftotext` and its page count with `pdfinfo` (both from
+//! Debian's poppler-utils, an implementation independent of popgauge's typesetter).
+
+use std::path::Path;
+use std::process::Command;
+
+use crate::support::{Case, entries, repo_root};
+
+/// The text layer of a PDF, as `pdftotext -layout` extracts it.
+pub fn pdf_text(pdf: &Path) -> String {
+    let out = Command::new("pdftotext").arg("-layout").arg(pdf).arg("-").output().expect("pdftotext is installed (poppler-utils)");
+    assert!(out.status.success(), "pdftotext failed: {}", String::from_utf8_lossy(&out.stderr));
+    String::from_utf8(out.stdout).expect("pdftotext prints UTF-8")
+}
+
+/// `pdfinfo`'s fields of a PDF.
+fn pdf_info(pdf: &Path) -> std::collections::BTreeMap<String, String> {
+    let out = Command::new("pdfinfo").arg(pdf).output().expect("pdfinfo is installed (poppler-utils)");
+    assert!(out.status.success(), "pdfinfo failed: {}", String::from_utf8_lossy(&out.stderr));
+    String::from_utf8_lossy(&out.stdout)
+        .lines()
+        .filter_map(|l| l.split_once(':').map(|(k, v)| (k.trim().to_string(), v.trim().to_string())))
+        .collect()
+}
+
+/// Text with all white space removed, so that a value broken across a table cell's lines or
+/// spread by justification still matches.
+fn squeezed(text: &str) -> String {
+    text.chars().filter(|c| !c.is_whitespace()).collect()
+}
+
+fn results(out: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(out.join("results.json")).unwrap()).unwrap()
+}
+
+/// Rows of a table of the last step with this `uses`, as column → value maps.
+fn rows(results: &serde_json::Value, uses: &str, table: &str) -> Vec<serde_json::Map<String, serde_json::Value>> {
+    let Some(step) = results["steps"].as_array().unwrap().iter().rev().find(|s| s["uses"] == uses) else { return Vec::new() };
+    let t = &step["tables"][table];
+    let columns: Vec<String> = t["columns"].as_array().unwrap().iter().map(|c| c.as_str().unwrap().to_string()).collect();
+    t["rows"].as_array().unwrap().iter().map(|r| columns.iter().cloned().zip(r.as_array().unwrap().iter().cloned()).collect()).collect()
+}
+
+/// Three decimals with a true minus sign: the document's convention for Ho, He and F
+/// (common practice for printed diversity tables), written independently of popgauge's code.
+fn three_decimals(value: &serde_json::Value) -> String {
+    let text = format!("{:.3}", value.as_f64().unwrap());
+    if text.starts_with('-') && text != "-0.000" { text.replacen('-', "−", 1) } else { text.trim_start_matches('-').to_string() }
+}
+
+#[test]
+fn the_demo_document_is_complete_and_matches_the_results() {
+    let case = Case::demo();
+    let run = case.run(&["run", "case", "--out", "out"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let out = case.root().join("out");
+    for file in ["assessment.pdf", "assessment.typ", "assessment.json", "figures"] {
+        assert!(entries(&out).contains(&file.to_string()), "{file} missing from {:?}", entries(&out));
+    }
+    let pdf = out.join("assessment.pdf");
+    let info = pdf_info(&pdf);
+    let pages: usize = info["Pages"].parse().unwrap();
+    assert!((4..=40).contains(&pages), "{pages} pages");
+    assert!(info.get("Title").is_some_and(|t| t.starts_with("Genetic status of the Korrin valley newt")), "{info:?}");
+    let text = pdf_text(&pdf);
+    let flat = squeezed(&text);
+    for population in ["Brennmoor", "Lake Oster", "Sellick Ford", "Tarrow Glen"] {
+        assert!(text.contains(population), "{population} missing");
+    }
+    assert!(text.contains("30 November 2026"), "the recipe's date is the document's date");
+    assert!(text.contains("Cautions") && text.contains("qualified"), "the cautions are printed");
+
+    // The status table shows each population's latest He and F as in results.json.
+    let doc = results(&out);
+    let diversity = rows(&doc, "diversity", "by_group");
+    for population in ["Brennmoor", "Lake Oster", "Sellick Ford", "Tarrow Glen"] {
+        let latest = diversity.iter().filter(|r| r["population"] == population).max_by_key(|r| r["year"].as_i64()).unwrap();
+        for column in ["ho", "he", "f"] {
+            let value = three_decimals(&latest[column]);
+            assert!(flat.contains(&value), "{population} {column} = {value} not in the document");
+        }
+    }
+    // When the recipe has a status step, its Ne values are printed too.
+    for row in rows(&doc, "status", "populations") {
+        if let Some(ne) = row["ne"].as_f64() {
+            let shown = if ne >= 10.0 { format!("{ne:.0}") } else { format!("{ne:.1}") };
+            assert!(flat.contains(&shown), "status Ne {shown} not in the document");
+        }
+    }
+    // The PDF/A identification is in the XMP metadata (PDF/A-2b: part 2, conformance B).
+    let bytes = std::fs::read(&pdf).unwrap();
+    let raw = String::from_utf8_lossy(&bytes);
+    assert!(raw.contains("pdfaid:part>2<") || raw.contains("pdfaid:part=\"2\""), "no PDF/A-2 identification");
+    // Provenance lists the PDF with its hash under the role "report".
+    let prov: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
+    let report = prov["outputs"].as_array().unwrap().iter().find(|o| o["path"] == "assessment.pdf").expect("the PDF is an output");
+    assert_eq!(report["role"], "report");
+    assert!(prov["outputs"].as_array().unwrap().iter().any(|o| o["role"] == "figure"));
+}
+
+#[test]
+fn two_runs_give_identical_pdf_bytes() {
+    let case = Case::demo();
+    assert_eq!(case.run(&["run", "case", "--out", "a"]).code, 0);
+    assert_eq!(case.run(&["run", "case", "--out", "b"]).code, 0);
+    let read = |p: &str| std::fs::read(case.root().join(p)).unwrap();
+    assert!(read("a/assessment.pdf") == read("b/assessment.pdf"), "the PDFs differ");
+    assert_eq!(read("a/assessment.json"), read("b/assessment.json"));
+    let figures = entries(&case.root().join("a/figures"));
+    assert!(!figures.is_empty());
+    for figure in figures {
+        assert_eq!(read(&format!("a/figures/{figure}")), read(&format!("b/figures/{figure}")), "{figure}");
+    }
+}
+
+/// Typst markup characters in the title and a population name print as written.
+#[test]
+fn user_text_prints_literally() {
+    let case = Case::fixture("minimal");
+    let title = r"Status of #North $pop* [draft] \ <review>";
+    let recipe = case.read("case.toml");
+    let recipe = recipe.lines().map(|l| if l.starts_with("title = ") { format!("title = '{title}'") } else { l.to_string() }).collect::<Vec<_>>().join("\n");
+    case.write("case.toml", recipe);
+    let population = r"North #1 $x* [a] \ <b>";
+    case.write("genotypes.csv", case.read("genotypes.csv").replace(",North,", &format!(",\"{population}\",")));
+    case.write("populations.csv", case.read("populations.csv").replace("\nNorth,", &format!("\n\"{population}\",")));
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let text = pdf_text(&case.path().join("out/assessment.pdf"));
+    assert!(text.contains(title), "title not literal in:\n{}", &text[..text.len().min(600)]);
+    assert!(text.contains(population), "population name not literal");
+}
+
+const CUSTOM_TEMPLATE: &str = r#"#let data = json(sys.inputs.data)
+#set document(date: datetime(year: data.assessment.year, month: data.assessment.month, day: data.assessment.day))
+#set text(font: "Libertinus Serif")
+= Custom layout of the trust
+#data.assessment.title
+
+#for p in data.populations [ - #p.name ]
+"#;
+
+#[test]
+fn a_custom_template_in_the_case_is_used_and_hashed() {
+    let case = Case::fixture("minimal");
+    case.write("layout/assessment.typ", CUSTOM_TEMPLATE);
+    case.write("case.toml", format!("{}\n[report]\ntemplate = \"layout\"\n", case.read("case.toml")));
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let out = case.path().join("out");
+    let text = pdf_text(&out.join("assessment.pdf"));
+    assert!(text.contains("Custom layout of the trust"), "{text}");
+    assert!(text.contains("North"));
+    assert_eq!(std::fs::read_to_string(out.join("assessment.typ")).unwrap(), CUSTOM_TEMPLATE, "the template used is beside the PDF");
+    let prov: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
+    let template = prov["inputs"].as_array().unwrap().iter().find(|i| i["role"] == "template").expect("the template is an input");
+    assert_eq!(template["path"], "layout/assessment.typ");
+}
+
+#[test]
+fn a_broken_template_names_the_file_and_line() {
+    let case = Case::fixture("minimal");
+    case.write("layout/assessment.typ", "#let data = json(sys.inputs.data)\n= Title\n#data.assessment.titel\n");
+    case.write("case.toml", format!("{}\n[report]\ntemplate = \"layout\"\n", case.read("case.toml")));
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2, "{}", run.stderr);
+    assert!(run.stderr.starts_with("error: layout/assessment.typ:3:"), "{}", run.stderr);
+    assert!(run.stderr.contains("the document template does not compile") && run.stderr.contains("titel"), "{}", run.stderr);
+    assert!(run.stderr.contains("help: "), "{}", run.stderr);
+    assert!(!case.path().join("out").exists(), "nothing is written");
+}
+
+#[test]
+fn a_template_folder_must_exist_inside_the_case() {
+    let case = Case::fixture("minimal");
+    let base = case.read("case.toml");
+    case.write("case.toml", format!("{base}\n[report]\ntemplate = \"../elsewhere\"\n"));
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2);
+    assert!(run.stderr.contains("template folder \"../elsewhere\" leaves the case folder"), "{}", run.stderr);
+    case.write("case.toml", format!("{base}\n[report]\ntemplate = \"layout\"\n"));
+    case.write("layout/readme.txt", "no main file");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2);
+    assert!(run.stderr.contains("template folder \"layout\" has no assessment.typ"), "{}", run.stderr);
+}
+
+#[test]
+fn typeset_retypesets_an_edited_output_folder() {
+    let case = Case::fixture("minimal");
+    assert_eq!(case.run(&["run", "case"]).code, 0);
+    let out = case.path().join("out");
+    let typ = std::fs::read_to_string(out.join("assessment.typ")).unwrap();
+    assert!(typ.contains("= Executive summary"));
+    std::fs::write(out.join("assessment.typ"), typ.replace("= Executive summary", "= Summary for the board")).unwrap();
+    let run = case.run(&["typeset", "case/out"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let text = pdf_text(&out.join("assessment.pdf"));
+    assert!(text.contains("Summary for the board"));
+    assert!(!text.contains("Executive summary"));
+    std::fs::write(out.join("assessment.typ"), "#let x = (\n").unwrap();
+    let broken = case.run(&["typeset", "case/out"]);
+    assert_eq!(broken.code, 2);
+    assert!(broken.stderr.contains("case/out/assessment.typ:"), "{}", broken.stderr);
+}
+
+/// Every section renders from results that follow the contract, including steps that are
+/// being written now, from the fixture `tests/fixtures/report/full-results.json` (invented
+/// values, test data only).
+#[test]
+fn every_section_renders_from_contract_results() {
+    use popgauge::engine::StepRun;
+    use popgauge::report::{FileFacts, ReportSource, render, template::Template};
+    let fixture = repo_root().join("tests/fixtures/report/full-results.json");
+    let results: popgauge::results::ResultsDocument = serde_json::from_str(&std::fs::read_to_string(fixture).unwrap()).unwrap();
+    let runs: Vec<StepRun> = results
+        .steps
+        .iter()
+        .map(|s| StepRun {
+            id: s.id.clone(),
+            uses: s.uses.clone(),
+            version: s.version.clone(),
+            params: if s.uses == "status" { [("horizon_years".to_string(), serde_json::json!(100))].into_iter().collect() } else { Default::default() },
+            params_sha256: "0".repeat(64),
+            seed: popgauge_abi::Seed(7),
+            result_sha256: "f".repeat(64),
+            plugin: None,
+        })
+        .collect();
+    let file = FileFacts { role: "recipe".into(), path: "case.toml".into(), size: 1, sha256: "a".repeat(64) };
+    let source = ReportSource { results: &results, runs: &runs, recipe: file.clone(), inputs: vec![], fingerprint: "0123456789abcdef" };
+    let report = render(&source, &Template::standard()).unwrap();
+    let dir = std::env::var_os("POPGAUGE_REPORT_OUT").map(std::path::PathBuf::from).unwrap_or_else(|| tempfile::tempdir().unwrap().keep());
+    std::fs::create_dir_all(dir.join("figures")).unwrap();
+    for (name, bytes) in report.clone().into_files() {
+        std::fs::write(dir.join(name), bytes).unwrap();
+    }
+    let keys: Vec<&str> = report.figures.iter().map(|(k, _)| k.as_str()).collect();
+    assert_eq!(keys, vec!["he-years", "fst-heatmap", "ibd", "ne", "ne-years", "projection"]);
+    let text = pdf_text(&dir.join("assessment.pdf"));
+    for expected in [
+        "Executive summary",
+        "Hardy–Weinberg proportions",
+        "Isolation by distance",
+        "Linkage disequilibrium",
+        "Temporal method",
+        "Heterozygote excess",
+        "Trend tests",
+        "Projections",
+        "Additional analyses",
+        "relatedness",
+        "Provenance record",
+        "Wright S (1931)",
+        "qualified conservation geneticist",
+    ] {
+        assert!(text.contains(expected), "{expected} missing");
+    }
+    assert!(!text.contains("Not part of this assessment"), "every section has results");
+}
