@@ -1,6 +1,6 @@
 use std::collections::BTreeMap;
 
-use popgauge_abi::{AssessmentInfo, Seed, StepStatus};
+use popgauge_abi::{AssessmentInfo, Cell, Seed, StepStatus, Table};
 use serde_json::Value;
 
 use super::*;
