@@ -105,7 +105,7 @@ fn an_edited_result_number_is_detected() {
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
     assert!(line_for(&out.stdout, "output", "results.json step diversity").contains(&format!("DIFFERS: edited after the run: table by_group row 1 (North, 2020) column ho: recorded {ho}, results.json has 0.59")), "{}", out.stdout);
-    assert!(line_for(&out.stdout, "output", "results.json ").contains("the file was changed after the run"));
+    assert!(line_for(&out.stdout, "output", &format!("{:<36} ", "results.json")).contains("the file was changed after the run"), "{}", out.stdout);
     assert!(line_for(&out.stdout, "step", "diversity (diversity)").ends_with(" same"), "the recomputation itself agrees");
 }
 
