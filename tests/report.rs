@@ -11,7 +11,12 @@ use crate::support::{Case, entries, repo_root};
 
 /// The text layer of a PDF, as `pdftotext -layout` extracts it.
 pub fn pdf_text(pdf: &Path) -> String {
-    let out = Command::new("pdftotext").arg("-layout").arg(pdf).arg("-").output().expect("pdftotext is installed (poppler-utils)");
+    let out = Command::new("pdftotext")
+        .arg("-layout")
+        .arg(pdf)
+        .arg("-")
+        .output()
+        .expect("pdftotext is installed (poppler-utils)");
     assert!(out.status.success(), "pdftotext failed: {}", String::from_utf8_lossy(&out.stderr));
     String::from_utf8(out.stdout).expect("pdftotext prints UTF-8")
 }
@@ -38,17 +43,29 @@ fn results(out: &Path) -> serde_json::Value {
 
 /// Rows of a table of the last step with this `uses`, as column → value maps.
 fn rows(results: &serde_json::Value, uses: &str, table: &str) -> Vec<serde_json::Map<String, serde_json::Value>> {
-    let Some(step) = results["steps"].as_array().unwrap().iter().rev().find(|s| s["uses"] == uses) else { return Vec::new() };
+    let Some(step) = results["steps"].as_array().unwrap().iter().rev().find(|s| s["uses"] == uses) else {
+        return Vec::new();
+    };
     let t = &step["tables"][table];
-    let columns: Vec<String> = t["columns"].as_array().unwrap().iter().map(|c| c.as_str().unwrap().to_string()).collect();
-    t["rows"].as_array().unwrap().iter().map(|r| columns.iter().cloned().zip(r.as_array().unwrap().iter().cloned()).collect()).collect()
+    let columns: Vec<String> =
+        t["columns"].as_array().unwrap().iter().map(|c| c.as_str().unwrap().to_string()).collect();
+    t["rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| columns.iter().cloned().zip(r.as_array().unwrap().iter().cloned()).collect())
+        .collect()
 }
 
 /// Three decimals with a true minus sign: the document's convention for Ho, He and F
 /// (common practice for printed diversity tables), written independently of popgauge's code.
 fn three_decimals(value: &serde_json::Value) -> String {
     let text = format!("{:.3}", value.as_f64().unwrap());
-    if text.starts_with('-') && text != "-0.000" { text.replacen('-', "−", 1) } else { text.trim_start_matches('-').to_string() }
+    if text.starts_with('-') && text != "-0.000" {
+        text.replacen('-', "−", 1)
+    } else {
+        text.trim_start_matches('-').to_string()
+    }
 }
 
 #[test]
@@ -77,7 +94,8 @@ fn the_demo_document_is_complete_and_matches_the_results() {
     let doc = results(&out);
     let diversity = rows(&doc, "diversity", "by_group");
     for population in ["Brennmoor", "Lake Oster", "Sellick Ford", "Tarrow Glen"] {
-        let latest = diversity.iter().filter(|r| r["population"] == population).max_by_key(|r| r["year"].as_i64()).unwrap();
+        let latest =
+            diversity.iter().filter(|r| r["population"] == population).max_by_key(|r| r["year"].as_i64()).unwrap();
         for column in ["ho", "he", "f"] {
             let value = three_decimals(&latest[column]);
             assert!(flat.contains(&value), "{population} {column} = {value} not in the document");
@@ -95,8 +113,14 @@ fn the_demo_document_is_complete_and_matches_the_results() {
     let raw = String::from_utf8_lossy(&bytes);
     assert!(raw.contains("pdfaid:part>2<") || raw.contains("pdfaid:part=\"2\""), "no PDF/A-2 identification");
     // Provenance lists the PDF with its hash under the role "report".
-    let prov: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
-    let report = prov["outputs"].as_array().unwrap().iter().find(|o| o["path"] == "assessment.pdf").expect("the PDF is an output");
+    let prov: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
+    let report = prov["outputs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|o| o["path"] == "assessment.pdf")
+        .expect("the PDF is an output");
     assert_eq!(report["role"], "report");
     assert!(prov["outputs"].as_array().unwrap().iter().any(|o| o["role"] == "figure"));
 }
@@ -122,7 +146,11 @@ fn user_text_prints_literally() {
     let case = Case::fixture("minimal");
     let title = r"Status of #North $pop* [draft] \ <review>";
     let recipe = case.read("case.toml");
-    let recipe = recipe.lines().map(|l| if l.starts_with("title = ") { format!("title = '{title}'") } else { l.to_string() }).collect::<Vec<_>>().join("\n");
+    let recipe = recipe
+        .lines()
+        .map(|l| if l.starts_with("title = ") { format!("title = '{title}'") } else { l.to_string() })
+        .collect::<Vec<_>>()
+        .join("\n");
     case.write("case.toml", recipe);
     let population = r"North #1 $x* [a] \ <b>";
     case.write("genotypes.csv", case.read("genotypes.csv").replace(",North,", &format!(",\"{population}\",")));
@@ -154,9 +182,15 @@ fn a_custom_template_in_the_case_is_used_and_hashed() {
     let text = pdf_text(&out.join("assessment.pdf"));
     assert!(text.contains("Custom layout of the trust"), "{text}");
     assert!(text.contains("North"));
-    assert_eq!(std::fs::read_to_string(out.join("assessment.typ")).unwrap(), CUSTOM_TEMPLATE, "the template used is beside the PDF");
-    let prov: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
-    let template = prov["inputs"].as_array().unwrap().iter().find(|i| i["role"] == "template").expect("the template is an input");
+    assert_eq!(
+        std::fs::read_to_string(out.join("assessment.typ")).unwrap(),
+        CUSTOM_TEMPLATE,
+        "the template used is beside the PDF"
+    );
+    let prov: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("provenance.json")).unwrap()).unwrap();
+    let template =
+        prov["inputs"].as_array().unwrap().iter().find(|i| i["role"] == "template").expect("the template is an input");
     assert_eq!(template["path"], "layout/assessment.typ");
 }
 
@@ -168,7 +202,11 @@ fn a_broken_template_names_the_file_and_line() {
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2, "{}", run.stderr);
     assert!(run.stderr.starts_with("error: layout/assessment.typ:3:"), "{}", run.stderr);
-    assert!(run.stderr.contains("the document template does not compile") && run.stderr.contains("titel"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("the document template does not compile") && run.stderr.contains("titel"),
+        "{}",
+        run.stderr
+    );
     assert!(run.stderr.contains("help: "), "{}", run.stderr);
     assert!(!case.path().join("out").exists(), "nothing is written");
 }
@@ -214,8 +252,15 @@ fn typeset_retypesets_an_edited_output_folder() {
 fn every_section_renders_from_contract_results() {
     use popgauge::engine::StepRun;
     use popgauge::report::{FileFacts, ReportSource, render, template::Template};
-    let fixture = repo_root().join("tests/fixtures/report/full-results.json");
-    let results: popgauge::results::ResultsDocument = serde_json::from_str(&std::fs::read_to_string(fixture).unwrap()).unwrap();
+    // POPGAUGE_REPORT_RESULTS=some/results.json renders another results document the same way
+    // (for looking at pages); the assertions below hold for the fixture.
+    let override_path = std::env::var_os("POPGAUGE_REPORT_RESULTS");
+    let fixture = override_path
+        .clone()
+        .map(std::path::PathBuf::from)
+        .unwrap_or_else(|| repo_root().join("tests/fixtures/report/full-results.json"));
+    let results: popgauge::results::ResultsDocument =
+        serde_json::from_str(&std::fs::read_to_string(fixture).unwrap()).unwrap();
     let runs: Vec<StepRun> = results
         .steps
         .iter()
@@ -223,7 +268,11 @@ fn every_section_renders_from_contract_results() {
             id: s.id.clone(),
             uses: s.uses.clone(),
             version: s.version.clone(),
-            params: if s.uses == "status" { [("horizon_years".to_string(), serde_json::json!(100))].into_iter().collect() } else { Default::default() },
+            params: if s.uses == "status" {
+                [("horizon_years".to_string(), serde_json::json!(100))].into_iter().collect()
+            } else {
+                Default::default()
+            },
             params_sha256: "0".repeat(64),
             seed: popgauge_abi::Seed(7),
             result_sha256: "f".repeat(64),
@@ -231,12 +280,23 @@ fn every_section_renders_from_contract_results() {
         })
         .collect();
     let file = FileFacts { role: "recipe".into(), path: "case.toml".into(), size: 1, sha256: "a".repeat(64) };
-    let source = ReportSource { results: &results, runs: &runs, recipe: file.clone(), inputs: vec![], fingerprint: "0123456789abcdef" };
+    let source = ReportSource {
+        results: &results,
+        runs: &runs,
+        recipe: file.clone(),
+        inputs: vec![],
+        fingerprint: "0123456789abcdef",
+    };
     let report = render(&source, &Template::standard()).unwrap();
-    let dir = std::env::var_os("POPGAUGE_REPORT_OUT").map(std::path::PathBuf::from).unwrap_or_else(|| tempfile::tempdir().unwrap().keep());
+    let dir = std::env::var_os("POPGAUGE_REPORT_OUT")
+        .map(std::path::PathBuf::from)
+        .unwrap_or_else(|| tempfile::tempdir().unwrap().keep());
     std::fs::create_dir_all(dir.join("figures")).unwrap();
     for (name, bytes) in report.clone().into_files() {
         std::fs::write(dir.join(name), bytes).unwrap();
+    }
+    if override_path.is_some() {
+        return;
     }
     let keys: Vec<&str> = report.figures.iter().map(|(k, _)| k.as_str()).collect();
     assert_eq!(keys, vec!["he-years", "fst-heatmap", "ibd", "ne", "ne-years", "projection"]);

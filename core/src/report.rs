@@ -50,13 +50,17 @@ pub enum ReportError {
         source: std::io::Error,
     },
     /// The template folder has no main file.
-    #[error("{folder}: the template folder has no assessment.typ\n  help: a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)")]
+    #[error(
+        "{folder}: the template folder has no assessment.typ\n  help: a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)"
+    )]
     TemplateNoMain {
         /// The folder.
         folder: String,
     },
     /// The template folder is too large.
-    #[error("{folder}: the template folder holds more than {max_files} files or {max_megabytes} MB\n  help: keep only the template's own files (Typst sources, images) in the folder")]
+    #[error(
+        "{folder}: the template folder holds more than {max_files} files or {max_megabytes} MB\n  help: keep only the template's own files (Typst sources, images) in the folder"
+    )]
     TemplateTooLarge {
         /// The folder.
         folder: String,
@@ -66,7 +70,9 @@ pub enum ReportError {
         max_megabytes: u64,
     },
     /// A template file is named like an output.
-    #[error("{file}: a template file may not be named like an output of the run\n  help: rename it; assessment.pdf, assessment.json, results.json, provenance.json, tables/ and figures/ are written by popgauge")]
+    #[error(
+        "{file}: a template file may not be named like an output of the run\n  help: rename it; assessment.pdf, assessment.json, results.json, provenance.json, tables/ and figures/ are written by popgauge"
+    )]
     TemplateClash {
         /// The file.
         file: String,
@@ -106,7 +112,9 @@ pub enum ReportError {
     #[error("{0}\n  help: this is a defect in popgauge; please report it with the results.json of the run")]
     Figure(#[from] figures::FigureError),
     /// The document data of an output folder cannot be read.
-    #[error("{path}: cannot read the document data: {message}\n  help: `popgauge typeset DIR` needs the assessment.json that `popgauge run` wrote into DIR; if you edited it, check the JSON at that position")]
+    #[error(
+        "{path}: cannot read the document data: {message}\n  help: `popgauge typeset DIR` needs the assessment.json that `popgauge run` wrote into DIR; if you edited it, check the JSON at that position"
+    )]
     DataUnreadable {
         /// The file.
         path: String,
@@ -200,7 +208,8 @@ pub fn render(source: &ReportSource<'_>, template: &Template) -> Result<Report, 
         .iter()
         .map(|(key, figure, _)| Ok((key.clone(), figures::render(key, figure)?.into_bytes())))
         .collect::<Result<Vec<_>, ReportError>>()?;
-    let mut data = serde_json::to_vec_pretty(&built.data).map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
+    let mut data = serde_json::to_vec_pretty(&built.data)
+        .map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
     data.push(b'\n');
     let assessment = &built.data.assessment;
     let pdf = typst::typeset(&typst::TypesetJob {
@@ -229,11 +238,19 @@ pub fn typeset_folder(dir: &Path) -> Result<Vec<u8>, ReportError> {
     let number = |key: &str| value["assessment"][key].as_i64();
     let date = match (number("year"), number("month"), number("day")) {
         (Some(y), Some(m), Some(d)) => (y as i32, m as u32, d as u32),
-        _ => return Err(unreadable("`assessment` lacks the numeric year, month and day of the assessment date".into())),
+        _ => {
+            return Err(unreadable("`assessment` lacks the numeric year, month and day of the assessment date".into()));
+        }
     };
     let fingerprint = value["fingerprint"].as_str().unwrap_or_default().to_string();
     let figures = read_figures(&dir.join(FIGURES_FOLDER))?;
-    typst::typeset(&typst::TypesetJob { template: &template, data: &data, figures: &figures, date, ident: &fingerprint })
+    typst::typeset(&typst::TypesetJob {
+        template: &template,
+        data: &data,
+        figures: &figures,
+        date,
+        ident: &fingerprint,
+    })
 }
 
 fn read_figures(folder: &Path) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
@@ -246,7 +263,8 @@ fn read_figures(folder: &Path) -> Result<Vec<(String, Vec<u8>)>, ReportError> {
         let path = entry.map_err(unreadable)?.path();
         if path.extension().is_some_and(|e| e == "svg") {
             let key = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
-            let bytes = std::fs::read(&path).map_err(|source| ReportError::TemplateUnreadable { path: path.display().to_string(), source })?;
+            let bytes = std::fs::read(&path)
+                .map_err(|source| ReportError::TemplateUnreadable { path: path.display().to_string(), source })?;
             figures.push((key, bytes));
         }
     }

@@ -47,6 +47,7 @@ uses = "diversity"
 
 [report]
 thresholds = [50, 500]                   # Ne thresholds; [100, 1000] is the other common choice
+# template = "standard"                  # or a folder in this case holding assessment.typ (copy templates/standard/)
 "#;
 
 const GENOTYPES_TEMPLATE: &str = "sample,population,year,Locus01,Locus02\n";

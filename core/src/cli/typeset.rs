@@ -42,7 +42,9 @@ fn write_atomically(target: &std::path::Path, bytes: &[u8]) -> anyhow::Result<()
     let temp = target.with_file_name(format!(".{name}.popgauge-tmp-{}", std::process::id()));
     let help = "\n  help: check free space and permissions of the folder";
     std::fs::write(&temp, bytes).with_context(|| format!("{}: cannot write{help}", temp.display()))?;
-    std::fs::rename(&temp, target).inspect_err(|_| {
-        let _ = std::fs::remove_file(&temp);
-    }).with_context(|| format!("{}: cannot write{help}", target.display()))
+    std::fs::rename(&temp, target)
+        .inspect_err(|_| {
+            let _ = std::fs::remove_file(&temp);
+        })
+        .with_context(|| format!("{}: cannot write{help}", target.display()))
 }

@@ -29,7 +29,8 @@ pub mod uses {
     /// Thresholds and projections.
     pub const STATUS: &str = "status";
     /// Every name above: a step with another `uses` is an additional analysis.
-    pub const KNOWN: [&str; 9] = [VALIDATE, DIVERSITY, HWE, DIFFERENTIATION, NE_LD, NE_TEMPORAL, NE_HETX, TREND, STATUS];
+    pub const KNOWN: [&str; 9] =
+        [VALIDATE, DIVERSITY, HWE, DIFFERENTIATION, NE_LD, NE_TEMPORAL, NE_HETX, TREND, STATUS];
 }
 
 /// Contract column names.

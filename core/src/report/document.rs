@@ -27,8 +27,11 @@ pub use table::{HeatCell, HeatTable, TableData};
 /// Schema name of `assessment.json`.
 pub const REPORT_DATA_SCHEMA: &str = "popgauge.report-data/1";
 
-/// Rows a table keeps in the body of the document; longer tables continue in the appendix.
+/// Rows a table keeps in the body of the document when it is longer than [`BODY_LIMIT`]; the
+/// rest continues in the appendix.
 pub const BODY_ROWS: usize = 40;
+/// A table up to this long stays whole in the body (about a page and a half).
+pub const BODY_LIMIT: usize = 60;
 
 /// The threshold references the document cites beside the steps' own (METHODS §9).
 const FRANKLIN_1980: &str = "Franklin IR (1980) Evolutionary change in small populations. In Soulé ME, Wilcox BA (eds) Conservation Biology: An Evolutionary-Ecological Perspective. Sinauer, Sunderland, 135–149.";
@@ -155,8 +158,24 @@ pub struct AppendixTable {
     pub key: String,
     /// Title.
     pub title: String,
+    /// How to set it: `normal`, `two-columns` (many short rows) or `landscape` (many columns).
+    pub layout: String,
     /// The table.
     pub table: TableData,
+}
+
+/// How an appendix table is best set: on its side when it has many columns, in two columns
+/// when its rows are many and short.
+fn appendix_layout(table: &TableData) -> &'static str {
+    let widest_row =
+        table.rows.iter().map(|r| r.iter().map(|c| c.chars().count() + 2).sum::<usize>()).max().unwrap_or(0);
+    if table.columns.len() > 14 {
+        "landscape"
+    } else if table.rows.len() > 30 && widest_row <= 64 {
+        "two-columns"
+    } else {
+        "normal"
+    }
 }
 
 /// The steps as they ran.
@@ -210,13 +229,18 @@ impl Extras {
     /// Adds an appendix table and returns its key (`A1`, …), for the body to refer to.
     pub(crate) fn appendix(&mut self, title: String, table: TableData) -> String {
         let key = format!("A{}", self.appendix.len() + 1);
-        self.appendix.push(AppendixTable { key: key.clone(), title, table });
+        let layout = appendix_layout(&table).to_string();
+        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table });
         key
     }
 
-    /// Keeps the first [`BODY_ROWS`] rows of `table` in the body and moves the rest to the
-    /// appendix under `title`; returns the appendix key when rows moved.
+    /// Keeps a table of up to [`BODY_LIMIT`] rows whole; of a longer one keeps the first
+    /// [`BODY_ROWS`] rows in the body and moves the rest to the appendix under `title`. Returns
+    /// the appendix key when rows moved.
     pub(crate) fn overflow(&mut self, table: &mut TableData, title: String) -> Option<String> {
+        if table.rows.len() <= BODY_LIMIT {
+            return None;
+        }
         table.split_off(BODY_ROWS).map(|rest| self.appendix(title, rest))
     }
 }
@@ -235,7 +259,13 @@ pub fn build(source: &ReportSource<'_>) -> Built {
     let populations = population_facts(source);
     let names: Vec<String> = populations.iter().map(|p| p.name.clone()).collect();
     let mut extras = Extras::default();
-    let context = sections::Context { results, populations: &names, runs: source.runs, thresholds: &source.results.assessment.thresholds, generation_time: source.results.assessment.generation_time_years };
+    let context = sections::Context {
+        results,
+        populations: &names,
+        runs: source.runs,
+        thresholds: &source.results.assessment.thresholds,
+        generation_time: source.results.assessment.generation_time_years,
+    };
     let summary = summary::summary(&context);
     let data_section = sections::data_section(&context, &mut extras);
     let diversity = sections::diversity_section(&context, &mut extras);
@@ -289,7 +319,9 @@ fn assessment_facts(source: &ReportSource<'_>) -> AssessmentFacts {
         year: part(0).map_or(1970, |y| y as i32),
         month: part(1).unwrap_or(1),
         day: part(2).unwrap_or(1),
-        generation_time: a.generation_time_years.map(|g| format::significant(g, 3).trim_end_matches('0').trim_end_matches('.').to_string()),
+        generation_time: a
+            .generation_time_years
+            .map(|g| format::significant(g, 3).trim_end_matches('0').trim_end_matches('.').to_string()),
         seed: a.seed.to_string(),
     }
 }
@@ -338,12 +370,15 @@ fn methods(source: &ReportSource<'_>, thresholds_shown: bool) -> Methods {
                     .unwrap_or_default(),
                 status: match (&step.status, &step.error) {
                     (popgauge_abi::StepStatus::Ok, _) => "ok".into(),
-                    (popgauge_abi::StepStatus::Failed, error) => format!("failed: {}", error.clone().unwrap_or_default()),
+                    (popgauge_abi::StepStatus::Failed, error) => {
+                        format!("failed: {}", error.clone().unwrap_or_default())
+                    }
                 },
             }
         })
         .collect();
-    let mut references: BTreeSet<String> = source.results.steps.iter().flat_map(|s| s.citations.iter().cloned()).collect();
+    let mut references: BTreeSet<String> =
+        source.results.steps.iter().flat_map(|s| s.citations.iter().cloned()).collect();
     if thresholds_shown {
         let values = &source.results.assessment.thresholds;
         if values.contains(&50.0) || values.contains(&500.0) {
@@ -373,7 +408,11 @@ fn dedupe_references(references: BTreeSet<String>) -> Vec<String> {
         .flat_map(|group| {
             let longest = group.iter().map(|r| r.len()).max().unwrap_or(0);
             let titles: BTreeSet<String> = group.iter().map(|r| title_word(r)).collect();
-            if titles.len() == 1 { group.into_iter().filter(|r| r.len() == longest).take(1).collect::<Vec<_>>() } else { group }
+            if titles.len() == 1 {
+                group.into_iter().filter(|r| r.len() == longest).take(1).collect::<Vec<_>>()
+            } else {
+                group
+            }
         })
         .collect()
 }
@@ -398,7 +437,8 @@ fn provenance_facts(source: &ReportSource<'_>) -> ProvenanceFacts {
     for input in &source.inputs {
         files.push(file_row(input));
     }
-    let mut steps = TableData::new(&[("Step", false), ("Seed", true), ("Parameters SHA-256", false), ("Result SHA-256", false)]);
+    let mut steps =
+        TableData::new(&[("Step", false), ("Seed", true), ("Parameters SHA-256", false), ("Result SHA-256", false)]);
     for run in source.runs {
         steps.push(vec![run.id.clone(), run.seed.0.to_string(), run.params_sha256.clone(), run.result_sha256.clone()]);
     }

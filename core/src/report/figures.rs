@@ -9,8 +9,8 @@
 
 use plotters::coord::Shift;
 use plotters::coord::ranged1d::ValueFormatter;
-use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 /// Width and height of every chart in SVG pixels (shown 16 cm wide in the document).
 const SIZE: (u32, u32) = (720, 400);
@@ -124,7 +124,9 @@ pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
                 draw_lines(&root, series, x_label, y_label, *log_y, *y_from_zero)
             }
             Figure::HeatMap { labels, values, value_label } => draw_heat_map(&root, labels, values, value_label),
-            Figure::Scatter { points, fit, log_x, x_label, y_label } => draw_scatter(&root, points, *fit, *log_x, x_label, y_label),
+            Figure::Scatter { points, fit, log_x, x_label, y_label } => {
+                draw_scatter(&root, points, *fit, *log_x, x_label, y_label)
+            }
         });
         drawn
             .and_then(|()| root.present().map_err(|e| e.to_string()))
@@ -152,11 +154,21 @@ macro_rules! draw_markers {
         let fill = colour(style).filled();
         let points: Vec<_> = $points.into_iter().collect();
         match marker_shape(style) {
-            0 => $chart.draw_series(points.into_iter().map(|p| EmptyElement::at(p) + Circle::new((0, 0), 6, fill))).map(|_| ()),
-            1 => $chart.draw_series(points.into_iter().map(|p| EmptyElement::at(p) + TriangleMarker::new((0, 0), 7, fill))).map(|_| ()),
-            2 => $chart.draw_series(points.into_iter().map(|p| EmptyElement::at(p) + Rectangle::new([(-5, -5), (5, 5)], fill))).map(|_| ()),
+            0 => $chart
+                .draw_series(points.into_iter().map(|p| EmptyElement::at(p) + Circle::new((0, 0), 6, fill)))
+                .map(|_| ()),
+            1 => $chart
+                .draw_series(points.into_iter().map(|p| EmptyElement::at(p) + TriangleMarker::new((0, 0), 7, fill)))
+                .map(|_| ()),
+            2 => $chart
+                .draw_series(points.into_iter().map(|p| EmptyElement::at(p) + Rectangle::new([(-5, -5), (5, 5)], fill)))
+                .map(|_| ()),
             _ => $chart
-                .draw_series(points.into_iter().map(|p| EmptyElement::at(p) + Cross::new((0, 0), 6, colour(style).stroke_width(3))))
+                .draw_series(
+                    points
+                        .into_iter()
+                        .map(|p| EmptyElement::at(p) + Cross::new((0, 0), 6, colour(style).stroke_width(3))),
+                )
                 .map(|_| ()),
         }
         .map_err(|e| e.to_string())
@@ -182,7 +194,13 @@ fn plain_number(value: f64) -> String {
 
 /// A label centred under an x position of the plotting area, drawn on the whole figure (the
 /// plotting area itself clips text).
-fn label_below<'a, Y>(root: &Area<'a>, chart: &NumericChart<'_, 'a, Y>, x: f64, y: f64, text: &str) -> Result<(), String>
+fn label_below<'a, Y>(
+    root: &Area<'a>,
+    chart: &NumericChart<'_, 'a, Y>,
+    x: f64,
+    y: f64,
+    text: &str,
+) -> Result<(), String>
 where
     Y: Ranged<ValueType = f64>,
 {
@@ -229,13 +247,15 @@ fn draw_intervals(root: &Area<'_>, points: &[IntervalPoint], thresholds: &[f64],
         label_below(root, &chart, index as f64, low, &point.label)?;
     }
     for (index, threshold) in thresholds.iter().enumerate() {
-        let style = ShapeStyle { color: RGBColor(110, 110, 110).to_rgba(), filled: false, stroke_width: 1 + index as u32 };
+        let style =
+            ShapeStyle { color: RGBColor(110, 110, 110).to_rgba(), filled: false, stroke_width: 1 + index as u32 };
         chart
             .draw_series(DashedLineSeries::new([(-0.5, *threshold), (count - 0.5, *threshold)], 8, 5, style))
             .map_err(|e| e.to_string())?;
         let (px, py) = chart.backend_coord(&(count - 0.5, *threshold));
         let text = font(14.0).color(&RGBColor(80, 80, 80)).pos(Pos::new(HPos::Right, VPos::Bottom));
-        root.draw(&Text::new(format!("Ne = {}", plain_number(*threshold)), (px - 4, py - 3), text)).map_err(|e| e.to_string())?;
+        root.draw(&Text::new(format!("Ne = {}", plain_number(*threshold)), (px - 4, py - 3), text))
+            .map_err(|e| e.to_string())?;
     }
     let clamp = |v: f64| v.clamp(low, high);
     for (index, point) in points.iter().enumerate() {
@@ -243,14 +263,22 @@ fn draw_intervals(root: &Area<'_>, points: &[IntervalPoint], thresholds: &[f64],
         let stroke = colour(point.style).stroke_width(2);
         if let (Some(lo), Some(hi)) = (point.low, point.high) {
             chart
-                .draw_series(std::iter::once(ErrorBar::new_vertical(x, clamp(lo), clamp(point.value), clamp(hi), stroke, 14)))
+                .draw_series(std::iter::once(ErrorBar::new_vertical(
+                    x,
+                    clamp(lo),
+                    clamp(point.value),
+                    clamp(hi),
+                    stroke,
+                    14,
+                )))
                 .map_err(|e| e.to_string())?;
         }
         if point.value.is_finite() {
             draw_markers!(chart, [(x, clamp(point.value))], point.style)?;
         } else {
             let (px, py) = chart.backend_coord(&(x, high));
-            root.draw(&Text::new("∞", (px, py + 4), font(22.0).pos(Pos::new(HPos::Center, VPos::Top)))).map_err(|e| e.to_string())?;
+            root.draw(&Text::new("∞", (px, py + 4), font(22.0).pos(Pos::new(HPos::Center, VPos::Top))))
+                .map_err(|e| e.to_string())?;
         }
     }
     Ok(())
@@ -327,7 +355,8 @@ fn draw_legend(area: &Area<'_>, series: &[Series]) -> Result<(), String> {
             _ => area.draw(&(EmptyElement::at(at) + Cross::new((0, 0), 5, style.stroke_width(2)))),
         }
         .map_err(|e| e.to_string())?;
-        area.draw(&Text::new(s.name.clone(), (44, y), font(15.0).pos(Pos::new(HPos::Left, VPos::Center)))).map_err(|e| e.to_string())?;
+        area.draw(&Text::new(s.name.clone(), (44, y), font(15.0).pos(Pos::new(HPos::Left, VPos::Center))))
+            .map_err(|e| e.to_string())?;
     }
     Ok(())
 }
@@ -375,7 +404,11 @@ where
         .map_err(|e| e.to_string())
 }
 
-fn draw_series_set<'a, 'b: 'a, Y>(chart: &mut NumericChart<'a, 'b, Y>, series: &[Series], clamp: impl Fn(f64) -> f64) -> Result<(), String>
+fn draw_series_set<'a, 'b: 'a, Y>(
+    chart: &mut NumericChart<'a, 'b, Y>,
+    series: &[Series],
+    clamp: impl Fn(f64) -> f64,
+) -> Result<(), String>
 where
     Y: Ranged<ValueType = f64>,
 {
@@ -383,7 +416,9 @@ where
         let finite: Vec<(f64, f64)> = s.points.iter().copied().filter(|p| p.1.is_finite()).collect();
         let style = colour(s.style);
         let width = if s.slope.is_some() { 1 } else { 2 };
-        chart.draw_series(LineSeries::new(finite.iter().map(|&(x, y)| (x, clamp(y))), style.stroke_width(width))).map_err(|e| e.to_string())?;
+        chart
+            .draw_series(LineSeries::new(finite.iter().map(|&(x, y)| (x, clamp(y))), style.stroke_width(width)))
+            .map_err(|e| e.to_string())?;
         // Dense curves (projections) are clearer without a marker at every point.
         if finite.len() <= 12 {
             draw_markers!(chart, finite.iter().map(|&(x, y)| (x, clamp(y))), s.style)?;
@@ -412,7 +447,12 @@ fn mean_point(points: &[(f64, f64)]) -> Option<(f64, f64)> {
 
 /// The lower triangle without its empty first row and last column: rows are populations 2…n,
 /// columns populations 1…n−1.
-fn draw_heat_map(root: &Area<'_>, labels: &[String], values: &[Vec<Option<f64>>], value_label: &str) -> Result<(), String> {
+fn draw_heat_map(
+    root: &Area<'_>,
+    labels: &[String],
+    values: &[Vec<Option<f64>>],
+    value_label: &str,
+) -> Result<(), String> {
     let size = labels.len().saturating_sub(1).max(1) as f64;
     let max = values.iter().flatten().flatten().copied().filter(|v| v.is_finite()).fold(0.0_f64, f64::max);
     let (plot, key) = root.split_horizontally(SIZE.0 - 150);
@@ -449,7 +489,11 @@ fn draw_heat_map(root: &Area<'_>, labels: &[String], values: &[Vec<Option<f64>>]
                 .map_err(|e| e.to_string())?;
             let text_colour = if shade > 0.55 { WHITE } else { BLACK };
             chart
-                .draw_series(std::iter::once(Text::new(format!("{value:.3}"), (x + 0.5, y + 0.5), centred.clone().color(&text_colour))))
+                .draw_series(std::iter::once(Text::new(
+                    format!("{value:.3}"),
+                    (x + 0.5, y + 0.5),
+                    centred.clone().color(&text_colour),
+                )))
                 .map_err(|e| e.to_string())?;
         }
     }
@@ -470,7 +514,8 @@ fn draw_heat_key(area: &Area<'_>, max: f64, value_label: &str) -> Result<(), Str
         let shade = 1.0 - k as f64 / (steps - 1) as f64;
         let y0 = top + height * k / steps;
         let y1 = top + height * (k + 1) / steps;
-        area.draw(&Rectangle::new([(left, y0), (left + 22, y1)], heat_colour(shade).filled())).map_err(|e| e.to_string())?;
+        area.draw(&Rectangle::new([(left, y0), (left + 22, y1)], heat_colour(shade).filled()))
+            .map_err(|e| e.to_string())?;
     }
     area.draw(&Rectangle::new([(left, top), (left + 22, bottom)], BLACK.stroke_width(1))).map_err(|e| e.to_string())?;
     let beside = |y: i32| (left + 30, y);
@@ -480,7 +525,14 @@ fn draw_heat_key(area: &Area<'_>, max: f64, value_label: &str) -> Result<(), Str
     area.draw(&Text::new(value_label.to_string(), (left, bottom + 16), font(15.0))).map_err(|e| e.to_string())
 }
 
-fn draw_scatter(root: &Area<'_>, points: &[(f64, f64)], fit: Option<(f64, f64)>, log_x: bool, x_label: &str, y_label: &str) -> Result<(), String> {
+fn draw_scatter(
+    root: &Area<'_>,
+    points: &[(f64, f64)],
+    fit: Option<(f64, f64)>,
+    log_x: bool,
+    x_label: &str,
+    y_label: &str,
+) -> Result<(), String> {
     // A logarithmic x axis is drawn as ln x on a linear axis whose labels show x itself, so
     // that short ranges (less than a decade) still get several labels.
     let to_axis = |x: f64| if log_x { x.ln() } else { x };
@@ -516,7 +568,9 @@ fn draw_scatter(root: &Area<'_>, points: &[(f64, f64)], fit: Option<(f64, f64)>,
         let last = placed.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
         // The fit is in the axis's own units (ln x when logarithmic), so it is a straight line.
         let at = |v: f64| (v, intercept + slope * v);
-        chart.draw_series(LineSeries::new([at(first), at(last)], colour(1).stroke_width(2))).map_err(|e| e.to_string())?;
+        chart
+            .draw_series(LineSeries::new([at(first), at(last)], colour(1).stroke_width(2)))
+            .map_err(|e| e.to_string())?;
     }
     Ok(())
 }
@@ -528,8 +582,18 @@ mod tests {
     fn lines() -> Figure {
         Figure::Lines {
             series: vec![
-                Series { name: "North".into(), style: 0, points: vec![(2018.0, 0.61), (2021.0, 0.60), (2024.0, 0.57)], slope: Some(-0.0065) },
-                Series { name: "South & <co>".into(), style: 1, points: vec![(2018.0, 0.70), (2024.0, 0.71)], slope: None },
+                Series {
+                    name: "North".into(),
+                    style: 0,
+                    points: vec![(2018.0, 0.61), (2021.0, 0.60), (2024.0, 0.57)],
+                    slope: Some(-0.0065),
+                },
+                Series {
+                    name: "South & <co>".into(),
+                    style: 1,
+                    points: vec![(2018.0, 0.70), (2024.0, 0.71)],
+                    slope: None,
+                },
             ],
             x_label: "Year".into(),
             y_label: "He".into(),
@@ -552,7 +616,13 @@ mod tests {
         let intervals = Figure::IntervalsAgainstThresholds {
             points: vec![
                 IntervalPoint { label: "A".into(), style: 0, value: 48.0, low: Some(30.0), high: Some(95.0) },
-                IntervalPoint { label: "B".into(), style: 1, value: f64::INFINITY, low: Some(800.0), high: Some(f64::INFINITY) },
+                IntervalPoint {
+                    label: "B".into(),
+                    style: 1,
+                    value: f64::INFINITY,
+                    low: Some(800.0),
+                    high: Some(f64::INFINITY),
+                },
             ],
             thresholds: vec![50.0, 500.0],
             y_label: "Ne".into(),
@@ -562,7 +632,13 @@ mod tests {
             values: vec![vec![None, None, None], vec![Some(0.05), None, None], vec![Some(0.1), Some(0.02), None]],
             value_label: "FST".into(),
         };
-        let scatter = Figure::Scatter { points: vec![(10.0, 0.01), (30.0, 0.04), (50.0, 0.05)], fit: Some((-0.05, 0.025)), log_x: true, x_label: "km".into(), y_label: "FST/(1−FST)".into() };
+        let scatter = Figure::Scatter {
+            points: vec![(10.0, 0.01), (30.0, 0.04), (50.0, 0.05)],
+            fit: Some((-0.05, 0.025)),
+            log_x: true,
+            x_label: "km".into(),
+            y_label: "FST/(1−FST)".into(),
+        };
         for (name, figure) in [("ne", intervals), ("fst", heat), ("ibd", scatter)] {
             let svg = render(name, &figure).unwrap();
             assert!(svg.contains("</svg>"), "{name}");

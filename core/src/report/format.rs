@@ -76,7 +76,11 @@ pub fn significant(value: f64, digits: usize) -> String {
 /// [`significant`] without trailing zeros after the decimal point.
 pub fn short(value: f64, digits: usize) -> String {
     let text = significant(value, digits);
-    if text.contains('.') && !text.contains('e') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text }
+    if text.contains('.') && !text.contains('e') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
 }
 
 /// An effective size: `∞`, a whole number from 10 up, one decimal below 10.
@@ -171,11 +175,28 @@ pub fn interval(low: Option<f64>, high: Option<f64>, style: NumberStyle) -> Stri
 pub fn style_for_column(name: &str) -> NumberStyle {
     let name = name.to_ascii_lowercase();
     let is = |options: &[&str]| options.contains(&name.as_str());
-    if is(&["year", "year_start", "year_end", "n", "n_total", "n_kept", "alleles", "points", "s", "comparisons", "typed", "bad_cells", "loci", "census_year", "mk_s"])
-        || name.starts_with("n_")
+    if is(&[
+        "year",
+        "year_start",
+        "year_end",
+        "n",
+        "n_total",
+        "n_kept",
+        "alleles",
+        "points",
+        "s",
+        "comparisons",
+        "typed",
+        "bad_cells",
+        "loci",
+        "census_year",
+        "mk_s",
+    ]) || name.starts_with("n_")
         || name.starts_with("s_")
     {
         NumberStyle::Whole
+    } else if name.ends_with("_se") || name == "se" {
+        NumberStyle::Significant(2)
     } else if name == "p" || name.ends_with("_p") || name.starts_with("p_") || name.starts_with("q_") || name == "q" {
         NumberStyle::PValue
     } else if name == "ne" || name.starts_with("ne_") && !name.contains("nc") || name == "census_size" {
@@ -186,7 +207,33 @@ pub fn style_for_column(name: &str) -> NumberStyle {
         NumberStyle::Short(3)
     } else if name == "h_retained" || name.starts_with("share") {
         NumberStyle::Percent
-    } else if is(&["ho", "he", "f", "fis", "fis_low", "fis_high", "fst", "fst_low", "fst_high", "jost_d", "gst_pp", "ar", "par", "alleles_mean", "missing", "r2", "r2_sample", "fc", "fk", "fs", "d", "mk_tau", "f_projected", "ne_nc", "null_allele"]) {
+    } else if is(&[
+        "ho",
+        "he",
+        "f",
+        "fis",
+        "fis_low",
+        "fis_high",
+        "fst",
+        "fst_low",
+        "fst_high",
+        "jost_d",
+        "gst_pp",
+        "ar",
+        "par",
+        "alleles_mean",
+        "missing",
+        "r2",
+        "r2_sample",
+        "fc",
+        "fk",
+        "fs",
+        "d",
+        "mk_tau",
+        "f_projected",
+        "ne_nc",
+        "null_allele",
+    ]) {
         NumberStyle::Fixed(3)
     } else {
         NumberStyle::Short(4)
@@ -196,7 +243,17 @@ pub fn style_for_column(name: &str) -> NumberStyle {
 /// A date `YYYY-MM-DD` in words, e.g. `30 November 2026`; the text itself when it is not one.
 pub fn long_date(iso: &str) -> String {
     const MONTHS: [&str; 12] = [
-        "January", "February", "March", "April", "May", "June", "July", "August", "September", "October", "November",
+        "January",
+        "February",
+        "March",
+        "April",
+        "May",
+        "June",
+        "July",
+        "August",
+        "September",
+        "October",
+        "November",
         "December",
     ];
     let parts: Vec<&str> = iso.split('-').collect();
@@ -275,6 +332,7 @@ mod tests {
         assert_eq!(style_for_column("year"), NumberStyle::Whole);
         assert_eq!(style_for_column("fst_p"), NumberStyle::PValue);
         assert_eq!(style_for_column("q_value"), NumberStyle::PValue);
+        assert_eq!(style_for_column("p_se"), NumberStyle::Significant(2));
         assert_eq!(style_for_column("ne_jack_low"), NumberStyle::EffectiveSize);
         assert_eq!(style_for_column("ne_nc"), NumberStyle::Fixed(3));
         assert_eq!(style_for_column("he"), NumberStyle::Fixed(3));

@@ -113,8 +113,14 @@ fn read_folder(
     files: &mut BTreeMap<String, Vec<u8>>,
     total: &mut u64,
 ) -> Result<(), ReportError> {
-    let unreadable = |path: &Path, source: std::io::Error| ReportError::TemplateUnreadable { path: path.display().to_string(), source };
-    let mut entries: Vec<_> = std::fs::read_dir(dir).map_err(|e| unreadable(dir, e))?.collect::<Result<_, _>>().map_err(|e| unreadable(dir, e))?;
+    let unreadable = |path: &Path, source: std::io::Error| ReportError::TemplateUnreadable {
+        path: path.display().to_string(),
+        source,
+    };
+    let mut entries: Vec<_> = std::fs::read_dir(dir)
+        .map_err(|e| unreadable(dir, e))?
+        .collect::<Result<_, _>>()
+        .map_err(|e| unreadable(dir, e))?;
     entries.sort_by_key(|e| e.file_name());
     for entry in entries {
         let name = entry.file_name().to_string_lossy().into_owned();
@@ -135,7 +141,11 @@ fn read_folder(
             let bytes = std::fs::read(entry.path()).map_err(|e| unreadable(&entry.path(), e))?;
             *total += bytes.len() as u64;
             if files.len() >= MAX_FILES || *total > MAX_BYTES {
-                return Err(ReportError::TemplateTooLarge { folder: shown.to_string(), max_files: MAX_FILES, max_megabytes: MAX_BYTES / (1024 * 1024) });
+                return Err(ReportError::TemplateTooLarge {
+                    folder: shown.to_string(),
+                    max_files: MAX_FILES,
+                    max_megabytes: MAX_BYTES / (1024 * 1024),
+                });
             }
             files.insert(relative, bytes);
         }
@@ -169,12 +179,18 @@ mod tests {
 
         std::fs::write(dir.path().join("results.json"), "{}").unwrap();
         let clash = Template::from_folder(dir.path(), "tpl", &|_| false).unwrap().output_files().unwrap_err();
-        assert_eq!(clash.to_string(), "tpl/results.json: a template file may not be named like an output of the run\n  help: rename it; assessment.pdf, assessment.json, results.json, provenance.json, tables/ and figures/ are written by popgauge");
+        assert_eq!(
+            clash.to_string(),
+            "tpl/results.json: a template file may not be named like an output of the run\n  help: rename it; assessment.pdf, assessment.json, results.json, provenance.json, tables/ and figures/ are written by popgauge"
+        );
         let skipping = Template::from_folder(dir.path(), "tpl", &is_output_name).unwrap();
         assert!(!skipping.files.contains_key("results.json"));
 
         std::fs::remove_file(dir.path().join("assessment.typ")).unwrap();
         let missing = Template::from_folder(dir.path(), "tpl", &|_| false).unwrap_err();
-        assert_eq!(missing.to_string(), "tpl: the template folder has no assessment.typ\n  help: a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)");
+        assert_eq!(
+            missing.to_string(),
+            "tpl: the template folder has no assessment.typ\n  help: a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)"
+        );
     }
 }

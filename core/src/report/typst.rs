@@ -78,7 +78,8 @@ fn engine(job: &TypesetJob<'_>) -> Result<TypstEngine, ReportError> {
     for (name, bytes) in &job.template.files {
         let Some(id) = file_id(name) else { continue };
         if name.ends_with(".typ") {
-            let text = String::from_utf8(bytes.clone()).map_err(|_| ReportError::TemplateNotUtf8 { file: job.template.shown_file(name) })?;
+            let text = String::from_utf8(bytes.clone())
+                .map_err(|_| ReportError::TemplateNotUtf8 { file: job.template.shown_file(name) })?;
             sources.push((id, text));
         }
         binaries.push((id, bytes.clone()));
@@ -109,7 +110,8 @@ fn inputs(job: &TypesetJob<'_>) -> Dict {
 fn pdf_options(job: &TypesetJob<'_>) -> Result<PdfOptions, ReportError> {
     let (year, month, day) = job.date;
     let date = u8::try_from(month).ok().zip(u8::try_from(day).ok()).and_then(|(m, d)| Datetime::from_ymd(year, m, d));
-    let standards = PdfStandards::new(&[PdfStandard::A_2b]).map_err(|e| ReportError::Pdf { message: e.message().to_string() })?;
+    let standards =
+        PdfStandards::new(&[PdfStandard::A_2b]).map_err(|e| ReportError::Pdf { message: e.message().to_string() })?;
     Ok(PdfOptions {
         ident: Smart::Custom(format!("popgauge-assessment-{}", job.ident)),
         creator: Smart::Custom(Some(format!("popgauge {}", env!("CARGO_PKG_VERSION")))),
@@ -120,7 +122,13 @@ fn pdf_options(job: &TypesetJob<'_>) -> Result<PdfOptions, ReportError> {
 }
 
 /// The first error as a readable message: template file, line and column, what Typst said.
-fn compile_error(engine: &TypstEngine, main: FileId, inputs: Dict, template: &Template, diagnostics: &[SourceDiagnostic]) -> ReportError {
+fn compile_error(
+    engine: &TypstEngine,
+    main: FileId,
+    inputs: Dict,
+    template: &Template,
+    diagnostics: &[SourceDiagnostic],
+) -> ReportError {
     let errors: Vec<&SourceDiagnostic> = diagnostics.iter().filter(|d| d.severity == Severity::Error).collect();
     let Some(first) = errors.first().copied().or_else(|| diagnostics.first()) else {
         return ReportError::Pdf { message: "the template did not compile, without a message".into() };

@@ -10,7 +10,7 @@ use popgauge_abi::{Finding, FindingLevel, StepResult};
 use super::super::contract::{Results, Row, Rows, col, table, table_of, uses};
 use super::super::figures::{Figure, IntervalPoint, Series};
 use super::super::format::{self, NumberStyle};
-use super::table::{HeatCell, HeatTable, TableData, generic};
+use super::table::{HeatCell, HeatTable, TableData, generic, readable};
 use super::{BODY_ROWS, Extras};
 use crate::engine::StepRun;
 
@@ -161,6 +161,8 @@ pub struct AdditionalStep {
     pub tables: Vec<NamedTable>,
     /// Its findings, as text.
     pub findings: Vec<String>,
+    /// Why it failed, when it did (its tables are then empty).
+    pub error: Option<String>,
 }
 
 /// A named table with an appendix key for its rest.
@@ -180,8 +182,10 @@ pub struct NamedTable {
 pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSection {
     let doc = ctx.results.doc();
     let validate = ctx.results.step(uses::VALIDATE);
-    let excluded_samples: BTreeSet<&str> = doc.steps.iter().flat_map(|s| s.exclusions.samples.iter().map(|e| e.name.as_str())).collect();
-    let excluded_loci: BTreeSet<&str> = doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
+    let excluded_samples: BTreeSet<&str> =
+        doc.steps.iter().flat_map(|s| s.exclusions.samples.iter().map(|e| e.name.as_str())).collect();
+    let excluded_loci: BTreeSet<&str> =
+        doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
     let mut exclusions = exclusions_table(&doc.steps, validate);
     let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into());
     let findings: Vec<(String, &Finding)> = doc
@@ -195,7 +199,8 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
     let serious: Vec<&(String, &Finding)> = findings.iter().filter(|(_, f)| f.level >= FindingLevel::Warning).collect();
     let mut body_findings = findings_table(serious.iter().copied().take(15));
     body_findings.drop_empty_columns(&[]);
-    let findings_all = (findings.len() > body_findings.rows.len()).then(|| extras.appendix("All findings".into(), findings_table(findings.iter())));
+    let findings_all = (findings.len() > body_findings.rows.len())
+        .then(|| extras.appendix("All findings".into(), findings_table(findings.iter())));
     DataSection {
         genotypes: doc.data.genotypes.clone(),
         samples_read: doc.data.samples,
@@ -217,7 +222,13 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
 
 fn groups_table(ctx: &Context<'_>) -> TableData {
     if let Some(groups) = ctx.results.table(uses::VALIDATE, table::GROUPS) {
-        let mut t = TableData::new(&[("Population", false), ("Year", true), ("Samples read", true), ("Kept", true), ("Group", false)]);
+        let mut t = TableData::new(&[
+            ("Population", false),
+            ("Year", true),
+            ("Samples read", true),
+            ("Kept", true),
+            ("Group", false),
+        ]);
         for row in groups.iter() {
             t.push(vec![
                 text(&row, col::POPULATION),
@@ -241,17 +252,28 @@ fn exclusions_table(steps: &[StepResult], validate: Option<&StepResult>) -> Tabl
     let group_of = |name: &str| -> String {
         samples
             .and_then(|t| t.iter().find(|r| r.text(col::SAMPLE) == Some(name)))
-            .map(|r| format!("{} {}", r.text(col::POPULATION).unwrap_or(""), r.label(col::YEAR).unwrap_or_default()).trim().to_string())
+            .map(|r| {
+                format!("{} {}", r.text(col::POPULATION).unwrap_or(""), r.label(col::YEAR).unwrap_or_default())
+                    .trim()
+                    .to_string()
+            })
             .unwrap_or_default()
     };
-    let mut t = TableData::new(&[("What", false), ("Name", false), ("Group", false), ("Step", false), ("Reason", false)]);
+    let mut t =
+        TableData::new(&[("What", false), ("Name", false), ("Group", false), ("Step", false), ("Reason", false)]);
     for step in steps {
         for e in &step.exclusions.loci {
             t.push(vec!["locus".into(), e.name.clone(), format::UNDEFINED.into(), step.id.clone(), e.reason.clone()]);
         }
         for e in &step.exclusions.samples {
             let group = group_of(&e.name);
-            t.push(vec!["sample".into(), e.name.clone(), if group.is_empty() { format::UNDEFINED.into() } else { group }, step.id.clone(), e.reason.clone()]);
+            t.push(vec![
+                "sample".into(),
+                e.name.clone(),
+                if group.is_empty() { format::UNDEFINED.into() } else { group },
+                step.id.clone(),
+                e.reason.clone(),
+            ]);
         }
     }
     t
@@ -314,7 +336,9 @@ pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Optio
             None => format::UNDEFINED.to_string(),
             Some(fis) => match (row.num(col::FIS_LOW), row.num(col::FIS_HIGH)) {
                 (None, None) => format::fixed(fis, 3),
-                (low, high) => format!("{} ({})", format::fixed(fis, 3), format::interval(low, high, NumberStyle::Fixed(3))),
+                (low, high) => {
+                    format!("{} ({})", format::fixed(fis, 3), format::interval(low, high, NumberStyle::Fixed(3)))
+                }
             },
         };
         t.push(vec![
@@ -343,15 +367,38 @@ pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Optio
 /// He over years per population, with the trend step's least-squares slope when present.
 fn he_over_years(ctx: &Context<'_>, by_group: &Rows<'_>, extras: &mut Extras) {
     let slopes = trend_slopes(ctx, "he");
-    let series = series_by_population(ctx, by_group.iter().filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::HE)?))), &slopes);
+    let series = series_by_population(
+        ctx,
+        by_group
+            .iter()
+            .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::HE)?))),
+        &slopes,
+    );
     if series.iter().any(|s| s.points.len() >= 2) {
-        let alt = format!("Expected heterozygosity He per population and sampling year{}.", if slopes.is_empty() { "" } else { ", with the least-squares trend of each population as a dashed line" });
-        extras.figure("he-years", Figure::Lines { series, x_label: "Sampling year".into(), y_label: "He (unbiased)".into(), log_y: false, y_from_zero: false }, alt);
+        let alt = format!(
+            "Expected heterozygosity He per population and sampling year{}.",
+            if slopes.is_empty() { "" } else { ", with the least-squares trend of each population as a dashed line" }
+        );
+        extras.figure(
+            "he-years",
+            Figure::Lines {
+                series,
+                x_label: "Sampling year".into(),
+                y_label: "He (unbiased)".into(),
+                log_y: false,
+                y_from_zero: false,
+            },
+            alt,
+        );
     }
 }
 
 /// One series per population from (population, x, y) triples, points sorted by x.
-fn series_by_population(ctx: &Context<'_>, values: impl Iterator<Item = (String, f64, f64)>, slopes: &BTreeMap<String, f64>) -> Vec<Series> {
+fn series_by_population(
+    ctx: &Context<'_>,
+    values: impl Iterator<Item = (String, f64, f64)>,
+    slopes: &BTreeMap<String, f64>,
+) -> Vec<Series> {
     let mut by_population: BTreeMap<String, Vec<(f64, f64)>> = BTreeMap::new();
     for (population, x, y) in values {
         by_population.entry(population).or_default().push((x, y));
@@ -365,14 +412,18 @@ fn series_by_population(ctx: &Context<'_>, values: impl Iterator<Item = (String,
         .collect()
 }
 
-/// Least-squares slopes per population for one trend metric.
+/// Least-squares slopes per population for one trend metric, in the metric's own units per
+/// year (a slope tested on another scale, such as 1/Ne, is not drawn).
 fn trend_slopes(ctx: &Context<'_>, metric: &str) -> BTreeMap<String, f64> {
     ctx.results
         .table(uses::TREND, table::TESTS)
         .map(|t| {
             t.iter()
                 .filter(|r| r.text(col::METRIC) == Some(metric))
-                .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::OLS_SLOPE).filter(|s| s.is_finite())?)))
+                .filter(|r| r.text("scale").is_none_or(|scale| scale == "value"))
+                .filter_map(|r| {
+                    Some((r.text(col::POPULATION)?.to_string(), r.num(col::OLS_SLOPE).filter(|s| s.is_finite())?))
+                })
                 .collect()
         })
         .unwrap_or_default()
@@ -404,11 +455,27 @@ pub(crate) fn hwe_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<HweS
             }
         }
     }
-    let mut summary = TableData::new(&[("Population", false), ("Year", true), ("Loci tested", true), ("q < 0.05", true), ("Deficit", true), ("Excess", true)]);
+    let mut summary = TableData::new(&[
+        ("Population", false),
+        ("Year", true),
+        ("Loci tested", true),
+        ("q < 0.05", true),
+        ("Deficit", true),
+        ("Excess", true),
+    ]);
     for ((population, year), t) in tallies {
-        summary.push(vec![population, year, t.tested.to_string(), t.significant.to_string(), t.deficit.to_string(), t.excess.to_string()]);
+        summary.push(vec![
+            population,
+            year,
+            t.tested.to_string(),
+            t.significant.to_string(),
+            t.deficit.to_string(),
+            t.excess.to_string(),
+        ]);
     }
-    let key = (!by_locus.is_empty()).then(|| extras.appendix(format!("Hardy–Weinberg tests per locus and group (step \"{}\")", step.id), generic(&by_locus)));
+    let key = (!by_locus.is_empty()).then(|| {
+        extras.appendix(format!("Hardy–Weinberg tests per locus and group (step \"{}\")", step.id), generic(&by_locus))
+    });
     Some(HweSection { step: step.id.clone(), summary, by_locus: key })
 }
 
@@ -427,19 +494,28 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
         let fst = row.num(col::FST)?;
         Some(match (row.num(col::FST_LOW), row.num(col::FST_HIGH)) {
             (None, None) => format::fixed(fst, 3),
-            (low, high) => format!("{} (95 % CI {})", format::fixed(fst, 3), format::interval(low, high, NumberStyle::Fixed(3))),
+            (low, high) => {
+                format!("{} (95 % CI {})", format::fixed(fst, 3), format::interval(low, high, NumberStyle::Fixed(3)))
+            }
         })
     });
     if let Some(ibd) = table_of(step, table::IBD) {
         isolation_by_distance(&ibd, table_of(step, table::IBD_TEST), extras);
     }
-    let ibd_test = table_of(step, table::IBD_TEST).filter(|t| !t.is_empty()).map(|t| generic(&t));
+    let ibd_test = table_of(step, table::IBD_TEST).filter(|t| !t.is_empty()).map(|t| readable(&t));
     let pairwise_key = pairwise.filter(|p| !p.is_empty()).map(|p| {
         let mut data = generic(&p);
         data.drop_empty_columns(&[]);
         extras.appendix(format!("Pairwise differentiation (step \"{}\")", step.id), data)
     });
-    Some(DifferentiationSection { step: step.id.clone(), matrix, matrix_years, global, ibd_test, pairwise: pairwise_key })
+    Some(DifferentiationSection {
+        step: step.id.clone(),
+        matrix,
+        matrix_years,
+        global,
+        ibd_test,
+        pairwise: pairwise_key,
+    })
 }
 
 /// The FST matrix of the pooled rows (year `null`), or of the latest year when every row has
@@ -448,14 +524,19 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (O
     let pooled: Vec<Row<'_>> = pairwise.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
     let (rows, years) = if pooled.is_empty() {
         let latest = pairwise.iter().filter_map(|r| r.int(col::YEAR)).max();
-        (pairwise.iter().filter(|r| r.int(col::YEAR) == latest).collect::<Vec<_>>(), latest.map_or_else(String::new, |y| y.to_string()))
+        (
+            pairwise.iter().filter(|r| r.int(col::YEAR) == latest).collect::<Vec<_>>(),
+            latest.map_or_else(String::new, |y| y.to_string()),
+        )
     } else {
         (pooled, "pooled".to_string())
     };
     let names: Vec<String> = ctx
         .populations
         .iter()
-        .filter(|p| rows.iter().any(|r| r.text(col::POP_A) == Some(p.as_str()) || r.text(col::POP_B) == Some(p.as_str())))
+        .filter(|p| {
+            rows.iter().any(|r| r.text(col::POP_A) == Some(p.as_str()) || r.text(col::POP_B) == Some(p.as_str()))
+        })
         .cloned()
         .collect();
     if names.len() < 2 {
@@ -479,15 +560,28 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (O
                     std::cmp::Ordering::Equal => HeatCell { text: String::new(), heat: None },
                     std::cmp::Ordering::Greater => HeatCell {
                         text: format::maybe(fst[i][j], NumberStyle::Fixed(3)),
-                        heat: fst[i][j].filter(|v| v.is_finite()).map(|v| if max > 0.0 { (v / max).clamp(0.0, 1.0) } else { 0.0 }),
+                        heat: fst[i][j]
+                            .filter(|v| v.is_finite())
+                            .map(|v| if max > 0.0 { (v / max).clamp(0.0, 1.0) } else { 0.0 }),
                     },
-                    std::cmp::Ordering::Less => HeatCell { text: format::maybe(p[i][j], NumberStyle::PValue), heat: None },
+                    std::cmp::Ordering::Less => {
+                        HeatCell { text: format::maybe(p[i][j], NumberStyle::PValue), heat: None }
+                    }
                 })
                 .collect()
         })
         .collect();
-    let alt = format!("Heat map of pairwise FST between {} populations ({}); darker cells are more differentiated, the largest value is {}.", names.len(), years, format::fixed(max, 3));
-    extras.figure("fst-heatmap", Figure::HeatMap { labels: names.clone(), values: fst, value_label: "FST".into() }, alt);
+    let alt = format!(
+        "Heat map of pairwise FST between {} populations ({}); darker cells are more differentiated, the largest value is {}.",
+        names.len(),
+        years,
+        format::fixed(max, 3)
+    );
+    extras.figure(
+        "fst-heatmap",
+        Figure::HeatMap { labels: names.clone(), values: fst, value_label: "FST".into() },
+        alt,
+    );
     (Some(HeatTable { labels: names, cells, max: format::fixed(max, 3) }), years)
 }
 
@@ -496,11 +590,18 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (O
 fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Extras) {
     let columns = &ibd.table().columns;
     let x = columns.iter().find(|c| c.contains("dist"));
-    let y = columns.iter().find(|c| c.contains("fst") && c.contains("lin")).or_else(|| columns.iter().find(|c| c.contains("fst")));
+    let y = columns
+        .iter()
+        .find(|c| c.contains("fst") && c.contains("lin"))
+        .or_else(|| columns.iter().find(|c| c.contains("fst")));
     let (Some(x), Some(y)) = (x, y) else { return };
     let pooled: Vec<Row<'_>> = ibd.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
     let rows = if pooled.is_empty() { ibd.iter().collect() } else { pooled };
-    let points: Vec<(f64, f64)> = rows.iter().filter_map(|r| Some((r.num(x)?, r.num(y)?))).filter(|p| p.0.is_finite() && p.0 > 0.0 && p.1.is_finite()).collect();
+    let points: Vec<(f64, f64)> = rows
+        .iter()
+        .filter_map(|r| Some((r.num(x)?, r.num(y)?)))
+        .filter(|p| p.0.is_finite() && p.0 > 0.0 && p.1.is_finite())
+        .collect();
     if points.len() < 3 {
         return;
     }
@@ -508,7 +609,8 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
     // logarithmic and the fitted line straight on it.
     let test_row = test.and_then(|t| t.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| t.iter().next()));
     let fit = test_row.and_then(|r| Some((r.num("intercept")?, r.num("slope")?)));
-    let x_label = if x.contains("km") { "Geographic distance (km, logarithmic axis)".to_string() } else { x.replace('_', " ") };
+    let x_label =
+        if x.contains("km") { "Geographic distance (km, logarithmic axis)".to_string() } else { x.replace('_', " ") };
     let y_label = if y.contains("lin") { "FST/(1 − FST)".to_string() } else { y.replace('_', " ") };
     let alt = format!("Isolation by distance: {y_label} against {x_label} for {} population pairs.", points.len());
     extras.figure("ibd", Figure::Scatter { points, fit, log_x: x.contains("dist"), x_label, y_label }, alt);
@@ -554,7 +656,9 @@ fn ld_table(rows: &Rows<'_>) -> TableData {
         t.push(vec![
             text(&row, col::POPULATION),
             whole(&row, col::YEAR),
-            format::maybe(row.num(col::PCRIT), NumberStyle::Short(3)),
+            // A criterion may be text (`singletons`: only alleles seen once are left out).
+            row.cell(col::PCRIT)
+                .map_or_else(|| format::UNDEFINED.to_string(), |c| format::cell(c, NumberStyle::Short(3))),
             format::maybe(row.num(col::S), NumberStyle::Significant(3)),
             ne(&row, col::NE),
             ne_interval(&row, col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH),
@@ -567,7 +671,15 @@ fn ld_table(rows: &Rows<'_>) -> TableData {
 }
 
 fn temporal_table(rows: &Rows<'_>) -> TableData {
-    let mut t = TableData::new(&[("Population", false), ("Interval", false), ("Generations", true), ("Ne (Fs)", true), ("95 % CI", true), ("Ne (Fc)", true), ("Ne (Fk)", true)]);
+    let mut t = TableData::new(&[
+        ("Population", false),
+        ("Interval", false),
+        ("Generations", true),
+        ("Ne (Fs)", true),
+        ("95 % CI", true),
+        ("Ne (Fc)", true),
+        ("Ne (Fk)", true),
+    ]);
     for row in rows.iter() {
         t.push(vec![
             text(&row, col::POPULATION),
@@ -586,7 +698,12 @@ fn temporal_table(rows: &Rows<'_>) -> TableData {
 fn hetx_table(rows: &Rows<'_>) -> TableData {
     let mut t = TableData::new(&[("Population", false), ("Year", true), ("D", true), ("Ne", true)]);
     for row in rows.iter() {
-        t.push(vec![text(&row, col::POPULATION), whole(&row, col::YEAR), format::maybe(row.num(col::D), NumberStyle::Fixed(3)), ne(&row, col::NE)]);
+        t.push(vec![
+            text(&row, col::POPULATION),
+            whole(&row, col::YEAR),
+            format::maybe(row.num(col::D), NumberStyle::Fixed(3)),
+            ne(&row, col::NE),
+        ]);
     }
     t
 }
@@ -608,7 +725,15 @@ fn ne_chart(ctx: &Context<'_>, extras: &mut Extras) -> Option<String> {
         "Effective population size per population ({source}) with 95 % confidence intervals on a logarithmic axis; dashed lines mark the thresholds Ne = {}.",
         ctx.thresholds.iter().map(|t| format::effective_size(*t)).collect::<Vec<_>>().join(" and ")
     );
-    extras.figure("ne", Figure::IntervalsAgainstThresholds { points, thresholds: ctx.thresholds.to_vec(), y_label: "Effective population size Ne".into() }, alt);
+    extras.figure(
+        "ne",
+        Figure::IntervalsAgainstThresholds {
+            points,
+            thresholds: ctx.thresholds.to_vec(),
+            y_label: "Effective population size Ne".into(),
+        },
+        alt,
+    );
     Some(source)
 }
 
@@ -622,7 +747,13 @@ fn status_points(ctx: &Context<'_>) -> Option<Points> {
         .iter()
         .filter_map(|r| {
             let population = r.text(col::POPULATION)?;
-            Some(IntervalPoint { label: population.into(), style: ctx.style_of(population), value: r.num(col::NE)?, low: r.num(col::NE_LOW), high: r.num(col::NE_HIGH) })
+            Some(IntervalPoint {
+                label: population.into(),
+                style: ctx.style_of(population),
+                value: r.num(col::NE)?,
+                low: r.num(col::NE_LOW),
+                high: r.num(col::NE_HIGH),
+            })
         })
         .collect();
     Some((points, format!("the estimate chosen by step \"{}\"", step.id)))
@@ -635,16 +766,32 @@ fn ld_points(ctx: &Context<'_>) -> Option<Points> {
     let at_pcrit: Vec<Row<'_>> = rows.iter().filter(|r| r.num(col::PCRIT) == pcrit).collect();
     let mut points = Vec::new();
     for population in ctx.populations {
-        let Some(row) = at_pcrit.iter().filter(|r| r.text(col::POPULATION) == Some(population.as_str())).max_by_key(|r| r.int(col::YEAR)) else { continue };
+        let Some(row) = at_pcrit
+            .iter()
+            .filter(|r| r.text(col::POPULATION) == Some(population.as_str()))
+            .max_by_key(|r| r.int(col::YEAR))
+        else {
+            continue;
+        };
         let Some(value) = row.num(col::NE) else { continue };
         // The recommended interval first (resampling individuals), then the loci jackknife,
         // then the parametric one.
-        let (low, high) = [(col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH), (col::NE_JACK_LOW, col::NE_JACK_HIGH), (col::NE_PARAM_LOW, col::NE_PARAM_HIGH)]
-            .into_iter()
-            .map(|(l, h)| (row.num(l), row.num(h)))
-            .find(|(l, h)| l.is_some() || h.is_some())
-            .unwrap_or((None, None));
-        points.push(IntervalPoint { label: format!("{population} {}", row.label(col::YEAR).unwrap_or_default()), style: ctx.style_of(population), value, low, high });
+        let (low, high) = [
+            (col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH),
+            (col::NE_JACK_LOW, col::NE_JACK_HIGH),
+            (col::NE_PARAM_LOW, col::NE_PARAM_HIGH),
+        ]
+        .into_iter()
+        .map(|(l, h)| (row.num(l), row.num(h)))
+        .find(|(l, h)| l.is_some() || h.is_some())
+        .unwrap_or((None, None));
+        points.push(IntervalPoint {
+            label: format!("{population} {}", row.label(col::YEAR).unwrap_or_default()),
+            style: ctx.style_of(population),
+            value,
+            low,
+            high,
+        });
     }
     let pcrit_text = pcrit.map_or_else(String::new, |p| format!(", Pcrit = {}", format::significant(p, 2)));
     Some((points, format!("LD estimate of the latest sample, step \"{}\"{pcrit_text}", step.id)))
@@ -657,8 +804,17 @@ fn temporal_points(ctx: &Context<'_>) -> Option<Points> {
         .populations
         .iter()
         .filter_map(|population| {
-            let row = rows.iter().filter(|r| r.text(col::POPULATION) == Some(population.as_str())).max_by_key(|r| (r.int(col::YEAR_END), std::cmp::Reverse(r.int(col::YEAR_START))))?;
-            Some(IntervalPoint { label: population.clone(), style: ctx.style_of(population), value: row.num(col::NE_FS)?, low: row.num(col::NE_LOW), high: row.num(col::NE_HIGH) })
+            let row = rows
+                .iter()
+                .filter(|r| r.text(col::POPULATION) == Some(population.as_str()))
+                .max_by_key(|r| (r.int(col::YEAR_END), std::cmp::Reverse(r.int(col::YEAR_START))))?;
+            Some(IntervalPoint {
+                label: population.clone(),
+                style: ctx.style_of(population),
+                value: row.num(col::NE_FS)?,
+                low: row.num(col::NE_LOW),
+                high: row.num(col::NE_HIGH),
+            })
         })
         .collect();
     Some((points, format!("temporal estimate over the longest interval, step \"{}\"", step.id)))
@@ -670,14 +826,26 @@ fn ne_over_years(ctx: &Context<'_>, extras: &mut Extras) {
     let Some(rows) = table_of(step, table::ESTIMATES) else { return };
     let pcrit = chosen_pcrit(&rows);
     let slopes = trend_slopes(ctx, &format!("ne:{}", step.id));
-    let values = rows
-        .iter()
-        .filter(|r| r.num(col::PCRIT) == pcrit)
-        .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::NE).filter(|v| v.is_finite())?)));
+    let values = rows.iter().filter(|r| r.num(col::PCRIT) == pcrit).filter_map(|r| {
+        Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::NE).filter(|v| v.is_finite())?))
+    });
     let series = series_by_population(ctx, values, &slopes);
     if series.iter().any(|s| s.points.len() >= 2) {
-        let alt = format!("LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; infinite estimates are left out.", step.id);
-        extras.figure("ne-years", Figure::Lines { series, x_label: "Sampling year".into(), y_label: "Ne (LD)".into(), log_y: true, y_from_zero: false }, alt);
+        let alt = format!(
+            "LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; infinite estimates are left out.",
+            step.id
+        );
+        extras.figure(
+            "ne-years",
+            Figure::Lines {
+                series,
+                x_label: "Sampling year".into(),
+                y_label: "Ne (LD)".into(),
+                log_y: true,
+                y_from_zero: false,
+            },
+            alt,
+        );
     }
 }
 
@@ -712,11 +880,22 @@ pub(crate) fn trend_section(ctx: &Context<'_>, _extras: &mut Extras) -> Option<T
         for row in rows.iter() {
             let ls = match row.num(col::OLS_SLOPE) {
                 None => format::UNDEFINED.to_string(),
-                Some(s) => format!("{} ({})", format::significant(s, 3), format::interval(row.num(col::OLS_LOW), row.num(col::OLS_HIGH), NumberStyle::Significant(3))),
+                Some(s) => format!(
+                    "{} ({})",
+                    format::significant(s, 3),
+                    format::interval(row.num(col::OLS_LOW), row.num(col::OLS_HIGH), NumberStyle::Significant(3))
+                ),
             };
             tests.push(vec![
                 text(&row, col::POPULATION),
-                metric_label(row.text(col::METRIC).unwrap_or("")),
+                // A metric tested on the inverse scale (Ne as 1/Ne) is labelled so, since its
+                // slopes are in those units.
+                match row.text("scale") {
+                    Some(scale) if scale != "value" => {
+                        format!("1/{}", metric_label(row.text(col::METRIC).unwrap_or("")))
+                    }
+                    _ => metric_label(row.text(col::METRIC).unwrap_or("")),
+                },
                 whole(&row, col::POINTS),
                 format::maybe(row.num(col::MK_TAU), NumberStyle::Fixed(2)),
                 format::maybe(row.num(col::MK_P), NumberStyle::PValue),
@@ -725,7 +904,8 @@ pub(crate) fn trend_section(ctx: &Context<'_>, _extras: &mut Extras) -> Option<T
             ]);
         }
     }
-    let paired = table_of(step, table::PAIRED).filter(|t| !t.is_empty()).map(|t| generic(&t));
+    tests.drop_empty_columns(&["Population", "Metric", "Points"]);
+    let paired = table_of(step, table::PAIRED).filter(|t| !t.is_empty()).map(|t| readable(&t));
     Some(TrendSection { step: step.id.clone(), tests, paired })
 }
 
@@ -763,11 +943,14 @@ pub(crate) fn additional_steps(ctx: &Context<'_>, extras: &mut Extras) -> Vec<Ad
                     let rows = table_of(step, name)?;
                     let mut table = generic(&rows);
                     let keep = BODY_ROWS.min(20);
-                    let more = table.split_off(keep).map(|rest| extras.appendix(format!("Table \"{name}\" of step \"{}\" (continued)", step.id), rest));
+                    let more = table.split_off(keep).map(|rest| {
+                        extras.appendix(format!("Table \"{name}\" of step \"{}\" (continued)", step.id), rest)
+                    });
                     Some(NamedTable { name: name.clone(), table, more })
                 })
                 .collect(),
             findings: step.findings.iter().map(|f| format!("{}: {}", f.level, f.message)).collect(),
+            error: step.error.clone(),
         })
         .collect()
 }

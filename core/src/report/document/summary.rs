@@ -8,7 +8,7 @@ use super::super::figures::{Figure, Series};
 use super::super::format::{self, NumberStyle};
 use super::Extras;
 use super::sections::{Context, latest_rows};
-use super::table::{TableData, generic};
+use super::table::{TableData, readable};
 
 /// The executive summary.
 #[derive(Debug, Clone, Serialize)]
@@ -116,7 +116,8 @@ pub struct ProjectionSection {
 pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
     let status = ctx.results.step(uses::STATUS);
     let status_rows = status.and_then(|s| table_of(s, table::POPULATIONS)).map(|t| latest_rows(&t)).unwrap_or_default();
-    let diversity_rows = ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
+    let diversity_rows =
+        ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
     let (horizon_years, horizon_generations) = horizon(ctx);
     let populations: Vec<PopulationSummary> = ctx
         .populations
@@ -133,7 +134,11 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
             }
         })
         .collect();
-    let ne_steps = [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX].iter().flat_map(|u| ctx.results.steps(u)).map(|s| s.id.clone()).collect();
+    let ne_steps = [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX]
+        .iter()
+        .flat_map(|u| ctx.results.steps(u))
+        .map(|s| s.id.clone())
+        .collect();
     Summary {
         status_step: status.map(|s| s.id.clone()),
         ne_steps,
@@ -141,7 +146,7 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
         horizon_years,
         horizon_generations,
         table: status_table(&populations),
-        indicator: status.and_then(|s| table_of(s, table::INDICATOR)).filter(|t| !t.is_empty()).map(|t| generic(&t)),
+        indicator: status.and_then(|s| table_of(s, table::INDICATOR)).filter(|t| !t.is_empty()).map(|t| readable(&t)),
         populations,
     }
 }
@@ -150,8 +155,11 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
 /// has one, else its `horizon_years` parameter and the generation time.
 fn horizon(ctx: &Context<'_>) -> (Option<String>, Option<String>) {
     let row = ctx.results.table(uses::STATUS, table::HORIZON).and_then(|t| t.iter().next());
-    let years = row.and_then(|r| r.num("horizon_years")).or_else(|| ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64));
-    let generations = row.and_then(|r| r.num(col::GENERATIONS)).or_else(|| years.zip(ctx.generation_time).map(|(y, g)| y / g));
+    let years = row
+        .and_then(|r| r.num("horizon_years"))
+        .or_else(|| ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64));
+    let generations =
+        row.and_then(|r| r.num(col::GENERATIONS)).or_else(|| years.zip(ctx.generation_time).map(|(y, g)| y / g));
     (years.map(|y| format::number(y, NumberStyle::Whole)), generations.map(|g| format::short(g, 3)))
 }
 
@@ -202,7 +210,8 @@ fn drift_facts(status: &Row<'_>, diversity: Option<&Row<'_>>) -> Option<DriftFac
 /// the least-squares interval when there are too few points for it.
 fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
     let tests = ctx.results.table(uses::TREND, table::TESTS)?;
-    let row = tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
+    let row =
+        tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
     let slope = row.num(col::SEN_SLOPE).or_else(|| row.num(col::OLS_SLOPE));
     let direction = |s: f64| if s < 0.0 { "declining" } else { "increasing" };
     let p_text = |p: f64| match format::p_value(p).strip_prefix("< ") {
@@ -267,7 +276,8 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     let step = ctx.results.step(uses::STATUS)?;
     let rows = table_of(step, table::POPULATIONS)?;
     let latest = latest_rows(&rows);
-    let diversity_rows = ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
+    let diversity_rows =
+        ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
     let (horizon_years, horizon_generations) = horizon(ctx);
     let mut t = TableData::new(&[
         ("Population", false),
@@ -295,7 +305,8 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     }
     t.drop_empty_columns(&["Population", "Ne", "H retained"]);
     projection_figure(ctx, &latest, extras);
-    let horizon_row = table_of(step, table::HORIZON).and_then(|h| h.iter().next().map(|r| (r.num(col::RETAIN_TARGET), r.num(col::NE_REQUIRED))));
+    let horizon_row = table_of(step, table::HORIZON)
+        .and_then(|h| h.iter().next().map(|r| (r.num(col::RETAIN_TARGET), r.num(col::NE_REQUIRED))));
     let (retain_target, ne_required) = horizon_row.unwrap_or((None, None));
     Some(ProjectionSection {
         step: step.id.clone(),
@@ -313,14 +324,18 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
 /// own result, not a new estimate).
 fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras) {
     let from_table = ctx.results.table(uses::STATUS, table::PROJECTION).and_then(|t| {
-        let time = ["years", "years_ahead", "year_offset", "t_years", "year", "generation", "generations"].into_iter().find(|c| t.has(c))?;
+        let time = ["years", "years_ahead", "year_offset", "t_years", "year", "generation", "generations"]
+            .into_iter()
+            .find(|c| t.has(c))?;
         t.has(col::H_RETAINED).then_some((t, time))
     });
     let series: Vec<Series> = match from_table {
         Some((t, time)) => {
             let mut by_population: std::collections::BTreeMap<String, Vec<(f64, f64)>> = Default::default();
             for row in t.iter() {
-                if let (Some(p), Some(x), Some(h)) = (row.text(col::POPULATION), row.num(time), row.num(col::H_RETAINED)) {
+                if let (Some(p), Some(x), Some(h)) =
+                    (row.text(col::POPULATION), row.num(time), row.num(col::H_RETAINED))
+                {
                     by_population.entry(p.to_string()).or_default().push((x, h * 100.0));
                 }
             }
@@ -333,7 +348,11 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
                 .collect()
         }
         None => {
-            let Some(horizon) = ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64).filter(|h| *h > 0.0) else { return };
+            let Some(horizon) =
+                ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64).filter(|h| *h > 0.0)
+            else {
+                return;
+            };
             latest
                 .iter()
                 .filter_map(|row| {
@@ -343,7 +362,12 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
                         let t = horizon * k as f64 / 20.0;
                         (t, 100.0 * at_horizon.powf(t / horizon))
                     });
-                    Some(Series { name: name.to_string(), style: ctx.style_of(name), points: points.collect(), slope: None })
+                    Some(Series {
+                        name: name.to_string(),
+                        style: ctx.style_of(name),
+                        points: points.collect(),
+                        slope: None,
+                    })
                 })
                 .collect()
         }
@@ -352,5 +376,15 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
         return;
     }
     let alt = "Projected share of today's heterozygosity retained per population over the years ahead, at each population's current Ne (Wright 1931).".to_string();
-    extras.figure("projection", Figure::Lines { series, x_label: "Years ahead".into(), y_label: "Heterozygosity retained (%)".into(), log_y: false, y_from_zero: false }, alt);
+    extras.figure(
+        "projection",
+        Figure::Lines {
+            series,
+            x_label: "Years ahead".into(),
+            y_label: "Heterozygosity retained (%)".into(),
+            log_y: false,
+            y_from_zero: false,
+        },
+        alt,
+    );
 }

@@ -93,7 +93,8 @@ pub fn generic(rows: &Rows<'_>) -> TableData {
         })
         .collect();
     TableData {
-        columns: table.columns.clone(),
+        // A zero-width space after each underscore lets a long column name wrap in a narrow column.
+        columns: table.columns.iter().map(|c| c.replace('_', "_\u{200B}")).collect(),
         numeric,
         rows: table
             .rows
@@ -101,6 +102,52 @@ pub fn generic(rows: &Rows<'_>) -> TableData {
             .map(|row| row.iter().zip(&styles).map(|(cell, style)| format::cell(cell, *style)).collect())
             .collect(),
     }
+}
+
+/// Headings a reader of the body understands, for contract columns that body tables show
+/// through [`generic`] (the appendix keeps the contract names, which match the CSV files).
+const READABLE_HEADINGS: &[(&str, &str)] = &[
+    ("threshold", "Threshold Ne"),
+    ("populations", "Populations"),
+    ("with_estimate", "With an Ne estimate"),
+    ("above_point", "Above (estimate)"),
+    ("share_point", "Share (estimate)"),
+    ("above_lower_bound", "Above (lower 95 % bound)"),
+    ("share_lower_bound", "Share (lower bound)"),
+    ("year", "Year"),
+    ("pairs", "Pairs"),
+    ("slope", "Slope"),
+    ("intercept", "Intercept"),
+    ("r", "r"),
+    ("mantel_p", "Mantel p"),
+    ("permutations", "Permutations"),
+    ("population", "Population"),
+    ("metric", "Metric"),
+    ("year_start", "From"),
+    ("year_end", "To"),
+    ("loci", "Loci"),
+    ("zeros", "Zero changes"),
+    ("w_plus", "W+"),
+    ("w_minus", "W−"),
+    ("p_method", "p from"),
+    ("p_value", "p"),
+    ("mean_change", "Mean change"),
+    ("change_low", "95 % CI low"),
+    ("change_high", "95 % CI high"),
+    ("replicates", "Bootstrap replicates"),
+];
+
+/// [`generic`] with the readable headings of [`READABLE_HEADINGS`] (other columns keep their
+/// contract names, spaced at underscores), for tables shown in the body.
+pub fn readable(rows: &Rows<'_>) -> TableData {
+    let mut data = generic(rows);
+    for (heading, column) in data.columns.iter_mut().zip(&rows.table().columns) {
+        *heading = READABLE_HEADINGS
+            .iter()
+            .find(|(name, _)| name == column)
+            .map_or_else(|| column.replace('_', " "), |(_, label)| (*label).to_string());
+    }
+    data
 }
 
 /// One cell of a heat table: its text and, when it is coloured, its shade in [0, 1].
@@ -131,8 +178,12 @@ mod tests {
     #[test]
     fn generic_tables_format_by_column_name_and_align_numbers() {
         let mut table = Table::new(&["population", "year", "he", "ne", "note"]);
-        table.push_row(vec![Cell::text("North #1"), Cell::Int(2019), Cell::Num(0.61234), Cell::Inf, Cell::Null]).unwrap();
-        table.push_row(vec![Cell::text("South"), Cell::Int(2020), Cell::Null, Cell::Num(46.9), Cell::text("x")]).unwrap();
+        table
+            .push_row(vec![Cell::text("North #1"), Cell::Int(2019), Cell::Num(0.61234), Cell::Inf, Cell::Null])
+            .unwrap();
+        table
+            .push_row(vec![Cell::text("South"), Cell::Int(2020), Cell::Null, Cell::Num(46.9), Cell::text("x")])
+            .unwrap();
         let step = popgauge_abi::StepResult {
             id: "x".into(),
             uses: "x".into(),
