@@ -26,9 +26,7 @@
 
 use std::collections::BTreeMap;
 
-use popgauge_abi::{
-    AlleleCode, AssessmentInfo, Cell, GenotypeMatrix, LocusMeta, Params, SampleMeta, Seed, Step, StepContext, Table,
-};
+use popgauge_abi::{AssessmentInfo, Cell, GenotypeMatrix, Params, Seed, Step, StepContext, Table};
 use popgauge_sim::{
     BurnIn, LocusSpec, MarkerModel, MicrosatelliteModel, MigrationSchedule, PopulationSpec, SampleRequest, SampleSet,
     SimError, Simulation, SimulationConfig, SizeSchedule, SnpModel,
@@ -293,36 +291,9 @@ fn simulate_samples(inputs: &PlanInputs, true_ne: usize, replicate: usize) -> Re
         .collect()
 }
 
-/// The sample as a genotype matrix: allele codes 1… in ascending allele order per locus.
+/// The sample as a genotype matrix ([`SampleSet::to_genotype_matrix`]).
 fn matrix_from_sample(set: &SampleSet) -> Result<GenotypeMatrix, PlanError> {
-    let samples: Vec<SampleMeta> = set
-        .individuals
-        .iter()
-        .map(|i| SampleMeta { id: i.sample.clone(), population: i.population.clone(), year: i.year })
-        .collect();
-    let mut loci = Vec::with_capacity(set.loci.len());
-    let mut codes = Vec::with_capacity(2 * samples.len() * set.loci.len());
-    for (l, locus) in set.loci.iter().enumerate() {
-        let alleles: Vec<u16> = {
-            let mut seen: Vec<u16> = set.individuals.iter().filter_map(|i| i.genotype[l]).flatten().collect();
-            seen.sort_unstable();
-            seen.dedup();
-            seen
-        };
-        // Positions are < alleles.len() ≤ 65535 (u16 allele values), so the code fits.
-        let code_of = |allele: u16| AlleleCode(alleles.binary_search(&allele).map_or(0, |p| (p + 1) as u16));
-        for individual in &set.individuals {
-            let [a, b] = individual.genotype[l].map_or([AlleleCode::UNTYPED; 2], |[a, b]| [code_of(a), code_of(b)]);
-            codes.extend([a, b]);
-        }
-        loci.push(LocusMeta {
-            name: locus.name.clone(),
-            alleles: alleles.iter().map(|&a| locus.label(a)).collect(),
-            chromosome: None,
-        });
-    }
-    GenotypeMatrix::new(samples, loci, codes)
-        .map_err(|e| PlanError::Estimator { uses: "(sample)".into(), message: e.to_string() })
+    set.to_genotype_matrix().map_err(|e| PlanError::Estimator { uses: "(sample)".into(), message: e.to_string() })
 }
 
 fn estimate(

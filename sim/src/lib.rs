@@ -54,6 +54,7 @@
 mod cohort;
 mod error;
 mod markers;
+mod matrix;
 mod random;
 mod sample;
 mod schedule;
