@@ -40,8 +40,11 @@ pub struct PopulationSummary {
     pub status: Option<StatusFacts>,
     /// Latest diversity.
     pub diversity: Option<DiversityFacts>,
-    /// He trend in words.
+    /// He trend in words, short (for the status table).
     pub trend: Option<String>,
+    /// The same in a sentence with the data's direction, when the short form is only "no clear
+    /// trend" (too few years for a test).
+    pub trend_detail: Option<String>,
     /// Projected drift over the horizon.
     pub drift: Option<DriftFacts>,
 }
@@ -130,6 +133,7 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
                 status: status_row.map(status_facts),
                 diversity: diversity_row.map(diversity_facts),
                 trend: he_trend(ctx, name),
+                trend_detail: he_trend_detail(ctx, name),
                 drift: status_row.and_then(|r| drift_facts(r, diversity_row)),
             }
         })
@@ -234,6 +238,29 @@ fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
             _ => "no clear trend".into(),
         },
     })
+}
+
+/// For a population whose He series is too short for a test, the direction of the data in a
+/// sentence (the least-squares slope and the number of years), so a reader sees a fall even
+/// where no test can confirm it.
+fn he_trend_detail(ctx: &Context<'_>, population: &str) -> Option<String> {
+    let tests = ctx.results.table(uses::TREND, table::TESTS)?;
+    let row =
+        tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
+    if row.num(col::MK_P).is_some() {
+        return None;
+    }
+    let (low, high) = (row.num(col::OLS_LOW), row.num(col::OLS_HIGH));
+    if low.zip(high).is_some_and(|(low, high)| high < 0.0 || low > 0.0) {
+        return None;
+    }
+    let slope = row.num(col::OLS_SLOPE).filter(|s| s.is_finite() && *s != 0.0)?;
+    let points = row.int(col::POINTS)?;
+    Some(format!(
+        "no clear trend yet — He {} by {} per year over {points} sampling years, too few to tell a trend from chance",
+        if slope < 0.0 { "fell" } else { "rose" },
+        format::maybe(Some(slope.abs()), NumberStyle::Significant(2)),
+    ))
 }
 
 fn status_table(populations: &[PopulationSummary]) -> TableData {
