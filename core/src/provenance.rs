@@ -1,6 +1,7 @@
 //! Provenance: hashing, and the record of what went in, what ran and what came out.
 
 pub mod hash;
+pub mod prov;
 pub mod record;
 pub mod verify;
 
