@@ -220,14 +220,13 @@ fn an_edited_pdf_is_detected() {
     std::fs::write(&path, &edited).unwrap();
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
-    let short = |sha: String| format!("{}…{}", &sha[..8], &sha[60..]);
     let expected = format!(
         "{:<7} {:<36} DIFFERS: the file was changed after the run: SHA-256 {} ({} bytes), recorded {} ({} bytes)",
         "output",
         "assessment.pdf",
-        short(sha256_hex(&edited)),
+        short(&sha256_hex(&edited)),
         edited.len(),
-        short(sha256_hex(&original)),
+        short(&sha256_hex(&original)),
         original.len()
     );
     assert_eq!(line_for(&out.stdout, "output", "assessment.pdf "), expected);
@@ -269,4 +268,54 @@ fn a_missing_plugin_library_is_named_with_its_path() {
         )
     );
     assert!(out.stdout.contains("The steps are not re-run: a plugin library they need is missing or changed\n"), "{}", out.stdout);
+}
+
+/// The short form verify prints for a SHA-256 or a key: first 8 and last 4 hex digits.
+fn short(hex: &str) -> String {
+    format!("{}…{}", &hex[..8], &hex[hex.len() - 4..])
+}
+
+#[test]
+fn a_signed_record_verifies_and_a_changed_one_fails() {
+    let case = assessed();
+    let keys = case.run(&["keygen", "org"]);
+    assert_eq!(keys.code, 0, "{}", keys.stderr);
+    assert_eq!(
+        keys.stdout,
+        "Wrote org.key (private: keep it where only the signer can read it)\nWrote org.pub (public: give it to auditors for `popgauge verify --public-key`)\n"
+    );
+    let again = case.run(&["keygen", "org"]);
+    assert_eq!((again.code, again.stderr.as_str()), (2, "error: org.key exists already\n  help: choose another NAME; an existing key is never replaced\n"));
+    let signed = case.run(&["sign", "case/out", "--key", "org.key"]);
+    assert_eq!(signed.code, 0, "{}", signed.stderr);
+    assert_eq!(signed.stdout, "Signed case/out/provenance.json: case/out/provenance.json.sig\nCheck it with `popgauge verify case/out/provenance.json --public-key PUBLIC_KEY`.\n");
+    let good = verify(&case, &["case/out", "--public-key", "org.pub"]);
+    assert_eq!(good.code, 0, "{}", good.stdout);
+    assert_eq!(line_for(&good.stdout, "record", "signature"), format!("{:<7} {:<36} same", "record", "signature"));
+    let unchecked = verify(&case, &["case/out"]);
+    assert_eq!(unchecked.code, 0);
+    assert!(unchecked.stdout.contains("case/out/provenance.json.sig is present but not checked; give --public-key FILE to check it\n"), "{}", unchecked.stdout);
+
+    let signer: serde_json::Value = serde_json::from_str(&case.read("out/provenance.json.sig")).unwrap();
+    assert_eq!(case.run(&["keygen", "other"]).code, 0);
+    let other = verify(&case, &["case/out", "--public-key", "other.pub"]);
+    assert_eq!(other.code, 1);
+    let line = line_for(&other.stdout, "record", "signature");
+    let expected = format!("{:<7} {:<36} DIFFERS: signed by another key: the signature names key {}, not the given key ", "record", "signature", short(signer["public_key"].as_str().unwrap()));
+    assert!(line.starts_with(&expected), "{line}");
+
+    // The case folder written another way still leads to the same inputs, so only the
+    // signature can tell that the record was changed.
+    edit_json(&case, "out/provenance.json", |p| p["run"]["case_folder"] = serde_json::json!("../../case"));
+    let changed = verify(&case, &["case/out", "--public-key", "org.pub"]);
+    assert_eq!(changed.code, 1, "{}", changed.stdout);
+    assert_eq!(
+        line_for(&changed.stdout, "record", "signature"),
+        format!("{:<7} {:<36} DIFFERS: the signature does not match provenance.json: the record was changed after it was signed", "record", "signature")
+    );
+    assert!(changed.stdout.contains("NOT verified: 1 item(s) differ from the record\n"), "{}", changed.stdout);
+
+    let wrong_kind = verify(&case, &["case/out", "--public-key", "org.key"]);
+    assert_eq!(wrong_kind.code, 2);
+    assert!(wrong_kind.stderr.starts_with("error: org.key: not an ed25519 public key in PEM form ("), "{}", wrong_kind.stderr);
 }

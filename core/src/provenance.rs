@@ -3,6 +3,7 @@
 pub mod hash;
 pub mod prov;
 pub mod record;
+pub mod signature;
 pub mod verify;
 
 pub use record::ProvenanceRecord;

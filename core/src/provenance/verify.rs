@@ -12,7 +12,10 @@ use std::path::{Path, PathBuf};
 
 use popgauge_abi::{Cell, StepResult, Table, format_number};
 
+use ed25519_dalek::VerifyingKey;
+
 use super::prov::ProvDocument;
+use super::signature::{SignatureCheck, check_signature, signature_path};
 use super::hash::{derive_seed, hash_canonical, sha256_hex};
 use super::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
 use crate::engine::run_steps;
@@ -514,4 +517,36 @@ fn compare_outputs(record: &ProvenanceRecord, out_dir: &Path, regenerated: Optio
 /// The default record path inside an output folder.
 pub fn record_in(out_dir: &Path) -> PathBuf {
     out_dir.join("provenance.json")
+}
+
+/// Adds the signature line: the signature beside the record checked against `key`, or, without
+/// a key, a note when the record is signed.
+pub fn add_signature_check(report: &mut VerifyReport, record_path: &Path, key: Option<&VerifyingKey>) {
+    let Some(key) = key else {
+        let path = signature_path(record_path);
+        if path.exists() {
+            report.notes.push(format!("{} is present but not checked; give --public-key FILE to check it", path.display()));
+        }
+        return;
+    };
+    let verdict = match check_signature(record_path, key) {
+        SignatureCheck::Valid { public_key } => {
+            report.notes.push(format!("Signature: valid ed25519 signature by key {}", short(&public_key)));
+            Verdict::Same
+        }
+        SignatureCheck::Missing { path } => {
+            Verdict::Differs(format!("missing: {} not found; the record is not signed (`popgauge sign` signs it)", path.display()))
+        }
+        SignatureCheck::Unreadable { path, message } => Verdict::Differs(format!("{} cannot be read: {message}", path.display())),
+        SignatureCheck::OtherKey { found, expected } => Verdict::Differs(format!(
+            "signed by another key: the signature names key {}, not the given key {}",
+            short(&found),
+            short(&expected)
+        )),
+        SignatureCheck::Mismatch => Verdict::Differs(format!(
+            "the signature does not match {}: the record was changed after it was signed",
+            record_path.file_name().map_or_else(|| record_path.display().to_string(), |n| n.to_string_lossy().into_owned())
+        )),
+    };
+    report.push("record", "signature", verdict);
 }
