@@ -319,3 +319,22 @@ fn a_signed_record_verifies_and_a_changed_one_fails() {
     assert_eq!(wrong_kind.code, 2);
     assert!(wrong_kind.stderr.starts_with("error: org.key: not an ed25519 public key in PEM form ("), "{}", wrong_kind.stderr);
 }
+
+/// The round trip on the demo case: every built-in step, figures and the PDF, with the
+/// output and the data moved to another folder.
+#[test]
+fn the_demo_case_verifies_after_moving() {
+    let case = Case::demo();
+    let run = case.run(&["run", "case", "--operator", "A. Auditor"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let moved = case.root().join("archive");
+    std::fs::create_dir_all(&moved).unwrap();
+    std::fs::rename(case.path().join("out"), moved.join("report")).unwrap();
+    std::fs::rename(case.path(), moved.join("data")).unwrap();
+    let out = verify(&case, &["archive/report/provenance.json", "--data", "archive/data"]);
+    assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
+    let items: Vec<&str> = out.stdout.lines().filter(|l| ["record ", "input ", "step ", "output "].iter().any(|k| l.starts_with(k))).collect();
+    assert!(items.iter().any(|l| l.starts_with("output  assessment.pdf ")), "{}", out.stdout);
+    assert!(items.iter().any(|l| l.starts_with("step    ld (ne-ld) ")), "{}", out.stdout);
+    assert!(items.iter().all(|l| l.ends_with(" same")), "{}", out.stdout);
+}
