@@ -11,6 +11,7 @@ use std::path::{Path, PathBuf};
 use ed25519_dalek::pkcs8::spki::der::pem::LineEnding;
 use ed25519_dalek::pkcs8::{DecodePrivateKey, DecodePublicKey, EncodePrivateKey, EncodePublicKey};
 use ed25519_dalek::{Signature, Signer, SigningKey, Verifier, VerifyingKey};
+use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 use super::hash::sha256_hex;
@@ -19,8 +20,9 @@ use super::hash::sha256_hex;
 pub const SIGNATURE_SCHEMA: &str = "popgauge.signature/1";
 
 /// The signature file beside a record.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
+#[schemars(title = "popgauge signature of a provenance record (provenance.json.sig)")]
 pub struct SignatureFile {
     /// `popgauge.signature/1`.
     pub schema: String,
