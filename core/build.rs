@@ -42,9 +42,9 @@ fn watch_git_state() {
         paths.extend(git_path(&reference));
     }
     // The dirty flag follows edits to the sources the binary is built from.
-    paths.extend(
-        ["src", "../plugins/abi/src", "../plugins/builtin/src", "../sim/src", "../templates"].iter().map(PathBuf::from),
-    );
+    let root = manifest_dir();
+    let sources = ["src", "../plugins/abi/src", "../plugins/builtin/src", "../sim/src", "../templates"];
+    paths.extend(sources.iter().map(|p| root.join(p)));
     for path in paths.iter().filter(|p| p.exists()) {
         println!("cargo:rerun-if-changed={}", path.display());
     }
