@@ -40,7 +40,7 @@ pub fn plugin_library(package: &str) -> PathBuf {
 const MISBEHAVE: &str = "popgauge-test-plugin-misbehave";
 
 /// Copies a plugin library into `CASE/plugins/NAME` and returns its SHA-256.
-fn install(case: &Case, package: &str, name: &str) -> String {
+pub fn install(case: &Case, package: &str, name: &str) -> String {
     let bytes = std::fs::read(plugin_library(package)).expect("read library");
     case.write(&format!("plugins/{name}"), &bytes);
     sha256_hex(&bytes)

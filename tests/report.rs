@@ -277,6 +277,8 @@ fn every_section_renders_from_contract_results() {
             seed: popgauge_abi::Seed(7),
             result_sha256: "f".repeat(64),
             plugin: None,
+            started: "2026-11-30T09:00:00.000Z".into(),
+            ended: "2026-11-30T09:00:00.001Z".into(),
         })
         .collect();
     let file = FileFacts { role: "recipe".into(), path: "case.toml".into(), size: 1, sha256: "a".repeat(64) };

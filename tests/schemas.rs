@@ -23,3 +23,18 @@ fn results_carry_the_contract_keys() {
     let required: Vec<&str> = schema["required"].as_array().unwrap().iter().map(|v| v.as_str().unwrap()).collect();
     assert_eq!(required, vec!["schema", "tool", "assessment", "data", "steps"]);
 }
+
+/// The provenance schema publishes the PROV view with the PROV-JSON members (W3C PROV-JSON
+/// submission, 2013: `prefix`, `entity`, `activity`, `agent` and one member per relation).
+#[test]
+fn the_provenance_schema_publishes_the_prov_view() {
+    let schema: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(repo_root().join("schemas/provenance.schema.json")).unwrap()).unwrap();
+    assert!(schema["required"].as_array().unwrap().iter().any(|v| v == "prov"), "the record requires `prov`");
+    let prov = &schema["$defs"]["ProvDocument"];
+    for member in ["prefix", "entity", "activity", "agent", "used", "wasGeneratedBy", "wasAssociatedWith", "wasAttributedTo", "actedOnBehalfOf"] {
+        assert!(prov["properties"][member].is_object(), "ProvDocument has `{member}`");
+    }
+    for member in ["commit", "target", "rustc"] {
+        assert!(schema["$defs"]["ToolBuild"]["required"].as_array().unwrap().iter().any(|v| v == member), "tool has `{member}`");
+    }
+}

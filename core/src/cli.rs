@@ -1,9 +1,11 @@
 //! The command line: one module per subcommand, each with its clap `Args` and a `run`.
 
 pub mod check;
+pub mod keygen;
 pub mod new;
 pub mod plan;
 pub mod run;
+pub mod sign;
 pub mod steps;
 pub mod verify;
 pub mod typeset;
@@ -56,6 +58,10 @@ pub enum Command {
     Plan(plan::Args),
     /// Check a provenance record: re-hash the inputs, re-run the steps, re-typeset, and say what differs.
     Verify(verify::Args),
+    /// Sign an output folder's provenance record with an organisation's ed25519 key.
+    Sign(sign::Args),
+    /// Make an ed25519 key pair for signing provenance records (NAME.key private, NAME.pub public).
+    Keygen(keygen::Args),
     /// Typeset an output folder's assessment.pdf again after editing assessment.typ.
     Typeset(typeset::Args),
     /// Internal: runs one plugin call in an isolated child process (spawned by popgauge itself).
@@ -75,6 +81,8 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::New(args) => new::run(args),
         Command::Plan(args) => plan::run(args),
         Command::Verify(args) => verify::run(args),
+        Command::Sign(args) => sign::run(args),
+        Command::Keygen(args) => keygen::run(args),
         Command::Typeset(args) => typeset::run(args),
         Command::PluginWorker => Ok(crate::host::worker::serve()),
     }

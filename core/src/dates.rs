@@ -75,6 +75,20 @@ pub fn now_rfc3339() -> String {
     format!("{date}T{:02}:{:02}:{:02}Z", s / 3600, s / 60 % 60, s % 60)
 }
 
+/// The current time as an RFC 3339 UTC timestamp with milliseconds, e.g.
+/// `2026-12-02T10:04:05.123Z`, for events shorter than a second (a step's start and end).
+pub fn now_rfc3339_millis() -> String {
+    let millis = SystemTime::now().duration_since(UNIX_EPOCH).map_or(0, |d| d.as_millis() as i64);
+    rfc3339_millis(millis)
+}
+
+fn rfc3339_millis(millis: i64) -> String {
+    let secs = millis.div_euclid(1000);
+    let date = CivilDate::from_days_since_epoch(secs.div_euclid(86_400));
+    let s = secs.rem_euclid(86_400);
+    format!("{date}T{:02}:{:02}:{:02}.{:03}Z", s / 3600, s / 60 % 60, s % 60, millis.rem_euclid(1000))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -94,5 +108,12 @@ mod tests {
         // 2026-12-02 is day 20 789 of the Unix epoch (count: 56 years incl. 14 leap days + 335).
         assert_eq!(CivilDate::from_days_since_epoch(20_789).to_string(), "2026-12-02");
         assert_eq!(CivilDate::from_days_since_epoch(-1).to_string(), "1969-12-31");
+    }
+
+    #[test]
+    fn formats_milliseconds() {
+        // Day 20 789 (above) plus 10:04:05.007 (hand-computed: 36 245 s).
+        assert_eq!(rfc3339_millis((20_789 * 86_400 + 36_245) * 1000 + 7), "2026-12-02T10:04:05.007Z");
+        assert_eq!(rfc3339_millis(-1), "1969-12-31T23:59:59.999Z");
     }
 }

@@ -9,6 +9,7 @@ use std::collections::{BTreeSet, HashMap};
 use popgauge_abi::{AssessmentInfo, Filter, GenotypeView, Seed, StepContext, StepResult, StepStatus};
 
 use crate::data::LoadedData;
+use crate::dates::now_rfc3339_millis;
 use crate::host::PluginRecord;
 use crate::progress::Progress;
 use crate::provenance::hash::{derive_seed, hash_canonical};
@@ -33,6 +34,10 @@ pub struct StepRun {
     pub result_sha256: String,
     /// The library, hash and descriptor of an external plugin step.
     pub plugin: Option<PluginRecord>,
+    /// When the step started (RFC 3339 UTC, milliseconds); in no hash.
+    pub started: String,
+    /// When it ended.
+    pub ended: String,
 }
 
 const DEFECT_HELP: &str = "this is a defect in the step; report it to its author";
@@ -109,6 +114,7 @@ pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress
             input_findings: &data.findings,
         };
         let descriptor = planned.step.descriptor();
+        let started = now_rfc3339_millis();
         let outcome = planned.step.run(&ctx).map_err(|e| {
             (e.message, "check the step's findings and parameters; a step that cannot run on these data stops the assessment")
         });
@@ -136,6 +142,8 @@ pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress
             seed,
             result_sha256: hash_canonical(&result).unwrap_or_default(),
             plugin: planned.plugin.clone(),
+            started,
+            ended: now_rfc3339_millis(),
         });
         results.push(result);
     }

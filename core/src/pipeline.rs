@@ -9,6 +9,7 @@ use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
+use crate::provenance::prov::ProvDocument;
 use crate::provenance::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
 use crate::provenance::record::{
     AssessmentEntry, FileEntry, PluginEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
@@ -239,9 +240,11 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
             params_sha256: run.params_sha256.clone(),
             seed: run.seed.0,
             result_sha256: run.result_sha256.clone(),
+            started: run.started.clone(),
+            ended: run.ended.clone(),
         })
         .collect();
-    ProvenanceRecord {
+    let mut record = ProvenanceRecord {
         schema: PROVENANCE_SCHEMA.into(),
         tool: ToolBuild::current(),
         assessment: AssessmentEntry {
@@ -255,5 +258,8 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
         inputs: case.data.digests.iter().map(|(file, digest)| file_entry(file, digest)).collect(),
         steps,
         outputs,
-    }
+        prov: ProvDocument::default(),
+    };
+    record.prov = ProvDocument::of(&record);
+    record
 }

@@ -1,4 +1,4 @@
-//! JSON Schemas of the recipe, results and provenance record, generated from the Rust types.
+//! JSON Schemas of the recipe, results, provenance record and its signature, generated from the Rust types.
 //!
 //! `schemas/` in the repository holds these files; a test regenerates them and fails when the
 //! committed copies differ (run it with `POPGAUGE_UPDATE_SCHEMAS=1` to rewrite them).
@@ -6,6 +6,7 @@
 use schemars::schema_for;
 
 use crate::provenance::ProvenanceRecord;
+use crate::provenance::signature::SignatureFile;
 use crate::recipe::raw::RawRecipe;
 use crate::results::ResultsDocument;
 
@@ -16,6 +17,7 @@ pub fn all_schemas() -> Vec<(&'static str, String)> {
         ("recipe.schema.json", pretty(schema_for!(RawRecipe))),
         ("results.schema.json", pretty(schema_for!(ResultsDocument))),
         ("provenance.schema.json", pretty(schema_for!(ProvenanceRecord))),
+        ("signature.schema.json", pretty(schema_for!(SignatureFile))),
         ("plugin-descriptor.schema.json", pretty(schema_for!(popgauge_abi::Descriptor))),
     ]
 }

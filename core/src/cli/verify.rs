@@ -4,7 +4,8 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use super::{EXIT_DIFFERENCES, StderrProgress};
-use crate::provenance::verify::{record_in, verify};
+use crate::provenance::signature::read_public_key;
+use crate::provenance::verify::{add_signature_check, record_in, verify};
 
 /// Arguments of `popgauge verify`.
 #[derive(Debug, clap::Args)]
@@ -15,6 +16,9 @@ pub struct Args {
     /// [default: the case folder recorded relative to the output folder].
     #[arg(long, value_name = "DIR")]
     pub data: Option<PathBuf>,
+    /// Check the record's signature (provenance.json.sig) against this ed25519 public key (PEM).
+    #[arg(long, value_name = "FILE")]
+    pub public_key: Option<PathBuf>,
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
@@ -26,7 +30,10 @@ pub struct Args {
 /// An unreadable record or a case that cannot be loaded at all.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
     let record = if args.provenance.is_dir() { record_in(&args.provenance) } else { args.provenance.clone() };
-    let report = verify(&record, args.data.as_deref(), &mut StderrProgress::new(args.quiet))?;
+    // A bad key file is refused before any work.
+    let key = args.public_key.as_deref().map(read_public_key).transpose()?;
+    let mut report = verify(&record, args.data.as_deref(), &mut StderrProgress::new(args.quiet))?;
+    add_signature_check(&mut report, &record, key.as_ref());
     for note in &report.notes {
         println!("{note}");
     }

@@ -5,6 +5,7 @@ use serde::{Deserialize, Serialize};
 
 use popgauge_abi::{Descriptor, Params};
 
+use super::prov::ProvDocument;
 use crate::host::PluginRecord;
 
 /// Schema identifier written into every record.
@@ -18,8 +19,13 @@ pub struct ToolBuild {
     pub name: String,
     /// Semantic version.
     pub version: String,
-    /// Target triple parts: architecture and operating system.
+    /// The git commit the binary was built from, with `-dirty` when tracked files differed
+    /// from it, or `unknown` (a build without git).
+    pub commit: String,
+    /// Target triple, e.g. `x86_64-unknown-linux-gnu`.
     pub target: String,
+    /// `rustc --version` of the compiler that built it.
+    pub rustc: String,
     /// `release` or `debug`.
     pub profile: String,
 }
@@ -30,7 +36,10 @@ impl ToolBuild {
         ToolBuild {
             name: "popgauge".into(),
             version: env!("CARGO_PKG_VERSION").into(),
-            target: format!("{}-{}", std::env::consts::ARCH, std::env::consts::OS),
+            // Set by core/build.rs.
+            commit: env!("POPGAUGE_BUILD_COMMIT").into(),
+            target: env!("POPGAUGE_BUILD_TARGET").into(),
+            rustc: env!("POPGAUGE_BUILD_RUSTC").into(),
             profile: if cfg!(debug_assertions) { "debug" } else { "release" }.into(),
         }
     }
@@ -73,6 +82,11 @@ pub struct StepEntry {
     pub seed: u64,
     /// SHA-256 of the step's canonical result (its entry in results.json).
     pub result_sha256: String,
+    /// When the step started, RFC 3339 UTC with milliseconds (not part of any hash; verify
+    /// ignores it).
+    pub started: String,
+    /// When the step ended, likewise.
+    pub ended: String,
 }
 
 /// An external plugin library as it was loaded for a step.
@@ -152,4 +166,7 @@ pub struct ProvenanceRecord {
     pub steps: Vec<StepEntry>,
     /// Every output file except this record.
     pub outputs: Vec<FileEntry>,
+    /// The same facts in W3C PROV terms (PROV-JSON), derived from the members above by
+    /// [`ProvDocument::of`]; verify checks that it still follows from them.
+    pub prov: ProvDocument,
 }

@@ -10,8 +10,12 @@
 use std::fmt;
 use std::path::{Path, PathBuf};
 
-use popgauge_abi::{Cell, Descriptor, StepResult, Table, format_number};
+use popgauge_abi::{Cell, StepResult, Table, format_number};
 
+use ed25519_dalek::VerifyingKey;
+
+use super::prov::ProvDocument;
+use super::signature::{SignatureCheck, check_signature, signature_path};
 use super::hash::{derive_seed, hash_canonical, sha256_hex};
 use super::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
 use crate::engine::run_steps;
@@ -62,7 +66,7 @@ pub enum Verdict {
 /// One line of the verification table.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Item {
-    /// `input`, `step`, `output` or `record`.
+    /// `input`, `plugin`, `step`, `output` or `record`.
     pub kind: &'static str,
     /// What the item is (a path, a step id).
     pub name: String,
@@ -113,7 +117,13 @@ pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progre
     let mut report = VerifyReport::default();
     report.notes.extend(tool_notes(&record.tool));
     report.notes.push(format!("Inputs from {}", case_dir.display()));
+    check_prov(&record, &mut report);
     check_inputs(&record, &case_dir, &mut report);
+    if !check_plugins(&record, &case_dir, &mut report) {
+        report.notes.push("The steps are not re-run: a plugin library they need is missing or changed".into());
+        compare_outputs(&record, &out_dir, None, &mut report);
+        return Ok(report);
+    }
     let case = load_case(&case_dir, true).map_err(|e| VerifyError::Case { case: case_dir.display().to_string(), source: Box::new(e) })?;
     let recomputed = rerun(&record, case, &mut report, progress);
     let on_disk = read_results(&out_dir);
@@ -145,15 +155,123 @@ fn read_record(path: &Path) -> Result<ProvenanceRecord, VerifyError> {
 }
 
 fn tool_notes(recorded: &ToolBuild) -> Vec<String> {
-    let current = ToolBuild::current();
-    let mut notes = vec![format!("Record made by popgauge {} ({}, {})", recorded.version, recorded.target, recorded.profile)];
-    if recorded.version != current.version || recorded.target != current.target {
-        notes.push(format!(
-            "Note: this is popgauge {} ({}); results may differ where the methods changed between versions",
-            current.version, current.target
-        ));
+    let mut notes = vec![format!("Record made by {}", describe_build(recorded))];
+    if let Some(note) = build_difference(recorded, &ToolBuild::current()) {
+        notes.push(note);
     }
     notes
+}
+
+fn describe_build(tool: &ToolBuild) -> String {
+    format!("{} {} (commit {}, {}, {}, {})", tool.name, tool.version, tool.commit, tool.target, tool.rustc, tool.profile)
+}
+
+/// A plain note when the running build is not the one that made the record; not a difference
+/// by itself (the step and output lines say whether the results changed).
+fn build_difference(recorded: &ToolBuild, running: &ToolBuild) -> Option<String> {
+    let facts = [
+        ("version", &recorded.version, &running.version),
+        ("commit", &recorded.commit, &running.commit),
+        ("target", &recorded.target, &running.target),
+        ("compiler", &recorded.rustc, &running.rustc),
+        ("profile", &recorded.profile, &running.profile),
+    ];
+    let differing: Vec<String> = facts
+        .iter()
+        .filter(|(_, a, b)| a != b)
+        .map(|(what, a, b)| format!("{what} (recorded {a}, running {b})"))
+        .collect();
+    (!differing.is_empty()).then(|| {
+        format!(
+            "Note: this popgauge is another build than the one that made the record: {}; where a result differs, the tool may be the cause",
+            differing.join(", ")
+        )
+    })
+}
+
+/// Whether the record's PROV view still follows from the rest of the record.
+fn check_prov(record: &ProvenanceRecord, report: &mut VerifyReport) {
+    let derived = ProvDocument::of(record);
+    let verdict = if derived == record.prov {
+        Verdict::Same
+    } else {
+        let where_ = first_json_difference(&serde_json::to_value(&record.prov).ok(), &serde_json::to_value(&derived).ok());
+        Verdict::Differs(format!("the PROV view does not follow from the rest of the record (first at {where_}); one of them was edited"))
+    };
+    report.push("record", "prov", verdict);
+}
+
+/// The path of the first member where two JSON values differ, e.g. `entity/popgauge:run`.
+fn first_json_difference(a: &Option<serde_json::Value>, b: &Option<serde_json::Value>) -> String {
+    use serde_json::Value;
+    fn walk(a: &Value, b: &Value, path: &mut Vec<String>) -> bool {
+        match (a, b) {
+            (Value::Object(x), Value::Object(y)) => {
+                let keys: std::collections::BTreeSet<&String> = x.keys().chain(y.keys()).collect();
+                for key in keys {
+                    path.push(key.clone());
+                    match (x.get(key), y.get(key)) {
+                        (Some(u), Some(v)) if walk(u, v, path) => return true,
+                        (Some(_), Some(_)) => {}
+                        _ => return true,
+                    }
+                    path.pop();
+                }
+                false
+            }
+            _ => a != b,
+        }
+    }
+    let mut path = Vec::new();
+    match (a, b) {
+        (Some(a), Some(b)) if walk(a, b, &mut path) => path.join("/"),
+        _ => "the top level".into(),
+    }
+}
+
+/// Each external plugin library the record names: present with the recorded hash, or not.
+/// Returns false when any is missing or changed, since the steps cannot then be re-run.
+fn check_plugins(record: &ProvenanceRecord, case_dir: &Path, report: &mut VerifyReport) -> bool {
+    let mut usable = true;
+    for (step, plugin) in record.steps.iter().filter_map(|s| s.plugin.as_ref().map(|p| (s, p))) {
+        let path = case_dir.join(&plugin.path);
+        let shown = lexically_normal(&path);
+        let verdict = match std::fs::read(&path) {
+            Err(e) => Verdict::Differs(format!(
+                "missing: the plugin library {} cannot be read ({e}); step \"{}\" cannot be re-run without it",
+                shown.display(),
+                step.id
+            )),
+            Ok(bytes) => {
+                let sha = sha256_hex(&bytes);
+                if sha == plugin.sha256 {
+                    Verdict::Same
+                } else {
+                    Verdict::Differs(format!("library changed: {} has SHA-256 {}, recorded {}", shown.display(), short(&sha), short(&plugin.sha256)))
+                }
+            }
+        };
+        usable &= verdict == Verdict::Same;
+        report.push("plugin", &plugin.path, verdict);
+    }
+    usable
+}
+
+/// `a/b/../c` as `a/c`, so a path shown to the user reads as the file it names (for display
+/// only: with links, the lexical path may name another file).
+fn lexically_normal(path: &Path) -> PathBuf {
+    use std::path::Component;
+    let mut parts: Vec<Component<'_>> = Vec::new();
+    for component in path.components() {
+        match component {
+            Component::CurDir => {}
+            Component::ParentDir if matches!(parts.last(), Some(Component::Normal(_))) => {
+                parts.pop();
+            }
+            other => parts.push(other),
+        }
+    }
+    if parts.is_empty() { PathBuf::from(".") } else { parts.iter().collect() }
 }
 
 fn check_inputs(record: &ProvenanceRecord, case_dir: &Path, report: &mut VerifyReport) {
@@ -202,7 +320,7 @@ fn rerun(
     for planned in &mut case.recipe.steps {
         let Some(entry) = record.steps.iter().find(|e| e.id == planned.id) else { continue };
         let descriptor = planned.step.descriptor();
-        if let Some(problem) = recorded_params_problem(entry, &descriptor) {
+        if let Some(problem) = recorded_params_problem(entry, &planned.uses) {
             report.push("record", format!("{} parameters", entry.id), Verdict::Differs(problem));
         }
         match descriptor.resolve(&entry.params) {
@@ -222,13 +340,14 @@ fn rerun(
     }
 }
 
-fn recorded_params_problem(entry: &StepEntry, descriptor: &Descriptor) -> Option<String> {
+/// `uses` is the recipe's (for a plugin step `plugin:PATH`, as the record stores it).
+fn recorded_params_problem(entry: &StepEntry, uses: &str) -> Option<String> {
     let hash = hash_canonical(&entry.params).unwrap_or_default();
     if hash != entry.params_sha256 {
         return Some(format!("parameter changed: the recorded parameters hash to {} but the record says {}", short(&hash), short(&entry.params_sha256)));
     }
-    if descriptor.uses != entry.uses {
-        return Some(format!("step uses \"{}\" in the recipe but \"{}\" in the record", descriptor.uses, entry.uses));
+    if uses != entry.uses {
+        return Some(format!("step uses \"{uses}\" in the recipe but \"{}\" in the record", entry.uses));
     }
     None
 }
@@ -398,4 +517,36 @@ fn compare_outputs(record: &ProvenanceRecord, out_dir: &Path, regenerated: Optio
 /// The default record path inside an output folder.
 pub fn record_in(out_dir: &Path) -> PathBuf {
     out_dir.join("provenance.json")
+}
+
+/// Adds the signature line: the signature beside the record checked against `key`, or, without
+/// a key, a note when the record is signed.
+pub fn add_signature_check(report: &mut VerifyReport, record_path: &Path, key: Option<&VerifyingKey>) {
+    let Some(key) = key else {
+        let path = signature_path(record_path);
+        if path.exists() {
+            report.notes.push(format!("{} is present but not checked; give --public-key FILE to check it", path.display()));
+        }
+        return;
+    };
+    let verdict = match check_signature(record_path, key) {
+        SignatureCheck::Valid { public_key } => {
+            report.notes.push(format!("Signature: valid ed25519 signature by key {}", short(&public_key)));
+            Verdict::Same
+        }
+        SignatureCheck::Missing { path } => {
+            Verdict::Differs(format!("missing: {} not found; the record is not signed (`popgauge sign` signs it)", path.display()))
+        }
+        SignatureCheck::Unreadable { path, message } => Verdict::Differs(format!("{} cannot be read: {message}", path.display())),
+        SignatureCheck::OtherKey { found, expected } => Verdict::Differs(format!(
+            "signed by another key: the signature names key {}, not the given key {}",
+            short(&found),
+            short(&expected)
+        )),
+        SignatureCheck::Mismatch => Verdict::Differs(format!(
+            "the signature does not match {}: the record was changed after it was signed",
+            record_path.file_name().map_or_else(|| record_path.display().to_string(), |n| n.to_string_lossy().into_owned())
+        )),
+    };
+    report.push("record", "signature", verdict);
 }
