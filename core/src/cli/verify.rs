@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use super::{EXIT_DIFFERENCES, StderrProgress};
+use super::{EXIT_DIFFERENCES, StderrProgress, configure_threads};
 use crate::provenance::verify::{record_in, verify};
 
 /// Arguments of `popgauge verify`.
@@ -18,6 +18,9 @@ pub struct Args {
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Worker threads for the estimators [default: one per core]; results are the same for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<std::num::NonZeroUsize>,
 }
 
 /// Verifies and prints one line per input, step and output.
@@ -25,6 +28,7 @@ pub struct Args {
 /// # Errors
 /// An unreadable record or a case that cannot be loaded at all.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    configure_threads(args.threads)?;
     let record = if args.provenance.is_dir() { record_in(&args.provenance) } else { args.provenance.clone() };
     let report = verify(&record, args.data.as_deref(), &mut StderrProgress::new(args.quiet))?;
     for note in &report.notes {
