@@ -31,14 +31,17 @@ fn demo_as_vcf(case: &Case, chromosome: &dyn Fn(usize) -> String) -> (String, St
     let text = case.read("genotypes.csv");
     let mut reader = csv::Reader::from_reader(text.as_bytes());
     let header: Vec<String> = reader.headers().expect("header").iter().map(str::to_string).collect();
-    let mut rows: Vec<Vec<String>> = reader.records().map(|r| r.expect("row").iter().map(str::to_string).collect()).collect();
+    let mut rows: Vec<Vec<String>> =
+        reader.records().map(|r| r.expect("row").iter().map(str::to_string).collect()).collect();
     let meta = ["sample", "population", "year", "notes"];
     let loci: Vec<usize> = (0..header.len()).filter(|&i| !meta.contains(&header[i].as_str())).collect();
     let mut sheet = String::from("sample,population,year\n");
     for row in &rows {
         sheet.push_str(&format!("{},{},{}\n", row[0], row[1], row[2]));
     }
-    let mut vcf = String::from("##fileformat=VCFv4.3\n##FORMAT=<ID=GT,Number=1,Type=String,Description=\"Genotype\">\n#CHROM\tPOS\tID\tREF\tALT\tQUAL\tFILTER\tINFO\tFORMAT");
+    let mut vcf = String::from(
+        "##fileformat=VCFv4.3\n##FORMAT=<ID=GT,Number=1,Type=String,Description=\"Genotype\">\n#CHROM\tPOS\tID\tREF\tALT\tQUAL\tFILTER\tINFO\tFORMAT",
+    );
     for row in &rows {
         vcf.push_str(&format!("\t{}", row[0]));
     }
@@ -62,7 +65,14 @@ fn demo_as_vcf(case: &Case, chromosome: &dyn Fn(usize) -> String) -> (String, St
         }
         let alleles: Vec<String> = (0..index.len().max(1)).map(sequence).collect();
         let alt = if alleles.len() > 1 { alleles[1..].join(",") } else { ".".to_string() };
-        vcf.push_str(&format!("{}\t{}\t{}\t{}\t{alt}\t.\tPASS\t.\tGT\t{}\n", chromosome(n), 1000 * (n + 1), header[column], alleles[0], calls.join("\t")));
+        vcf.push_str(&format!(
+            "{}\t{}\t{}\t{}\t{alt}\t.\tPASS\t.\tGT\t{}\n",
+            chromosome(n),
+            1000 * (n + 1),
+            header[column],
+            alleles[0],
+            calls.join("\t")
+        ));
     }
     let mut wide = csv::Writer::from_writer(Vec::new());
     wide.write_record(&header).expect("header");
@@ -77,7 +87,9 @@ fn demo_vcf_case(chromosome: &dyn Fn(usize) -> String) -> Case {
     let case = Case::demo();
     let (vcf, sheet, _) = demo_as_vcf(&case, chromosome);
     case.write("calls.vcf", vcf).write("samples.csv", sheet);
-    let recipe = case.read("case.toml").replace("genotypes = \"genotypes.csv\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
+    let recipe = case
+        .read("case.toml")
+        .replace("genotypes = \"genotypes.csv\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
     case.write("case.toml", recipe);
     case
 }
@@ -142,7 +154,12 @@ fn ne_ld_skips_pairs_on_the_same_chromosome_from_vcf() {
     run_ok(&case, &["run", "case", "--quiet"]);
     let doc = results(&case);
     let ld = doc["steps"].as_array().unwrap().iter().find(|s| s["uses"] == "ne-ld").expect("ne-ld step");
-    let skipped = ld["findings"].as_array().unwrap().iter().find(|f| f["code"] == "same-chromosome-pairs-skipped").expect("skip finding");
+    let skipped = ld["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["code"] == "same-chromosome-pairs-skipped")
+        .expect("skip finding");
     assert!(skipped["message"].as_str().unwrap().contains("30 pairs"), "{}", skipped["message"]);
 }
 
@@ -174,7 +191,9 @@ fn check_reports_vcf_findings() {
     let case = Case::fixture("minimal");
     case.write("calls.vcf", SMALL_VCF);
     case.write("samples.csv", "sample,population,year\na1,North,2020\na2,North,2020\na3,North,2020\na4,North,2020\nb1,South,2020\nb2,South,2020\nb3,South,2020\nb4,South,2020\nb5,South,2020\n");
-    let recipe = case.read("case.toml").replace("genotypes = \"genotypes.csv\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
+    let recipe = case
+        .read("case.toml")
+        .replace("genotypes = \"genotypes.csv\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
     case.write("case.toml", recipe);
     let check = case.run(&["check", "case"]);
     assert_eq!(check.code, 0, "{}", check.stderr);
@@ -190,7 +209,10 @@ fn check_reports_vcf_findings() {
     let doc = results(&case);
     let findings = doc["data"]["findings"].as_array().unwrap();
     let filtered = findings.iter().find(|f| f["code"] == "filtered-records").expect("FILTER finding");
-    assert_eq!(filtered["message"], "calls.vcf: 1 record(s) not read because of their FILTER value (LowQual ×1); accepted: PASS, . (accept_filters)");
+    assert_eq!(
+        filtered["message"],
+        "calls.vcf: 1 record(s) not read because of their FILTER value (LowQual ×1); accepted: PASS, . (accept_filters)"
+    );
     let loci = doc["steps"][0]["tables"]["loci"].clone();
     let alleles = loci["columns"].as_array().unwrap().iter().position(|c| c == "alleles").unwrap();
     let counts: Vec<&serde_json::Value> = loci["rows"].as_array().unwrap().iter().map(|r| &r[alleles]).collect();
@@ -207,15 +229,21 @@ fn vcf_errors_name_the_place_and_the_fix() {
     case.write("case.toml", recipe);
     let check = case.run(&["check", "case"]);
     assert_eq!(check.code, 2);
-    assert_eq!(check.stderr, "error: case.toml:11:7: `vcf` needs a sample sheet that gives each sample's population and year\n  help: add `samples = \"samples.csv\"` (columns sample, population, year)\n");
+    assert_eq!(
+        check.stderr,
+        "error: case.toml:11:7: `vcf` needs a sample sheet that gives each sample's population and year\n  help: add `samples = \"samples.csv\"` (columns sample, population, year)\n"
+    );
 
-    let body: String = (1..=2000).map(|i| format!("1\t{i}\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\t0/1\t0/0\t0/1\t0/0\t1/1\t0/0\n")).collect();
+    let body: String = (1..=2000)
+        .map(|i| format!("1\t{i}\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\t0/1\t0/0\t0/1\t0/0\t1/1\t0/0\n"))
+        .collect();
     let mut writer = noodles_bgzf::io::Writer::new(Vec::new());
     writer.write_all(format!("{SMALL_VCF}{body}").as_bytes()).expect("compress");
     let bytes = writer.finish().expect("finish");
     case.write("calls.vcf", &bytes[..bytes.len() - 28 - 100]);
     case.write("samples.csv", "sample,population,year\na1,North,2020\nb1,South,2020\n");
-    let recipe = case.read("case.toml").replace("vcf = \"calls.vcf\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
+    let recipe =
+        case.read("case.toml").replace("vcf = \"calls.vcf\"", "vcf = \"calls.vcf\"\nsamples = \"samples.csv\"");
     case.write("case.toml", recipe);
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2, "{}", run.stderr);

@@ -58,16 +58,26 @@ mod tests {
 
     #[test]
     fn reads_rows_and_ignores_other_columns() {
-        let sheet = read_sample_sheet(b"sample,notes,population,year\ns1,x,North,2020\ns2,,South,2021\n", "samples.csv").unwrap();
+        let sheet =
+            read_sample_sheet(b"sample,notes,population,year\ns1,x,North,2020\ns2,,South,2021\n", "samples.csv")
+                .unwrap();
         assert_eq!(sheet.samples.len(), 2);
-        assert_eq!(sheet.samples[sheet.index["s2"]], SampleMeta { id: "s2".into(), population: "South".into(), year: 2021 });
+        assert_eq!(
+            sheet.samples[sheet.index["s2"]],
+            SampleMeta { id: "s2".into(), population: "South".into(), year: 2021 }
+        );
     }
 
     #[test]
     fn errors_name_file_line_and_fix() {
         let err = read_sample_sheet(b"sample,population\ns1,North\n", "samples.csv").unwrap_err().to_string();
-        assert_eq!(err, "samples.csv: required column `year` not found (columns: sample, population)\n  help: the sample sheet of a VCF file needs the columns sample, population and year; add `year` or fix the header row");
-        let err = read_sample_sheet(b"sample,population,year\ns1,North,2020\ns1,North,2021\n", "samples.csv").unwrap_err().to_string();
+        assert_eq!(
+            err,
+            "samples.csv: required column `year` not found (columns: sample, population)\n  help: the sample sheet of a VCF file needs the columns sample, population and year; add `year` or fix the header row"
+        );
+        let err = read_sample_sheet(b"sample,population,year\ns1,North,2020\ns1,North,2021\n", "samples.csv")
+            .unwrap_err()
+            .to_string();
         assert!(err.starts_with("samples.csv:3: sample id \"s1\" was already used on line 2"), "{err}");
         let err = read_sample_sheet(b"sample,population,year\ns1,North,20x0\n", "samples.csv").unwrap_err().to_string();
         assert!(err.starts_with("samples.csv:2: column `year` has \"20x0\": the year is not a whole number"), "{err}");

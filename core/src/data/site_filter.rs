@@ -85,9 +85,17 @@ impl SiteTally {
             .iter()
             .map(|(reason, sites)| {
                 let (code, rule) = match reason {
-                    SiteDrop::CallRate => ("low-call-rate-sites", format!("typed in fewer than {} of the samples (min_call_rate)", filters.min_call_rate)),
-                    SiteDrop::MinorAlleleFrequency => ("low-maf-sites", format!("minor-allele frequency below {} (min_maf)", filters.min_maf)),
-                    SiteDrop::TooManyAlleles => ("too-many-alleles-sites", format!("more than {} alleles (max_alleles)", filters.max_alleles.unwrap_or(0))),
+                    SiteDrop::CallRate => (
+                        "low-call-rate-sites",
+                        format!("typed in fewer than {} of the samples (min_call_rate)", filters.min_call_rate),
+                    ),
+                    SiteDrop::MinorAlleleFrequency => {
+                        ("low-maf-sites", format!("minor-allele frequency below {} (min_maf)", filters.min_maf))
+                    }
+                    SiteDrop::TooManyAlleles => (
+                        "too-many-alleles-sites",
+                        format!("more than {} alleles (max_alleles)", filters.max_alleles.unwrap_or(0)),
+                    ),
                 };
                 let message = format!("{file}: {} site(s) not read: {rule}: {}", sites.len(), name_list(sites));
                 Finding::info(code, message, Where { file: Some(file.into()), ..Where::default() })
@@ -109,7 +117,11 @@ pub fn name_list(names: &[String]) -> String {
 ///
 /// # Errors
 /// Only if the kept parts no longer form a matrix, which cannot happen for a valid input.
-pub fn filter_matrix(matrix: GenotypeMatrix, filters: &SiteFilters, file: &str) -> Result<(GenotypeMatrix, Vec<Finding>), MatrixError> {
+pub fn filter_matrix(
+    matrix: GenotypeMatrix,
+    filters: &SiteFilters,
+    file: &str,
+) -> Result<(GenotypeMatrix, Vec<Finding>), MatrixError> {
     if *filters == SiteFilters::NONE {
         return Ok((matrix, Vec::new()));
     }
@@ -171,6 +183,9 @@ mod tests {
         let filters = SiteFilters { min_call_rate: 0.9, ..SiteFilters::NONE };
         let findings = tally.findings("calls.vcf", &filters);
         assert_eq!(findings[0].code, "low-call-rate-sites");
-        assert_eq!(findings[0].message, "calls.vcf: 1 site(s) not read: typed in fewer than 0.9 of the samples (min_call_rate): chr1:5");
+        assert_eq!(
+            findings[0].message,
+            "calls.vcf: 1 site(s) not read: typed in fewer than 0.9 of the samples (min_call_rate): chr1:5"
+        );
     }
 }

@@ -72,7 +72,12 @@ pub struct VcfData {
 /// A [`DataError`] naming the file, line and field: unreadable or undecompressable (for
 /// example truncated) data, a header that is not VCF 4.x, a malformed record, no sample shared
 /// with the sheet, no site left, and with `strict` the first bad call.
-pub fn read_vcf(path: &Path, sheet: &SampleSheet, options: &VcfOptions<'_>, progress: &mut dyn Progress) -> Result<VcfData, DataError> {
+pub fn read_vcf(
+    path: &Path,
+    sheet: &SampleSheet,
+    options: &VcfOptions<'_>,
+    progress: &mut dyn Progress,
+) -> Result<VcfData, DataError> {
     let unreadable = |source| DataError::Unreadable { file: options.file.into(), source };
     let file = File::open(path).map_err(unreadable)?;
     let total = file.metadata().map(|m| m.len()).unwrap_or(0);
@@ -132,16 +137,25 @@ fn read_stream<R: BufRead>(
 }
 
 /// Reads and parses the header; returns it with its number of lines.
-fn read_header<R: BufRead>(reader: &mut vcf::io::Reader<R>, file: &str, compressed: bool) -> Result<(vcf::Header, usize), DataError> {
+fn read_header<R: BufRead>(
+    reader: &mut vcf::io::Reader<R>,
+    file: &str,
+    compressed: bool,
+) -> Result<(vcf::Header, usize), DataError> {
     let mut text = String::new();
     if let Err(e) = reader.header_reader().read_to_string(&mut text) {
         return Err(stream_error(file, text.matches('\n').count() + 1, compressed, &e));
     }
     let lines = text.matches('\n').count();
-    let header: vcf::Header = text.parse().map_err(|e: vcf::header::ParseError| DataError::VcfHeader { file: file.into(), problem: e.to_string() })?;
+    let header: vcf::Header = text
+        .parse()
+        .map_err(|e: vcf::header::ParseError| DataError::VcfHeader { file: file.into(), problem: e.to_string() })?;
     if header.file_format().major() != 4 {
         let found = header.file_format();
-        return Err(DataError::VcfHeader { file: file.into(), problem: format!("the file format is VCFv{}.{}; popgauge reads VCF 4.x", found.major(), found.minor()) });
+        return Err(DataError::VcfHeader {
+            file: file.into(),
+            problem: format!("the file format is VCFv{}.{}; popgauge reads VCF 4.x", found.major(), found.minor()),
+        });
     }
     Ok((header, lines))
 }
@@ -176,7 +190,11 @@ struct SampleColumns {
 }
 
 impl SampleColumns {
-    fn match_sheet(header: &vcf::Header, sheet: &SampleSheet, options: &VcfOptions<'_>) -> Result<SampleColumns, DataError> {
+    fn match_sheet(
+        header: &vcf::Header,
+        sheet: &SampleSheet,
+        options: &VcfOptions<'_>,
+    ) -> Result<SampleColumns, DataError> {
         let names: Vec<String> = header.sample_names().iter().cloned().collect();
         let mut matrix_index = Vec::with_capacity(names.len());
         let mut samples = Vec::new();
@@ -194,18 +212,44 @@ impl SampleColumns {
             }
         }
         if samples.is_empty() {
-            return Err(DataError::NoSharedSamples { file: options.file.into(), sheet: options.sheet_file.into(), vcf_samples: names.len(), sheet_samples: sheet.samples.len() });
+            return Err(DataError::NoSharedSamples {
+                file: options.file.into(),
+                sheet: options.sheet_file.into(),
+                vcf_samples: names.len(),
+                sheet_samples: sheet.samples.len(),
+            });
         }
         let in_vcf: HashSet<&str> = names.iter().map(String::as_str).collect();
-        let not_in_vcf: Vec<String> = sheet.samples.iter().filter(|s| !in_vcf.contains(s.id.as_str())).map(|s| s.id.clone()).collect();
+        let not_in_vcf: Vec<String> =
+            sheet.samples.iter().filter(|s| !in_vcf.contains(s.id.as_str())).map(|s| s.id.clone()).collect();
         let mut findings = Vec::new();
         if !not_in_sheet.is_empty() {
-            let message = format!("{}: {} sample(s) have no row in {} and are not read: {}", options.file, not_in_sheet.len(), options.sheet_file, name_list(&not_in_sheet));
-            findings.push(Finding::warning("sample-not-in-sheet", message, Where { file: Some(options.sheet_file.into()), ..Where::default() }));
+            let message = format!(
+                "{}: {} sample(s) have no row in {} and are not read: {}",
+                options.file,
+                not_in_sheet.len(),
+                options.sheet_file,
+                name_list(&not_in_sheet)
+            );
+            findings.push(Finding::warning(
+                "sample-not-in-sheet",
+                message,
+                Where { file: Some(options.sheet_file.into()), ..Where::default() },
+            ));
         }
         if !not_in_vcf.is_empty() {
-            let message = format!("{}: {} sample(s) listed in the sheet are not in {}: {}", options.sheet_file, not_in_vcf.len(), options.file, name_list(&not_in_vcf));
-            findings.push(Finding::warning("sample-not-in-vcf", message, Where { file: Some(options.sheet_file.into()), ..Where::default() }));
+            let message = format!(
+                "{}: {} sample(s) listed in the sheet are not in {}: {}",
+                options.sheet_file,
+                not_in_vcf.len(),
+                options.file,
+                name_list(&not_in_vcf)
+            );
+            findings.push(Finding::warning(
+                "sample-not-in-vcf",
+                message,
+                Where { file: Some(options.sheet_file.into()), ..Where::default() },
+            ));
         }
         Ok(SampleColumns { matrix_index, names, samples, findings })
     }
@@ -326,7 +370,12 @@ impl<'a> MatrixBuilder<'a> {
     }
 
     fn record_error(&self, line: usize, field: &str, problem: String, help: &str) -> DataError {
-        DataError::VcfRecord { at: Location::line(self.options.file, line), field: field.into(), problem, help: help.into() }
+        DataError::VcfRecord {
+            at: Location::line(self.options.file, line),
+            field: field.into(),
+            problem,
+            help: help.into(),
+        }
     }
 
     fn add_record(&mut self, record: &vcf::Record, line: usize) -> Result<(), DataError> {
@@ -334,8 +383,22 @@ impl<'a> MatrixBuilder<'a> {
         let chromosome = record.reference_sequence_name();
         let position = match record.variant_start() {
             Some(Ok(p)) => usize::from(p),
-            Some(Err(e)) => return Err(self.record_error(line, "POS", format!("the position cannot be read ({e})"), "POS is a whole number ≥ 1")),
-            None => return Err(self.record_error(line, "POS", "the position is missing (\".\")".into(), "POS is a whole number ≥ 1")),
+            Some(Err(e)) => {
+                return Err(self.record_error(
+                    line,
+                    "POS",
+                    format!("the position cannot be read ({e})"),
+                    "POS is a whole number ≥ 1",
+                ));
+            }
+            None => {
+                return Err(self.record_error(
+                    line,
+                    "POS",
+                    "the position is missing (\".\")".into(),
+                    "POS is a whole number ≥ 1",
+                ));
+            }
         };
         // noodles gives a missing FILTER (".") as an empty field.
         let filter = match record.filters().as_ref() {
@@ -377,7 +440,13 @@ impl<'a> MatrixBuilder<'a> {
         (2..).map(|n| format!("{base}:{n}")).find(|candidate| !self.names.contains(candidate)).unwrap_or(base)
     }
 
-    fn read_calls(&mut self, samples: &vcf::record::Samples<'_>, gt_index: usize, alleles: usize, line: usize) -> Result<(), DataError> {
+    fn read_calls(
+        &mut self,
+        samples: &vcf::record::Samples<'_>,
+        gt_index: usize,
+        alleles: usize,
+        line: usize,
+    ) -> Result<(), DataError> {
         let read = self.columns.samples.len();
         self.calls.clear();
         self.calls.resize(read * 2, 0);
@@ -392,8 +461,14 @@ impl<'a> MatrixBuilder<'a> {
             }
         }
         if columns != self.columns.names.len() {
-            let problem = format!("the record has {columns} sample column(s) but the header names {}", self.columns.names.len());
-            return Err(self.record_error(line, "samples", problem, "every record needs FORMAT and one column per sample of the #CHROM line"));
+            let problem =
+                format!("the record has {columns} sample column(s) but the header names {}", self.columns.names.len());
+            return Err(self.record_error(
+                line,
+                "samples",
+                problem,
+                "every record needs FORMAT and one column per sample of the #CHROM line",
+            ));
         }
         Ok(())
     }
@@ -401,9 +476,15 @@ impl<'a> MatrixBuilder<'a> {
     fn bad_call(&mut self, line: usize, column: usize, text: &str, problem: CallProblem) -> Result<(), DataError> {
         let sample = &self.columns.names[column];
         if self.options.strict {
-            return Err(DataError::BadCell { at: Location::line(self.options.file, line), column: sample.clone(), text: text.into(), problem: problem.describe().into() });
+            return Err(DataError::BadCell {
+                at: Location::line(self.options.file, line),
+                column: sample.clone(),
+                text: text.into(),
+                problem: problem.describe().into(),
+            });
         }
-        let entry = self.bad_calls.by_problem.entry(problem).or_insert_with(|| (0, line, sample.clone(), text.to_string()));
+        let entry =
+            self.bad_calls.by_problem.entry(problem).or_insert_with(|| (0, line, sample.clone(), text.to_string()));
         entry.0 += 1;
         Ok(())
     }
@@ -415,12 +496,27 @@ impl<'a> MatrixBuilder<'a> {
             let total: usize = self.filtered.values().sum();
             let values: Vec<String> = self.filtered.iter().map(|(value, n)| format!("{value} ×{n}")).collect();
             let accepted = self.options.accept_filters.join(", ");
-            let message = format!("{file}: {total} record(s) not read because of their FILTER value ({}); accepted: {accepted} (accept_filters)", values.join(", "));
-            findings.push(Finding::info("filtered-records", message, Where { file: Some(file.into()), ..Where::default() }));
+            let message = format!(
+                "{file}: {total} record(s) not read because of their FILTER value ({}); accepted: {accepted} (accept_filters)",
+                values.join(", ")
+            );
+            findings.push(Finding::info(
+                "filtered-records",
+                message,
+                Where { file: Some(file.into()), ..Where::default() },
+            ));
         }
         if !self.no_gt.is_empty() {
-            let message = format!("{file}: {} record(s) have no GT field and are not read: {}", self.no_gt.len(), name_list(&self.no_gt));
-            findings.push(Finding::warning("no-genotype-field", message, Where { file: Some(file.into()), ..Where::default() }));
+            let message = format!(
+                "{file}: {} record(s) have no GT field and are not read: {}",
+                self.no_gt.len(),
+                name_list(&self.no_gt)
+            );
+            findings.push(Finding::warning(
+                "no-genotype-field",
+                message,
+                Where { file: Some(file.into()), ..Where::default() },
+            ));
         }
         findings.extend(self.sites.findings(file, self.options.sites));
         findings.extend(self.bad_calls.findings(file));

@@ -22,10 +22,21 @@ fn vcf_file(body: &str, bgzip: bool) -> tempfile::NamedTempFile {
     file
 }
 
-fn read_with(file: &tempfile::NamedTempFile, sheet: &[u8], strict: bool, accept: &[&str]) -> Result<VcfData, DataError> {
+fn read_with(
+    file: &tempfile::NamedTempFile,
+    sheet: &[u8],
+    strict: bool,
+    accept: &[&str],
+) -> Result<VcfData, DataError> {
     let sheet = read_sample_sheet(sheet, "samples.csv").unwrap();
     let accept: Vec<String> = accept.iter().map(|s| s.to_string()).collect();
-    let options = VcfOptions { file: "calls.vcf", sheet_file: "samples.csv", accept_filters: &accept, sites: &SiteFilters::NONE, strict };
+    let options = VcfOptions {
+        file: "calls.vcf",
+        sheet_file: "samples.csv",
+        accept_filters: &accept,
+        sites: &SiteFilters::NONE,
+        strict,
+    };
     read_vcf(file.path(), &sheet, &options, &mut Silent)
 }
 
@@ -72,7 +83,10 @@ fn filter_values_other_than_pass_and_dot_are_dropped_with_a_count() {
     let data = read(body).unwrap();
     assert_eq!(data.matrix.loci().len(), 1);
     let finding = data.findings.iter().find(|f| f.code == "filtered-records").unwrap();
-    assert_eq!(finding.message, "calls.vcf: 3 record(s) not read because of their FILTER value (LowQual ×2, LowQual;q10 ×1); accepted: PASS, . (accept_filters)");
+    assert_eq!(
+        finding.message,
+        "calls.vcf: 3 record(s) not read because of their FILTER value (LowQual ×2, LowQual;q10 ×1); accepted: PASS, . (accept_filters)"
+    );
     let accepting = read_with(&vcf_file(body, false), SHEET, false, &["PASS", "LowQual"]).unwrap();
     assert_eq!(accepting.matrix.loci().len(), 3);
 }
@@ -85,27 +99,46 @@ fn haploid_polyploid_and_half_calls_are_findings_or_strict_errors() {
     assert_eq!(codes_of(&data, 0), [0; 6]);
     assert_eq!(codes_of(&data, 1), [0, 0, 0, 0, 1, 2]);
     let haploid = data.findings.iter().find(|f| f.code == "haploid-genotype").unwrap();
-    assert_eq!(haploid.message, "calls.vcf: 2 call(s) with a single allele (popgauge reads diploid calls a/b), treated as untyped (set strict = true to stop instead); the first at line 4, sample S1, GT \"1\"");
+    assert_eq!(
+        haploid.message,
+        "calls.vcf: 2 call(s) with a single allele (popgauge reads diploid calls a/b), treated as untyped (set strict = true to stop instead); the first at line 4, sample S1, GT \"1\""
+    );
     let codes: Vec<&str> = data.findings.iter().map(|f| f.code.as_str()).collect();
     assert_eq!(codes, ["haploid-genotype", "too-many-alleles", "half-missing-genotype", "bad-allele-index"]);
     let err = read_with(&vcf_file(body, false), SHEET, true, &["PASS"]).unwrap_err().to_string();
-    assert_eq!(err, "calls.vcf:4: column `S1`, cell \"1\": a single allele (popgauge reads diploid calls a/b)\n  help: fix the cell, or remove `strict = true` from [data] to treat bad cells as untyped findings");
+    assert_eq!(
+        err,
+        "calls.vcf:4: column `S1`, cell \"1\": a single allele (popgauge reads diploid calls a/b)\n  help: fix the cell, or remove `strict = true` from [data] to treat bad cells as untyped findings"
+    );
 }
 
 #[test]
 fn samples_missing_from_either_side_are_listed() {
     let sheet = b"sample,population,year\nS1,North,2020\nS3,South,2021\nS9,South,2021\n";
-    let data = read_with(&vcf_file("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\n", false), sheet, false, &["PASS"]).unwrap();
+    let data =
+        read_with(&vcf_file("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\n", false), sheet, false, &["PASS"]).unwrap();
     let samples: Vec<&str> = data.matrix.samples().iter().map(|s| s.id.as_str()).collect();
     assert_eq!(samples, ["S1", "S3"]);
     assert_eq!(codes_of(&data, 0), [1, 2, 2, 2]);
     let messages: Vec<&str> = data.findings.iter().map(|f| f.message.as_str()).collect();
-    assert_eq!(messages, [
-        "calls.vcf: 1 sample(s) have no row in samples.csv and are not read: S2",
-        "samples.csv: 1 sample(s) listed in the sheet are not in calls.vcf: S9",
-    ]);
-    let none = read_with(&vcf_file("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\n", false), b"sample,population,year\nX,N,2020\n", false, &["PASS"]);
-    assert!(none.unwrap_err().to_string().starts_with("calls.vcf: none of its 3 samples is listed in samples.csv (1 samples)"));
+    assert_eq!(
+        messages,
+        [
+            "calls.vcf: 1 sample(s) have no row in samples.csv and are not read: S2",
+            "samples.csv: 1 sample(s) listed in the sheet are not in calls.vcf: S9",
+        ]
+    );
+    let none = read_with(
+        &vcf_file("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t1/1\n", false),
+        b"sample,population,year\nX,N,2020\n",
+        false,
+        &["PASS"],
+    );
+    assert!(
+        none.unwrap_err()
+            .to_string()
+            .starts_with("calls.vcf: none of its 3 samples is listed in samples.csv (1 samples)")
+    );
 }
 
 #[test]
@@ -139,8 +172,13 @@ fn a_truncated_bgzip_block_is_a_clean_error() {
 #[test]
 fn malformed_records_name_line_and_field() {
     let err = read("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\n").unwrap_err().to_string();
-    assert_eq!(err, "calls.vcf:4: field samples: the record has 2 sample column(s) but the header names 3\n  help: every record needs FORMAT and one column per sample of the #CHROM line");
-    let err = read("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t0/0\n1\tx\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t0/0\n").unwrap_err().to_string();
+    assert_eq!(
+        err,
+        "calls.vcf:4: field samples: the record has 2 sample column(s) but the header names 3\n  help: every record needs FORMAT and one column per sample of the #CHROM line"
+    );
+    let err = read("1\t1\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t0/0\n1\tx\t.\tA\tG\t.\tPASS\t.\tGT\t0/1\t0/0\t0/0\n")
+        .unwrap_err()
+        .to_string();
     assert!(err.starts_with("calls.vcf:5: field POS: the position cannot be read"), "{err}");
     let err = read("1\t1\t.\tA\n").unwrap_err().to_string();
     assert!(err.starts_with("calls.vcf:4: field line: the line is not a VCF record"), "{err}");
@@ -160,7 +198,13 @@ fn site_filters_drop_sites_while_streaming() {
     let sheet = read_sample_sheet(SHEET, "samples.csv").unwrap();
     let accept = vec!["PASS".to_string()];
     let sites = SiteFilters { min_call_rate: 0.9, min_maf: 0.05, max_alleles: Some(2) };
-    let options = VcfOptions { file: "calls.vcf", sheet_file: "samples.csv", accept_filters: &accept, sites: &sites, strict: false };
+    let options = VcfOptions {
+        file: "calls.vcf",
+        sheet_file: "samples.csv",
+        accept_filters: &accept,
+        sites: &sites,
+        strict: false,
+    };
     let data = read_vcf(vcf_file(body, false).path(), &sheet, &options, &mut Silent).unwrap();
     let names: Vec<&str> = data.matrix.loci().iter().map(|l| l.name.as_str()).collect();
     assert_eq!(names, ["1:1"]);
