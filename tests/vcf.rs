@@ -143,6 +143,9 @@ fn bgzipped_and_plain_vcf_give_identical_results() {
     let record: serde_json::Value = serde_json::from_str(&compressed.read("out/provenance.json")).expect("provenance");
     let roles: Vec<&str> = record["inputs"].as_array().unwrap().iter().map(|i| i["role"].as_str().unwrap()).collect();
     assert_eq!(roles, ["vcf", "samples", "populations"]);
+    let verify = compressed.run(&["verify", "case/out", "--quiet"]);
+    assert_eq!(verify.code, 0, "{}\n{}", verify.stdout, verify.stderr);
+    assert!(verify.stdout.contains("verified: every input, step and output is the same as recorded"), "{}", verify.stdout);
 }
 
 /// METHODS §5 (Waples, Larson & Waples 2016): with CHROM known, `ne-ld` skips pairs of loci on
@@ -170,7 +173,10 @@ fn thread_count_does_not_change_results() {
     let one = Case::demo();
     run_ok(&one, &["run", "case", "--quiet", "--threads", "1"]);
     let two = Case::demo();
-    run_ok(&two, &["run", "case", "--quiet", "--threads", "2"]);
+    let run = two.run(&["run", "case", "--threads", "2"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    // stderr is not a terminal here, so no progress is drawn even without --quiet.
+    assert_eq!(run.stderr, "");
     assert_eq!(one.read("out/results.json"), two.read("out/results.json"));
     let zero = one.run(&["run", "case", "--threads", "0", "--out", "other"]);
     assert_eq!(zero.code, 2, "{}", zero.stderr);
