@@ -34,7 +34,7 @@ pub const DEFAULT_SEED: u64 = 1;
 /// A file the assessment reads.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct InputFile {
-    /// What the file is for (`recipe`, `genotypes`, `populations`).
+    /// What the file is for (`recipe`, `genotypes` or `vcf`, `samples`, `populations`, `template`).
     pub role: String,
     /// The path as written in the recipe (relative to the case folder).
     pub relative: String,

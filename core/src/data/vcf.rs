@@ -13,7 +13,8 @@
 //!
 //! A haploid or polyploid call, a call with one allele missing, or an allele index the record
 //! does not list is treated as untyped and counted in one finding per problem (naming the first
-//! line, sample and call), unless `strict` makes it an error. Calls are diploid only.
+//! line, sample and call), unless `strict` makes it an error. Calls are diploid only. Samples
+//! of the VCF missing from the sheet, and the reverse, are each listed in full in a finding.
 
 use std::collections::{BTreeMap, HashSet};
 use std::fs::File;
@@ -129,7 +130,7 @@ fn read_stream<R: BufRead>(
             Ok(_) => builder.add_record(&record, line)?,
             Err(e) => return Err(stream_error(options.file, line, source.compressed, &e)),
         }
-        if builder.records % PROGRESS_EVERY == 0 {
+        if builder.records.is_multiple_of(PROGRESS_EVERY) {
             source.progress.within(source.watch.counter.load(Ordering::Relaxed), source.watch.total);
         }
     }
@@ -229,7 +230,7 @@ impl SampleColumns {
                 options.file,
                 not_in_sheet.len(),
                 options.sheet_file,
-                name_list(&not_in_sheet)
+                not_in_sheet.join(", ")
             );
             findings.push(Finding::warning(
                 "sample-not-in-sheet",
@@ -243,7 +244,7 @@ impl SampleColumns {
                 options.sheet_file,
                 not_in_vcf.len(),
                 options.file,
-                name_list(&not_in_vcf)
+                not_in_vcf.join(", ")
             );
             findings.push(Finding::warning(
                 "sample-not-in-vcf",
