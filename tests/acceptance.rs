@@ -12,4 +12,5 @@ mod report;
 mod run;
 mod schemas;
 mod support;
+mod vcf;
 mod verify;

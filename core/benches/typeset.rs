@@ -11,7 +11,7 @@ use popgauge::progress::Silent;
 
 fn typeset_demo(c: &mut Criterion) {
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("../demo-case");
-    let case = load_case(&demo, false).expect("the demo case loads");
+    let case = load_case(&demo, false, &mut Silent).expect("the demo case loads");
     let engine = run_steps(&case.recipe, &case.data, &mut Silent).expect("the demo steps run");
     let mut group = c.benchmark_group("report");
     group.sample_size(10);

@@ -4,19 +4,21 @@ pub mod check;
 pub mod keygen;
 pub mod new;
 pub mod plan;
+pub mod reporter;
 pub mod run;
 pub mod sign;
 pub mod steps;
 pub mod verify;
 pub mod typeset;
 
-use std::io::{IsTerminal, Write};
+use std::num::NonZeroUsize;
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
 use crate::pipeline::RunError;
-use crate::progress::Progress;
+
+pub use reporter::StderrProgress;
 
 /// Exit code: success.
 pub const EXIT_OK: u8 = 0;
@@ -96,23 +98,18 @@ pub fn exit_code_for(error: &anyhow::Error) -> ExitCode {
     }
 }
 
-/// Shows stage progress on stderr when it is a terminal and not silenced.
-pub struct StderrProgress {
-    enabled: bool,
-}
-
-impl StderrProgress {
-    /// Shows progress unless `quiet` or stderr is not a terminal.
-    pub fn new(quiet: bool) -> StderrProgress {
-        StderrProgress { enabled: !quiet && std::io::stderr().is_terminal() }
+/// Sets the number of worker threads of the estimators (rayon's global pool); `None` keeps
+/// rayon's default of one per core. Results do not depend on it: every parallel sum is reduced
+/// in a fixed order.
+///
+/// # Errors
+/// When the pool was already configured, which only happens if called twice.
+pub fn configure_threads(threads: Option<NonZeroUsize>) -> anyhow::Result<()> {
+    if let Some(threads) = threads {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads.get())
+            .build_global()
+            .map_err(|e| anyhow::anyhow!("cannot start {threads} worker threads: {e}"))?;
     }
-}
-
-impl Progress for StderrProgress {
-    fn stage(&mut self, index: usize, total: usize, label: &str) {
-        if self.enabled {
-            let mut err = std::io::stderr().lock();
-            let _ = writeln!(err, "[{index}/{total}] {label}");
-        }
-    }
+    Ok(())
 }

@@ -2,14 +2,18 @@
 
 pub mod delimited;
 pub mod populations;
+pub mod sample_sheet;
+pub mod site_filter;
+pub mod vcf;
 pub mod wide_table;
 
 use std::collections::BTreeSet;
 
 use popgauge_abi::{Finding, GenotypeMatrix, PopulationInfo, Where};
 
+use crate::progress::Progress;
 use crate::provenance::hash::{FileDigest, digest_bytes};
-use crate::recipe::{InputFile, Recipe};
+use crate::recipe::{DataSpec, GenotypeFormat, InputFile, Recipe};
 use crate::source::Location;
 
 /// Why a data file cannot be used.
@@ -149,6 +153,62 @@ pub enum DataError {
         /// Locus.
         locus: String,
     },
+    /// The VCF header cannot be parsed or is not VCF 4.x.
+    #[error("{file}: the VCF header cannot be read: {problem}\n  help: a VCF file starts with `##fileformat=VCFv4.x` and header lines, then the `#CHROM POS ID REF ALT QUAL FILTER INFO FORMAT` line naming the samples")]
+    VcfHeader {
+        /// File.
+        file: String,
+        /// The parser's words.
+        problem: String,
+    },
+    /// A VCF record that cannot be read.
+    #[error("{at}: field {field}: {problem}\n  help: {help}")]
+    VcfRecord {
+        /// Where (line of the record).
+        at: Location,
+        /// The field (`POS`, `samples`, …).
+        field: String,
+        /// What is wrong.
+        problem: String,
+        /// How to fix it.
+        help: String,
+    },
+    /// Compressed data that end in the middle of a block.
+    #[error("{at}: the compressed data end in the middle of a block ({message})\n  help: the file is truncated or damaged; copy or export it again (a complete bgzip file ends with an empty end-of-file block)")]
+    Truncated {
+        /// Where (the line being read).
+        at: Location,
+        /// The decompressor's words.
+        message: String,
+    },
+    /// Compressed data that cannot be decompressed.
+    #[error("{at}: the compressed data cannot be read ({message})\n  help: compress the VCF file with bgzip (block gzip), or leave it uncompressed")]
+    Decompress {
+        /// Where (the line being read).
+        at: Location,
+        /// The decompressor's words.
+        message: String,
+    },
+    /// No VCF sample is in the sample sheet.
+    #[error("{file}: none of its {vcf_samples} samples is listed in {sheet} ({sheet_samples} samples)\n  help: the sheet's `sample` column must spell the sample names of the VCF's #CHROM line exactly")]
+    NoSharedSamples {
+        /// VCF file.
+        file: String,
+        /// Sample sheet.
+        sheet: String,
+        /// Samples in the VCF header.
+        vcf_samples: usize,
+        /// Samples in the sheet.
+        sheet_samples: usize,
+    },
+    /// No VCF record was left to read.
+    #[error("{file}: no site is left to read from its {records} record(s)\n  help: check `accept_filters` (FILTER values read; default PASS and .) and the site filters `min_call_rate`, `min_maf`, `max_alleles` in [data]; the findings of `popgauge check` list what was dropped")]
+    NoSites {
+        /// File.
+        file: String,
+        /// Records in the file.
+        records: usize,
+    },
     /// Two rows of the population sheet name the same population.
     #[error("{at}: population \"{population}\" is listed twice in the population sheet (first on line {first_line})\n  help: keep one row per population")]
     DuplicatePopulation {
@@ -174,35 +234,68 @@ pub struct LoadedData {
     pub digests: Vec<(InputFile, FileDigest)>,
 }
 
-/// Reads the genotypes and the population sheet a recipe names.
+/// Reads the genotypes and the population sheet a recipe names, reporting reading progress.
 ///
 /// # Errors
 /// A [`DataError`] naming the file, line and column, with a `help:` line.
-pub fn load_data(recipe: &Recipe) -> Result<LoadedData, DataError> {
+pub fn load_data(recipe: &Recipe, progress: &mut dyn Progress) -> Result<LoadedData, DataError> {
     let spec = &recipe.data;
-    let mut digests = Vec::new();
-    let genotype_bytes = read_file(&spec.genotypes)?;
-    digests.push((spec.genotypes.clone(), digest_bytes(&genotype_bytes)));
-    let options = wide_table::WideOptions {
-        file: &spec.genotypes.relative,
-        missing: &spec.missing,
-        ignore_columns: &spec.ignore_columns,
-        strict: spec.strict,
+    progress.task(&format!("reading {}", spec.genotypes.relative));
+    let (matrix, mut findings, mut digests) = match (&spec.format, &spec.samples) {
+        (GenotypeFormat::Vcf, Some(sheet_file)) => read_vcf_input(spec, sheet_file, progress)?,
+        _ => read_wide_input(spec)?,
     };
-    let genotypes = wide_table::read_wide_table(&genotype_bytes, &options)?;
-    let mut findings = genotypes.findings;
     let populations = match &spec.populations {
         Some(file) => {
             let bytes = read_file(file)?;
             digests.push((file.clone(), digest_bytes(&bytes)));
             let sheet = populations::read_population_sheet(&bytes, &file.relative)?;
             findings.extend(sheet.findings);
-            findings.extend(cross_check(&genotypes.matrix, &sheet.populations, &file.relative));
+            findings.extend(cross_check(&matrix, &sheet.populations, &file.relative));
             sheet.populations
         }
         None => Vec::new(),
     };
-    Ok(LoadedData { matrix: genotypes.matrix, findings, populations, digests })
+    Ok(LoadedData { matrix, findings, populations, digests })
+}
+
+/// The matrix, its findings and the digests of the files read.
+type GenotypeInput = (GenotypeMatrix, Vec<Finding>, Vec<(InputFile, FileDigest)>);
+
+fn read_wide_input(spec: &DataSpec) -> Result<GenotypeInput, DataError> {
+    let bytes = read_file(&spec.genotypes)?;
+    let digests = vec![(spec.genotypes.clone(), digest_bytes(&bytes))];
+    let options = wide_table::WideOptions {
+        file: &spec.genotypes.relative,
+        missing: &spec.missing,
+        ignore_columns: &spec.ignore_columns,
+        strict: spec.strict,
+    };
+    let table = wide_table::read_wide_table(&bytes, &options)?;
+    let mut findings = table.findings;
+    let file = &spec.genotypes.relative;
+    let (matrix, dropped) = site_filter::filter_matrix(table.matrix, &spec.sites, file)
+        .map_err(|e| DataError::Csv { at: Location::file(file), message: format!("internal error: {e}") })?;
+    if matrix.loci().is_empty() {
+        return Err(DataError::NoSites { file: file.clone(), records: 0 });
+    }
+    findings.extend(dropped);
+    Ok((matrix, findings, digests))
+}
+
+fn read_vcf_input(spec: &DataSpec, sheet_file: &InputFile, progress: &mut dyn Progress) -> Result<GenotypeInput, DataError> {
+    let sheet_bytes = read_file(sheet_file)?;
+    let sheet = sample_sheet::read_sample_sheet(&sheet_bytes, &sheet_file.relative)?;
+    let options = vcf::VcfOptions {
+        file: &spec.genotypes.relative,
+        sheet_file: &sheet_file.relative,
+        accept_filters: &spec.accept_filters,
+        sites: &spec.sites,
+        strict: spec.strict,
+    };
+    let data = vcf::read_vcf(&spec.genotypes.path, &sheet, &options, progress)?;
+    let digests = vec![(spec.genotypes.clone(), data.digest), (sheet_file.clone(), digest_bytes(&sheet_bytes))];
+    Ok((data.matrix, data.findings, digests))
 }
 
 fn read_file(file: &InputFile) -> Result<Vec<u8>, DataError> {

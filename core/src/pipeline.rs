@@ -89,17 +89,17 @@ pub struct LoadedCase {
     pub template: Template,
 }
 
-/// Loads and checks a case (recipe and data).
+/// Loads and checks a case (recipe and data), reporting reading progress.
 ///
 /// # Errors
 /// [`RunError::Recipe`] or [`RunError::Data`].
-pub fn load_case(case_dir: &Path, allow_outside: bool) -> Result<LoadedCase, RunError> {
+pub fn load_case(case_dir: &Path, allow_outside: bool, progress: &mut dyn Progress) -> Result<LoadedCase, RunError> {
     let recipe = load_recipe(case_dir, allow_outside)?;
     let recipe_bytes = std::fs::read(&recipe.recipe_file.path).map_err(|source| RecipeError::Unreadable {
         path: recipe.recipe_file.path.display().to_string(),
         source,
     })?;
-    let mut data = load_data(&recipe)?;
+    let mut data = load_data(&recipe, progress)?;
     let template = load_template(&recipe)?;
     data.digests.extend(template_digests(&recipe, &template));
     Ok(LoadedCase { recipe, data, recipe_digest: digest_bytes(&recipe_bytes), template })
@@ -147,15 +147,17 @@ pub fn assessment_fingerprint(case: &LoadedCase, engine: &EngineOutput) -> Strin
 pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progress) -> Result<RunSummary, RunError> {
     let started = now_rfc3339();
     let out = options.out.clone().unwrap_or_else(|| case_dir.join("out"));
-    let case = load_case(case_dir, options.allow_outside)?;
+    let case = load_case(case_dir, options.allow_outside, progress)?;
     let input_paths: Vec<&Path> = case.recipe.input_files().iter().map(|f| f.path.as_path()).collect();
     check_target(&out, options.force, case_dir, &input_paths)?;
     let engine = run_steps(&case.recipe, &case.data, progress)?;
+    progress.task("typesetting the assessment");
     let (results, mut files) = render_outputs(&case, &engine)?;
     let case_folder = relative_path(&absolute_path(&out), &absolute_path(case_dir));
     let provenance = provenance_record(&case, &engine, &files, RunFacts { started, case_folder, operator: options.operator.clone() });
     files.push(("provenance.json".into(), pretty_json(&provenance)));
     write_folder(&out, &files, options.force)?;
+    progress.finish();
     Ok(RunSummary { out, results, provenance })
 }
 

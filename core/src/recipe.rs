@@ -34,7 +34,7 @@ pub const DEFAULT_SEED: u64 = 1;
 /// A file the assessment reads.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct InputFile {
-    /// What the file is for (`recipe`, `genotypes`, `populations`).
+    /// What the file is for (`recipe`, `genotypes` or `vcf`, `samples`, `populations`, `template`).
     pub role: String,
     /// The path as written in the recipe (relative to the case folder).
     pub relative: String,
@@ -42,11 +42,47 @@ pub struct InputFile {
     pub path: PathBuf,
 }
 
+/// How the genotype file is written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum GenotypeFormat {
+    /// The wide table (`[data] genotypes`).
+    Wide,
+    /// A VCF file with a sample sheet (`[data] vcf` and `samples`).
+    Vcf,
+}
+
+/// Site filters applied while reading (`[data] min_call_rate`, `min_maf`, `max_alleles`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SiteFilters {
+    /// Smallest share of samples typed at a site (0 keeps every site).
+    pub min_call_rate: f64,
+    /// Smallest frequency of the second most common allele (0 keeps every site).
+    pub min_maf: f64,
+    /// Largest number of distinct alleles observed at a site.
+    pub max_alleles: Option<usize>,
+}
+
+impl SiteFilters {
+    /// No filtering.
+    pub const NONE: SiteFilters = SiteFilters { min_call_rate: 0.0, min_maf: 0.0, max_alleles: None };
+}
+
+/// FILTER values of VCF records read unless the recipe says otherwise.
+pub const DEFAULT_ACCEPT_FILTERS: [&str; 2] = ["PASS", "."];
+
 /// The `[data]` section, resolved.
 #[derive(Debug, Clone)]
 pub struct DataSpec {
-    /// The wide genotype table.
+    /// The genotype file: the wide table, or the VCF file.
     pub genotypes: InputFile,
+    /// How `genotypes` is written.
+    pub format: GenotypeFormat,
+    /// The sample sheet (`sample,population,year`) of a VCF file.
+    pub samples: Option<InputFile>,
+    /// FILTER values of VCF records to read.
+    pub accept_filters: Vec<String>,
+    /// Sites dropped while reading.
+    pub sites: SiteFilters,
     /// The optional population sheet.
     pub populations: Option<InputFile>,
     /// Cell spellings that mean "not typed".
@@ -128,9 +164,11 @@ pub struct Recipe {
 }
 
 impl Recipe {
-    /// Every input file: the recipe, the genotypes and the population sheet when given.
+    /// Every input file: the recipe, the genotypes, the sample sheet of a VCF file and the
+    /// population sheet when given.
     pub fn input_files(&self) -> Vec<&InputFile> {
         let mut files = vec![&self.recipe_file, &self.data.genotypes];
+        files.extend(self.data.samples.as_ref());
         files.extend(self.data.populations.as_ref());
         files
     }

@@ -5,7 +5,9 @@ use std::process::ExitCode;
 
 use popgauge_abi::FindingLevel;
 
+use super::StderrProgress;
 use crate::pipeline::load_case;
+use crate::progress::Progress;
 
 /// Arguments of `popgauge check`.
 #[derive(Debug, clap::Args)]
@@ -15,6 +17,9 @@ pub struct Args {
     /// Let data paths in the recipe point outside the case folder.
     #[arg(long)]
     pub allow_outside: bool,
+    /// Show no progress.
+    #[arg(long, short)]
+    pub quiet: bool,
 }
 
 /// Loads the recipe and data and prints what was found.
@@ -22,7 +27,9 @@ pub struct Args {
 /// # Errors
 /// Recipe and data errors, each naming file, line and fix.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
-    let case = load_case(&args.case, args.allow_outside)?;
+    let mut progress = StderrProgress::new(args.quiet);
+    let case = load_case(&args.case, args.allow_outside, &mut progress)?;
+    progress.finish();
     let matrix = &case.data.matrix;
     let samples = matrix.all_sample_indices();
     let loci = matrix.all_locus_indices();

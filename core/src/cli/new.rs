@@ -31,6 +31,14 @@ populations = "populations.csv"          # optional: population, label, census_s
 missing = ["", "NA", "./."]              # cell spellings that mean "not typed"
 ignore_columns = []                      # columns that are neither metadata nor loci, e.g. ["sex", "notes"]
 # strict = true                          # stop at the first malformed genotype cell instead of reporting it
+# For a VCF file, replace `genotypes` with:
+# vcf = "calls.vcf.gz"                   # VCF 4.x, plain or bgzipped; GT only, diploid
+# samples = "samples.csv"                # sample sheet: sample, population, year
+# accept_filters = ["PASS", "."]         # FILTER values of records to read
+# Site filters (VCF and wide table alike), applied while reading:
+# min_call_rate = 0.8                    # read sites typed in at least 80 % of samples
+# min_maf = 0.05                         # read sites whose minor allele has frequency ≥ 0.05
+# max_alleles = 2                        # read sites with at most 2 alleles
 
 # Steps run in this order; `popgauge steps` lists each one's parameters.
 [[step]]

@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use popgauge_abi::FindingLevel;
 
-use super::{EXIT_FINDINGS, StderrProgress};
+use super::{EXIT_FINDINGS, StderrProgress, configure_threads};
 use crate::pipeline::{RunOptions, RunSummary, run_case};
 
 /// Arguments of `popgauge run`.
@@ -31,6 +31,9 @@ pub struct Args {
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Worker threads for the estimators [default: one per core]; results are the same for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<std::num::NonZeroUsize>,
 }
 
 /// Runs the assessment and prints where the results went.
@@ -39,6 +42,7 @@ pub struct Args {
 /// Recipe, data, step or output errors, each naming file, line and fix.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
     let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside, operator: args.operator.clone() };
+    configure_threads(args.threads)?;
     let mut progress = StderrProgress::new(args.quiet);
     let summary = run_case(&args.case, &options, &mut progress)?;
     print_summary(&summary);

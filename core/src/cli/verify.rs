@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use super::{EXIT_DIFFERENCES, StderrProgress};
+use super::{EXIT_DIFFERENCES, StderrProgress, configure_threads};
 use crate::provenance::signature::read_public_key;
 use crate::provenance::verify::{add_signature_check, record_in, verify};
 
@@ -22,6 +22,9 @@ pub struct Args {
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Worker threads for the estimators [default: one per core]; results are the same for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<std::num::NonZeroUsize>,
 }
 
 /// Verifies and prints one line per input, step and output.
@@ -29,6 +32,7 @@ pub struct Args {
 /// # Errors
 /// An unreadable record or a case that cannot be loaded at all.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    configure_threads(args.threads)?;
     let record = if args.provenance.is_dir() { record_in(&args.provenance) } else { args.provenance.clone() };
     // A bad key file is refused before any work.
     let key = args.public_key.as_deref().map(read_public_key).transpose()?;

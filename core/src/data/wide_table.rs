@@ -127,6 +127,31 @@ fn missing_column(file: &str, column: &str, header: &[String]) -> DataError {
     DataError::MissingColumn { file: file.into(), column: column.into(), found, help }
 }
 
+/// A sample's metadata from its `sample`, `population` and `year` cells (also the sample sheet
+/// of a VCF file).
+///
+/// # Errors
+/// [`DataError::BadField`] for an empty cell or a year that is not a whole number in
+/// [`YEAR_RANGE`].
+pub fn sample_meta(file: &str, line: usize, [id, population, year_text]: [&str; 3]) -> Result<SampleMeta, DataError> {
+    let at = || Location::line(file, line);
+    let required = |text: &str, column: &str| -> Result<String, DataError> {
+        if text.is_empty() {
+            return Err(DataError::BadField { at: at(), column: column.into(), text: String::new(), problem: "the cell is empty".into(), help: format!("every sample needs a {column}") });
+        }
+        Ok(text.to_string())
+    };
+    let id = required(id, "sample")?;
+    let population = required(population, "population")?;
+    let year_text = required(year_text, "year")?;
+    let year = match year_text.parse::<i32>() {
+        Ok(y) if YEAR_RANGE.contains(&y) => y,
+        Ok(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: format!("the year is outside {}–{}", YEAR_RANGE.start(), YEAR_RANGE.end()), help: "write the sampling year with four digits, for example 2021".into() }),
+        Err(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: "the year is not a whole number".into(), help: "write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)".into() }),
+    };
+    Ok(SampleMeta { id, population, year })
+}
+
 /// What is wrong with a genotype cell.
 #[derive(Debug, Clone, PartialEq, Eq)]
 enum CellProblem {
@@ -168,6 +193,11 @@ enum ParsedCell<'t> {
 
 fn is_missing_half(half: &str) -> bool {
     matches!(half, "" | "." | "?" | "-" | "NA")
+}
+
+/// True for an allele label of 1–32 characters from `A–Z a–z 0–9 . _ -`.
+pub fn is_valid_label(label: &str) -> bool {
+    !label.is_empty() && check_label(label).is_none()
 }
 
 fn check_label(label: &str) -> Option<CellProblem> {
@@ -237,23 +267,8 @@ impl<'a> Builder<'a> {
     }
 
     fn sample_meta(&self, line: usize, cells: &[String]) -> Result<SampleMeta, DataError> {
-        let at = || Location::line(self.options.file, line);
-        let required = |index: usize, column: &str| -> Result<String, DataError> {
-            let text = &cells[index];
-            if text.is_empty() {
-                return Err(DataError::BadField { at: at(), column: column.into(), text: String::new(), problem: "the cell is empty".into(), help: format!("every sample needs a {column}") });
-            }
-            Ok(text.clone())
-        };
-        let id = required(self.layout.sample, "sample")?;
-        let population = required(self.layout.population, "population")?;
-        let year_text = required(self.layout.year, "year")?;
-        let year = match year_text.parse::<i32>() {
-            Ok(y) if YEAR_RANGE.contains(&y) => y,
-            Ok(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: format!("the year is outside {}–{}", YEAR_RANGE.start(), YEAR_RANGE.end()), help: "write the sampling year with four digits, for example 2021".into() }),
-            Err(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: "the year is not a whole number".into(), help: "write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)".into() }),
-        };
-        Ok(SampleMeta { id, population, year })
+        let fields = [&cells[self.layout.sample], &cells[self.layout.population], &cells[self.layout.year]];
+        sample_meta(self.options.file, line, fields.map(String::as_str))
     }
 
     fn genotype(&mut self, line: usize, sample: &str, locus: usize, text: &str) -> Result<(AlleleCode, AlleleCode), DataError> {

@@ -49,7 +49,7 @@ impl ToolBuild {
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct FileEntry {
-    /// What the file is (`recipe`, `genotypes`, `populations`, `results`, `table`).
+    /// What the file is (`recipe`, `genotypes` or `vcf`, `samples`, `populations`, `template`, `results`, `table`, …).
     pub role: String,
     /// Path relative to the case folder (inputs) or the output folder (outputs).
     pub path: String,

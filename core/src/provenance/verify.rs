@@ -124,11 +124,12 @@ pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progre
         compare_outputs(&record, &out_dir, None, &mut report);
         return Ok(report);
     }
-    let case = load_case(&case_dir, true).map_err(|e| VerifyError::Case { case: case_dir.display().to_string(), source: Box::new(e) })?;
+    let case = load_case(&case_dir, true, progress).map_err(|e| VerifyError::Case { case: case_dir.display().to_string(), source: Box::new(e) })?;
     let recomputed = rerun(&record, case, &mut report, progress);
     let on_disk = read_results(&out_dir);
     if let Some((case, engine_results)) = &recomputed {
         compare_steps(&record, engine_results, on_disk.as_ref(), &mut report);
+        progress.task("typesetting the assessment");
         match render_outputs(case, engine_results) {
             Ok((_, files)) => compare_outputs(&record, &out_dir, Some(&files), &mut report),
             Err(error) => {
@@ -139,6 +140,7 @@ pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progre
     } else {
         compare_outputs(&record, &out_dir, None, &mut report);
     }
+    progress.finish();
     Ok(report)
 }
 

@@ -62,7 +62,7 @@ pub struct RawData {
     #[serde(default)]
     #[schemars(with = "Option<String>")]
     pub genotypes: Option<Spanned<String>>,
-    /// VCF file (not read by this version).
+    /// VCF file (v4.x, plain or bgzipped), instead of `genotypes`; needs `samples`.
     #[serde(default)]
     #[schemars(with = "Option<String>")]
     pub vcf: Option<Spanned<String>>,
@@ -83,6 +83,21 @@ pub struct RawData {
     /// Turn bad cells into errors instead of findings.
     #[serde(default)]
     pub strict: Option<bool>,
+    /// VCF records whose FILTER values are all in this list are read; default `["PASS", "."]`.
+    #[serde(default)]
+    pub accept_filters: Option<Vec<String>>,
+    /// Sites typed in fewer than this share of samples are not read (0–1; default 0).
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub min_call_rate: Option<Spanned<f64>>,
+    /// Sites whose second most common allele is rarer than this are not read (0–0.5; default 0).
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub min_maf: Option<Spanned<f64>>,
+    /// Sites with more distinct alleles than this are not read (≥ 1; default: no limit).
+    #[serde(default)]
+    #[schemars(with = "Option<u64>")]
+    pub max_alleles: Option<Spanned<i64>>,
 }
 
 /// One `[[step]]`.

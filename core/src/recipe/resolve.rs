@@ -12,7 +12,7 @@ use toml::Spanned;
 
 use super::raw::{RawData, RawRecipe, RawStep};
 use super::{
-    BuiltinStep, DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, InputFile, PlannedStep, RECIPE_FILE, Recipe,
+    BuiltinStep, DEFAULT_ACCEPT_FILTERS, DEFAULT_MISSING, GenotypeFormat, SiteFilters, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, InputFile, PlannedStep, RECIPE_FILE, Recipe,
     RecipeError, ReportSpec,
 };
 use crate::dates::{CivilDate, today};
@@ -149,25 +149,51 @@ impl Resolver<'_> {
 
     fn data(&self, raw: &Spanned<RawData>) -> Result<DataSpec, RecipeError> {
         let d = raw.get_ref();
-        if let Some(vcf) = &d.vcf {
-            return Err(self.invalid(vcf, "VCF input is not supported by this version of popgauge".into(), "convert the calls to a wide genotype table and name it with `genotypes = \"…\"`"));
-        }
-        if let Some(samples) = &d.samples {
-            return Err(self.invalid(samples, "`samples` goes with `vcf`, which this version does not read".into(), "remove `samples`; the wide table carries population and year per sample"));
-        }
-        let genotypes = match &d.genotypes {
-            Some(g) => self.input("genotypes", g)?,
-            None => {
-                return Err(self.invalid(raw, "[data] names no genotype file".into(), "add `genotypes = \"genotypes.csv\"` (a wide table: sample, population, year, then one column per locus)"));
-            }
-        };
+        let (genotypes, format, samples) = self.genotype_source(raw)?;
         let populations = d.populations.as_ref().map(|p| self.input("populations", p)).transpose()?;
         Ok(DataSpec {
             genotypes,
+            format,
+            samples,
+            accept_filters: d.accept_filters.clone().unwrap_or_else(|| DEFAULT_ACCEPT_FILTERS.iter().map(|s| s.to_string()).collect()),
+            sites: self.site_filters(d)?,
             populations,
             missing: d.missing.clone().unwrap_or_else(|| DEFAULT_MISSING.iter().map(|s| s.to_string()).collect()),
             ignore_columns: d.ignore_columns.clone().unwrap_or_default(),
             strict: d.strict.unwrap_or(false),
+        })
+    }
+
+    /// The genotype file: a wide table (`genotypes`) or a VCF file with its sample sheet.
+    fn genotype_source(&self, raw: &Spanned<RawData>) -> Result<(InputFile, GenotypeFormat, Option<InputFile>), RecipeError> {
+        let d = raw.get_ref();
+        match (&d.genotypes, &d.vcf, &d.samples) {
+            (Some(_), Some(vcf), _) => Err(self.invalid(vcf, "[data] names both `genotypes` and `vcf`".into(), "keep one: `genotypes` for a wide table, or `vcf` with `samples` for a VCF file")),
+            (Some(g), None, None) => Ok((self.input("genotypes", g)?, GenotypeFormat::Wide, None)),
+            (Some(_), None, Some(samples)) => Err(self.invalid(samples, "`samples` goes with `vcf`; a wide table carries population and year per sample".into(), "remove `samples`, or name the VCF file with `vcf = \"…\"` instead of `genotypes`")),
+            (None, Some(vcf), Some(samples)) => Ok((self.input("vcf", vcf)?, GenotypeFormat::Vcf, Some(self.input("samples", samples)?))),
+            (None, Some(vcf), None) => Err(self.invalid(vcf, "`vcf` needs a sample sheet that gives each sample's population and year".into(), "add `samples = \"samples.csv\"` (columns sample, population, year)")),
+            (None, None, _) => Err(self.invalid(raw, "[data] names no genotype file".into(), "add `genotypes = \"genotypes.csv\"` (a wide table: sample, population, year, then one column per locus), or `vcf = \"calls.vcf.gz\"` with `samples = \"samples.csv\"`")),
+        }
+    }
+
+    fn site_filters(&self, d: &RawData) -> Result<SiteFilters, RecipeError> {
+        let share = |value: &Option<Spanned<f64>>, name: &str, max: f64, example: &str| -> Result<f64, RecipeError> {
+            match value {
+                None => Ok(0.0),
+                Some(v) if (0.0..=max).contains(v.get_ref()) => Ok(*v.get_ref()),
+                Some(v) => Err(self.invalid(v, format!("`{name}` is {}, but it must lie between 0 and {max}", v.get_ref()), example)),
+            }
+        };
+        let max_alleles = match &d.max_alleles {
+            None => None,
+            Some(m) if *m.get_ref() >= 1 => Some(*m.get_ref() as usize),
+            Some(m) => return Err(self.invalid(m, format!("`max_alleles` is {}, but it must be a whole number ≥ 1", m.get_ref()), "for example 2 to read biallelic sites only")),
+        };
+        Ok(SiteFilters {
+            min_call_rate: share(&d.min_call_rate, "min_call_rate", 1.0, "for example 0.8 to read sites typed in at least 80% of samples")?,
+            min_maf: share(&d.min_maf, "min_maf", 0.5, "for example 0.05 to drop sites whose minor allele is rarer than 5%")?,
+            max_alleles,
         })
     }
 
