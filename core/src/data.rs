@@ -160,12 +160,12 @@ pub enum DataError {
         /// The count found (at least; reading stops at the limit).
         found: u64,
     },
-    /// A sample id, population or locus name longer than [`limits::MAX_NAME_CHARS`].
-    #[error("{at}: the {what} \"{text}\" is longer than {} characters\n  help: shorten it; a longer description belongs in an ignored column or the population sheet's `label`", limits::MAX_NAME_CHARS)]
+    /// A sample id, population name or label, or locus name longer than [`limits::MAX_NAME_CHARS`].
+    #[error("{at}: the {what} \"{text}\" is longer than {} characters\n  help: shorten it; a longer description belongs in a column popgauge ignores", limits::MAX_NAME_CHARS)]
     LongName {
         /// Where.
         at: Location,
-        /// `sample id`, `population name` or `locus name`.
+        /// `sample id`, `population name`, `population label` or `locus name`.
         what: &'static str,
         /// The name, cut short.
         text: String,

@@ -212,6 +212,13 @@ impl Session {
     }
 }
 
+impl Drop for Session {
+    fn drop(&mut self) {
+        // The folder itself is removed by `TempDir` right after this.
+        crate::interrupt::unregister(self.dir.path());
+    }
+}
+
 /// A loaded external step: behaves as any [`Step`] to the engine.
 pub struct ExternalStep {
     record: PluginRecord,

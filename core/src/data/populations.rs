@@ -46,8 +46,11 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
         if population.is_empty() {
             return Err(DataError::BadField { at: Location::line(file, *line), column: "population".into(), text: String::new(), problem: "the cell is empty".into(), help: "name the population as in the genotype table".into() });
         }
-        if population.chars().count() > MAX_NAME_CHARS {
-            return Err(DataError::LongName { at: Location::line(file, *line), what: "population name", text: excerpt(&population) });
+        let too_long = [("population name", Some(population.as_str())), ("population label", field("label"))]
+            .into_iter()
+            .find_map(|(what, text)| text.filter(|t| t.chars().count() > MAX_NAME_CHARS).map(|t| (what, t)));
+        if let Some((what, text)) = too_long {
+            return Err(DataError::LongName { at: Location::line(file, *line), what, text: excerpt(text) });
         }
         let info = PopulationInfo {
             population: population.clone(),
