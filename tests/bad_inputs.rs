@@ -106,8 +106,9 @@ fn copy_files(from: &Path, to: &Path) {
 
 /// Sets the case up in a fresh temporary folder, runs it, and returns what went wrong.
 fn run_case(folder: &Path) -> Result<(), String> {
-    let expect: Expect = toml::from_str(&std::fs::read_to_string(folder.join("expect.toml")).map_err(|e| e.to_string())?)
-        .map_err(|e| format!("expect.toml: {e}"))?;
+    let expect: Expect =
+        toml::from_str(&std::fs::read_to_string(folder.join("expect.toml")).map_err(|e| e.to_string())?)
+            .map_err(|e| format!("expect.toml: {e}"))?;
     let root = tempfile::tempdir().expect("temporary folder");
     let case = root.path().join("case");
     std::fs::create_dir_all(&case).expect("create case");
@@ -161,7 +162,11 @@ fn check_success(expect: &Expect, out: &Path) -> Vec<String> {
     let results: serde_json::Value = serde_json::from_str(&text).expect("results.json parses");
     if let Some(code) = &expect.finding {
         let data = results["data"]["findings"].as_array().into_iter().flatten();
-        let steps = results["steps"].as_array().into_iter().flatten().flat_map(|s| s["findings"].as_array().into_iter().flatten());
+        let steps = results["steps"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .flat_map(|s| s["findings"].as_array().into_iter().flatten());
         if !data.chain(steps).any(|f| f["code"] == code.as_str()) {
             problems.push(format!("no `{code}` finding in results.json"));
         }
