@@ -4,6 +4,7 @@
 //! copies one into a temporary folder, runs the binary and compares stdout/stderr with paths
 //! normalised.
 
+mod bad_inputs;
 mod check;
 mod cli;
 mod plan;

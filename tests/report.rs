@@ -33,7 +33,7 @@ fn pdf_info(pdf: &Path) -> std::collections::BTreeMap<String, String> {
 
 /// Text with all white space removed, so that a value broken across a table cell's lines or
 /// spread by justification still matches.
-fn squeezed(text: &str) -> String {
+pub fn squeezed(text: &str) -> String {
     text.chars().filter(|c| !c.is_whitespace()).collect()
 }
 

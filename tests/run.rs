@@ -181,3 +181,47 @@ fn the_demo_case_runs() {
     let populations: std::collections::BTreeSet<String> = rows.iter().map(|r| cell(columns, r, "population").as_str().unwrap().to_string()).collect();
     assert_eq!(populations.len(), 4);
 }
+
+/// A case that runs for several seconds: 20 multi-allelic loci whose Hardy–Weinberg tests
+/// take a million permutations each.
+fn slow_case() -> Case {
+    let case = Case::fixture("minimal");
+    let mut text = String::from("sample,population,year");
+    for l in 0..20 {
+        text += &format!(",L{l}");
+    }
+    for s in 0..200 {
+        text += &format!("\ns{s},{},2020", if s % 2 == 0 { "North" } else { "South" });
+        for l in 0..20 {
+            text += &format!(",{}/{}", (s * 7 + l) % 8, (s * 3 + l * 5) % 8);
+        }
+    }
+    case.write("genotypes.csv", text + "\n");
+    case.write("case.toml", case.read("case.toml") + "\n[[step]]\nid = \"hwe\"\nuses = \"hwe\"\n[step.params]\npermutations = 1000000\n");
+    case
+}
+
+/// Issue 10: Ctrl-C (SIGINT) during a run exits 130 and leaves no output folder, no temporary
+/// folder beside it and nothing in the temporary directory.
+#[test]
+fn issue_10_ctrl_c_leaves_nothing_behind() {
+    let case = slow_case();
+    let tmpdir = tempfile::tempdir().unwrap();
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_popgauge"))
+        .args(["run", "case", "--out", "out"])
+        .current_dir(case.root())
+        .env("TMPDIR", tmpdir.path())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(std::time::Duration::from_millis(1500));
+    assert!(child.try_wait().unwrap().is_none(), "the run ended before Ctrl-C; make slow_case slower");
+    // SAFETY: kill(2) with a child's pid and SIGINT has no memory effects in this process.
+    assert_eq!(unsafe { libc::kill(child.id() as libc::pid_t, libc::SIGINT) }, 0);
+    let output = child.wait_with_output().unwrap();
+    assert_eq!(output.status.code(), Some(130), "stderr: {}", String::from_utf8_lossy(&output.stderr));
+    assert_eq!(entries(case.root()), vec!["case"], "no output and no temporary folder");
+    assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
+    assert_eq!(entries(tmpdir.path()), Vec::<String>::new(), "nothing left in TMPDIR");
+}

@@ -1,6 +1,7 @@
 //! Reading the case's data files into one genotype matrix and the population sheet.
 
 pub mod delimited;
+pub mod limits;
 pub mod populations;
 pub mod sample_sheet;
 pub mod site_filter;
@@ -146,7 +147,7 @@ pub enum DataError {
         problem: String,
     },
     /// More distinct alleles at a locus than codes can hold.
-    #[error("{file}: locus `{locus}` has more than 65535 distinct alleles\n  help: check that the column really holds genotypes")]
+    #[error("{file}: locus `{locus}` has more than {} distinct alleles\n  help: check that the column really holds genotypes", limits::MAX_ALLELES_PER_LOCUS)]
     TooManyAlleles {
         /// File.
         file: String,
@@ -208,6 +209,26 @@ pub enum DataError {
         file: String,
         /// Records in the file.
         records: usize,
+    },
+    /// A file, or what it holds, is larger than popgauge accepts (see [`limits`]).
+    #[error("{at}: {found} {} is more than popgauge accepts ({} at most)\n  help: {}", what.noun(), what.limit(), what.help())]
+    TooLarge {
+        /// Where the limit was passed.
+        at: Location,
+        /// What was counted.
+        what: limits::Limited,
+        /// The count found (at least; reading stops at the limit).
+        found: u64,
+    },
+    /// A sample id, population name or label, or locus name longer than [`limits::MAX_NAME_CHARS`].
+    #[error("{at}: the {what} \"{text}\" is longer than {} characters\n  help: shorten it; a longer description belongs in a column popgauge ignores", limits::MAX_NAME_CHARS)]
+    LongName {
+        /// Where.
+        at: Location,
+        /// `sample id`, `population name`, `population label` or `locus name`.
+        what: &'static str,
+        /// The name, cut short.
+        text: String,
     },
     /// Two rows of the population sheet name the same population.
     #[error("{at}: population \"{population}\" is listed twice in the population sheet (first on line {first_line})\n  help: keep one row per population")]
@@ -299,7 +320,12 @@ fn read_vcf_input(spec: &DataSpec, sheet_file: &InputFile, progress: &mut dyn Pr
 }
 
 fn read_file(file: &InputFile) -> Result<Vec<u8>, DataError> {
-    std::fs::read(&file.path).map_err(|source| DataError::Unreadable { file: file.relative.clone(), source })
+    let unreadable = |source| DataError::Unreadable { file: file.relative.clone(), source };
+    let size = std::fs::metadata(&file.path).map_err(unreadable)?.len();
+    if limits::exceeds(limits::Limited::FileBytes, size) {
+        return Err(DataError::TooLarge { at: Location::file(&file.relative), what: limits::Limited::FileBytes, found: size });
+    }
+    std::fs::read(&file.path).map_err(unreadable)
 }
 
 /// Findings for populations in the sheet but not in the data, and the reverse.

@@ -97,12 +97,13 @@ pub fn run_steps(recipe: &Recipe, data: &LoadedData, progress: &mut dyn Progress
     let total = recipe.steps.len();
     for (index, planned) in recipe.steps.iter().enumerate() {
         progress.stage(index + 1, total, &format!("{} ({})", planned.id, planned.uses));
-        let fail = |message: String, help: &str| EngineError::StepFailed {
-            id: planned.id.clone(),
-            uses: planned.uses.clone(),
-            line: planned.line,
-            message,
-            help: help.into(),
+        let fail = |message: String, help: &str| {
+            // A step's message may carry its own, more specific, help line.
+            let (message, help) = match message.split_once("\n  help: ") {
+                Some((message, own)) => (message.to_string(), own.to_string()),
+                None => (message, help.to_string()),
+            };
+            EngineError::StepFailed { id: planned.id.clone(), uses: planned.uses.clone(), line: planned.line, message, help }
         };
         let seed = derive_seed(assessment.seed, &planned.id);
         let ctx = StepContext {

@@ -202,11 +202,20 @@ impl Session {
     /// The I/O error of creating it.
     pub fn new() -> std::io::Result<Arc<Session>> {
         let dir = tempfile::Builder::new().prefix("popgauge-plugins-").tempdir()?;
+        // Ctrl-C exits without running destructors; the handler removes the folder instead.
+        crate::interrupt::register(dir.path());
         Ok(Arc::new(Session { dir, genotypes: Mutex::new(None) }))
     }
 
     fn dir(&self) -> &Path {
         self.dir.path()
+    }
+}
+
+impl Drop for Session {
+    fn drop(&mut self) {
+        // The folder itself is removed by `TempDir` right after this.
+        crate::interrupt::unregister(self.dir.path());
     }
 }
 
@@ -322,7 +331,11 @@ pub fn load_plugin(spec: &PluginSpec, session: &Arc<Session>) -> Result<External
 }
 
 /// Parses and checks a descriptor the library returned.
-fn parse_descriptor(bytes: &[u8], shown: &str) -> Result<Descriptor, LoadError> {
+///
+/// # Errors
+/// [`LoadError::Descriptor`] when the JSON does not decode, the `uses` name is not kebab-case
+/// or a default does not fit its own declaration.
+pub fn parse_descriptor(bytes: &[u8], shown: &str) -> Result<Descriptor, LoadError> {
     let invalid = |reason: String| LoadError::Descriptor { path: shown.into(), reason };
     let descriptor: Descriptor = serde_json::from_slice(bytes).map_err(|e| invalid(e.to_string()))?;
     if descriptor.uses.is_empty() || !descriptor.uses.chars().all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-') {

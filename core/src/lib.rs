@@ -26,6 +26,7 @@ pub mod data;
 pub mod dates;
 pub mod engine;
 pub mod host;
+pub mod interrupt;
 pub mod output;
 pub mod pipeline;
 pub mod planning;

@@ -7,6 +7,8 @@
 
 use std::path::{Path, PathBuf};
 
+use crate::interrupt;
+
 /// Why the output folder cannot be written.
 #[derive(Debug, thiserror::Error)]
 pub enum OutputError {
@@ -83,10 +85,13 @@ pub fn write_folder(out: &Path, files: &OutputFiles, force: bool) -> Result<(), 
     std::fs::create_dir_all(parent).map_err(io_error(parent))?;
     let name = out.file_name().map_or("out".into(), |n| n.to_string_lossy().into_owned());
     let temp = parent.join(format!(".{name}.popgauge-tmp-{}", std::process::id()));
-    let result = write_all(&temp, files).and_then(|()| swap_into_place(&temp, out, force));
+    let aside = temp.with_extension("old");
+    interrupt::register(&temp);
+    let result = write_all(&temp, files).and_then(|()| interrupt::guarded(|| swap_into_place(&temp, &aside, out, force)));
     if result.is_err() {
         let _ = std::fs::remove_dir_all(&temp);
     }
+    interrupt::unregister(&temp);
     result
 }
 
@@ -94,32 +99,35 @@ fn write_all(temp: &Path, files: &OutputFiles) -> Result<(), OutputError> {
     if temp.exists() {
         std::fs::remove_dir_all(temp).map_err(io_error(temp))?;
     }
-    std::fs::create_dir_all(temp).map_err(io_error(temp))?;
+    interrupt::guarded(|| std::fs::create_dir_all(temp)).map_err(io_error(temp))?;
     for (relative, bytes) in files {
         let path = temp.join(relative);
-        if let Some(dir) = path.parent() {
-            std::fs::create_dir_all(dir).map_err(io_error(dir))?;
-        }
-        std::fs::write(&path, bytes).map_err(io_error(&path))?;
+        interrupt::guarded(|| {
+            if let Some(dir) = path.parent() {
+                std::fs::create_dir_all(dir).map_err(io_error(dir))?;
+            }
+            std::fs::write(&path, bytes).map_err(io_error(&path))
+        })?;
     }
     Ok(())
 }
 
-fn swap_into_place(temp: &Path, out: &Path, force: bool) -> Result<(), OutputError> {
+/// Renames `temp` to `out`; with `force`, an existing `out` is renamed to `aside` first and
+/// removed once the new folder is in place (Ctrl-C waits for all of it, see [`interrupt`]).
+fn swap_into_place(temp: &Path, aside: &Path, out: &Path, force: bool) -> Result<(), OutputError> {
     if !out.exists() {
         return std::fs::rename(temp, out).map_err(io_error(out));
     }
     if !force {
         return Err(OutputError::Exists { path: out.display().to_string() });
     }
-    let aside = temp.with_extension("old");
-    std::fs::rename(out, &aside).map_err(io_error(out))?;
+    std::fs::rename(out, aside).map_err(io_error(out))?;
     if let Err(e) = std::fs::rename(temp, out) {
         // Put the old folder back so nothing is lost.
-        let _ = std::fs::rename(&aside, out);
+        let _ = std::fs::rename(aside, out);
         return Err(io_error(out)(e));
     }
-    std::fs::remove_dir_all(&aside).map_err(io_error(&aside))
+    std::fs::remove_dir_all(aside).map_err(io_error(aside))
 }
 
 #[cfg(test)]

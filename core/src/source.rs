@@ -35,6 +35,28 @@ impl Location {
     }
 }
 
+/// Characters of user text quoted in a message before it is cut short.
+pub const EXCERPT_CHARS: usize = 40;
+
+/// User text as quoted in messages and findings: control characters escaped (so a message
+/// never moves the terminal's cursor), and text longer than [`EXCERPT_CHARS`] cut with its
+/// length given, so a 40 MB cell never floods the terminal, `results.json` or the document.
+pub fn excerpt(text: &str) -> String {
+    let mut shown = String::new();
+    for c in text.chars().take(EXCERPT_CHARS) {
+        if c.is_control() {
+            shown.extend(c.escape_default());
+        } else {
+            shown.push(c);
+        }
+    }
+    let total = text.chars().count();
+    if total > EXCERPT_CHARS {
+        shown.push_str(&format!("… ({total} characters)"));
+    }
+    shown
+}
+
 fn floor_char_boundary(text: &str, mut offset: usize) -> usize {
     while !text.is_char_boundary(offset) {
         offset -= 1;
@@ -65,5 +87,14 @@ mod tests {
         assert_eq!(Location::at_offset("x.toml", text, 0).to_string(), "x.toml:1:1");
         assert_eq!(Location::at_offset("x.toml", text, 10).to_string(), "x.toml:2:4");
         assert_eq!(Location::line("x.csv", 3).to_string(), "x.csv:3");
+    }
+
+    #[test]
+    fn excerpts_cut_long_text_and_escape_controls() {
+        assert_eq!(excerpt("152/156"), "152/156");
+        assert_eq!(excerpt("a\u{1b}[2Jb"), "a\\u{1b}[2Jb");
+        let long = "A".repeat(41);
+        assert_eq!(excerpt(&long), format!("{}… (41 characters)", "A".repeat(40)));
+        assert_eq!(excerpt(&"é".repeat(40)), "é".repeat(40), "characters, not bytes, are counted");
     }
 }

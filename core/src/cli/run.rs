@@ -41,6 +41,8 @@ pub struct Args {
 /// # Errors
 /// Recipe, data, step or output errors, each naming file, line and fix.
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
+    // Ctrl-C removes the temporary output folder and plugin copies, and exits 130.
+    crate::interrupt::install_handler().map_err(|e| anyhow::anyhow!("cannot watch for Ctrl-C: {e}"))?;
     let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside, operator: args.operator.clone() };
     configure_threads(args.threads)?;
     let mut progress = StderrProgress::new(args.quiet);

@@ -1,7 +1,8 @@
 //! Text tables shared by the readers: encoding checks, delimiter detection, records with lines.
 
 use crate::data::DataError;
-use crate::source::Location;
+use crate::data::limits::{Limited, exceeds};
+use crate::source::{Location, excerpt};
 
 /// A delimited text table: its header and records, each with its 1-based physical line.
 #[derive(Debug)]
@@ -19,6 +20,10 @@ pub struct DelimitedText {
 /// # Errors
 /// [`DataError::Empty`], [`DataError::Binary`] or [`DataError::NotUtf8`].
 pub fn decode(file: &str, bytes: &[u8]) -> Result<String, DataError> {
+    if bytes.starts_with(b"\xFF\xFE") || bytes.starts_with(b"\xFE\xFF") {
+        // A UTF-16 byte-order mark: the help (save as UTF-8) fits better than "NUL bytes".
+        return Err(DataError::NotUtf8 { at: Location::line(file, 1) });
+    }
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
         return Err(DataError::Empty { file: file.into() });
@@ -58,7 +63,8 @@ pub fn detect_delimiter(text: &str) -> u8 {
 /// Splits decoded text into header and records, checking that every row has the header's width.
 ///
 /// # Errors
-/// [`DataError::Csv`] for malformed quoting, [`DataError::Ragged`] for a row of another width.
+/// [`DataError::Csv`] for malformed quoting, [`DataError::Ragged`] for a row of another width,
+/// [`DataError::TooLarge`] past [`crate::data::limits::MAX_GENOTYPES`] cells in all.
 pub fn split_records(file: &str, text: &str) -> Result<DelimitedText, DataError> {
     let delimiter = detect_delimiter(text);
     let mut reader = csv::ReaderBuilder::new()
@@ -79,9 +85,14 @@ pub fn split_records(file: &str, text: &str) -> Result<DelimitedText, DataError>
     };
     let mut header: Option<Vec<String>> = None;
     let mut records = Vec::new();
+    let mut cells_read: u64 = 0;
     for result in reader.records() {
         let record = result.map_err(|e| csv_error(file, &e, &line_at))?;
         let line = record.position().map_or(1, |p| line_at(p.byte()));
+        cells_read += record.len() as u64;
+        if exceeds(Limited::Cells, cells_read) {
+            return Err(DataError::TooLarge { at: Location::line(file, line), what: Limited::Cells, found: cells_read });
+        }
         let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
         if cells.iter().all(String::is_empty) {
             continue; // blank line
@@ -96,6 +107,12 @@ pub fn split_records(file: &str, text: &str) -> Result<DelimitedText, DataError>
     }
     let header = header.ok_or_else(|| DataError::Empty { file: file.into() })?;
     Ok(DelimitedText { header, records, delimiter })
+}
+
+/// The first header cells as a message shows them: six at most, each cut short.
+pub fn header_excerpt(header: &[String]) -> String {
+    let shown: Vec<String> = header.iter().take(6).map(|h| excerpt(h)).collect();
+    if header.len() > 6 { format!("{}, …", shown.join(", ")) } else { shown.join(", ") }
 }
 
 fn csv_error(file: &str, error: &csv::Error, line_at: &dyn Fn(u64) -> usize) -> DataError {
@@ -121,6 +138,7 @@ mod tests {
         assert_eq!(decode("f.csv", b"\xEF\xBB\xBFa,b\n").unwrap(), "a,b\n");
         assert_eq!(decode("f.csv", b"a\nb\x00\n").unwrap_err().to_string().lines().next().unwrap(), "f.csv:2: the file contains NUL bytes, so it is not a text table");
         assert!(matches!(decode("f.csv", b"a\n\xff\n"), Err(DataError::NotUtf8 { .. })));
+        assert!(matches!(decode("f.csv", b"\xff\xfea\x00,\x00"), Err(DataError::NotUtf8 { .. })), "UTF-16 is named as such");
         assert!(matches!(decode("f.csv", b"  \n"), Err(DataError::Empty { .. })));
     }
 

@@ -6,8 +6,9 @@ use std::collections::BTreeMap;
 use popgauge_abi::{Finding, PopulationInfo, Where};
 
 use super::DataError;
-use super::delimited::{decode, split_records};
-use crate::source::Location;
+use super::delimited::{decode, header_excerpt, split_records};
+use super::limits::MAX_NAME_CHARS;
+use crate::source::{Location, excerpt};
 
 /// Columns the sheet understands besides `population`.
 pub const KNOWN_COLUMNS: [&str; 6] = ["label", "census_size", "census_year", "latitude", "longitude", "area_km2"];
@@ -33,7 +34,7 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
     let population_column = column("population").ok_or_else(|| DataError::MissingColumn {
         file: file.into(),
         column: "population".into(),
-        found: table.header.join(", "),
+        found: header_excerpt(&table.header),
         help: "name the column of population names `population`, spelt as in the genotype table".into(),
     })?;
     let findings = ignored_columns(&table.header, file);
@@ -44,6 +45,12 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
         let population = cells[population_column].clone();
         if population.is_empty() {
             return Err(DataError::BadField { at: Location::line(file, *line), column: "population".into(), text: String::new(), problem: "the cell is empty".into(), help: "name the population as in the genotype table".into() });
+        }
+        let too_long = [("population name", Some(population.as_str())), ("population label", field("label"))]
+            .into_iter()
+            .find_map(|(what, text)| text.filter(|t| t.chars().count() > MAX_NAME_CHARS).map(|t| (what, t)));
+        if let Some((what, text)) = too_long {
+            return Err(DataError::LongName { at: Location::line(file, *line), what, text: excerpt(text) });
         }
         let info = PopulationInfo {
             population: population.clone(),
@@ -81,7 +88,7 @@ fn parse_number(file: &str, line: usize, column: &str, text: Option<&str>, min: 
     let bad = |problem: String| DataError::BadField {
         at: Location::line(file, line),
         column: column.into(),
-        text: text.into(),
+        text: excerpt(text),
         problem,
         help: format!("write a plain number from {min} to {max} with a decimal point, or leave the cell empty"),
     };
@@ -120,5 +127,28 @@ mod tests {
         assert!(err.to_string().starts_with("pops.csv:3: population \"North\" is listed twice"));
         let err = read_population_sheet(b"site\nNorth\n", "pops.csv").unwrap_err();
         assert!(err.to_string().starts_with("pops.csv: required column `population` not found"));
+    }
+
+    mod properties {
+        use proptest::prelude::*;
+
+        use super::*;
+
+        proptest! {
+            /// Any bytes give a sheet or a clean error (a message with a `help:` line).
+            #[test]
+            fn any_bytes(bytes in proptest::collection::vec(any::<u8>(), 0..300)) {
+                if let Err(e) = read_population_sheet(&bytes, "pops.csv") {
+                    prop_assert!(e.to_string().contains("\n  help: "), "{}", e);
+                }
+            }
+
+            #[test]
+            fn sheet_like_text(body in "[a-zA-Z0-9,;\t\r\n\" .e+-]{0,300}") {
+                if let Err(e) = read_population_sheet(format!("population,census_size,latitude\n{body}").as_bytes(), "pops.csv") {
+                    prop_assert!(e.to_string().contains("\n  help: "), "{}", e);
+                }
+            }
+        }
     }
 }

@@ -11,8 +11,9 @@ use std::collections::{BTreeMap, HashMap};
 use popgauge_abi::{AlleleCode, Finding, GenotypeMatrix, LocusMeta, MatrixError, SampleMeta, Where, did_you_mean};
 
 use super::DataError;
-use super::delimited::{DelimitedText, decode, split_records};
-use crate::source::Location;
+use super::delimited::{DelimitedText, decode, header_excerpt, split_records};
+use super::limits::{Limited, MAX_NAME_CHARS, exceeds};
+use crate::source::{Location, excerpt};
 
 /// The metadata columns every wide table has.
 pub const REQUIRED_COLUMNS: [&str; 3] = ["sample", "population", "year"];
@@ -79,7 +80,7 @@ impl Layout {
         let mut first_seen: HashMap<&str, usize> = HashMap::new();
         for (i, name) in header.iter().enumerate() {
             if let Some(first) = first_seen.insert(name.as_str(), i) {
-                return Err(DataError::DuplicateColumn { at: Location::line(options.file, 1), column: name.clone(), first: first + 1, second: i + 1 });
+                return Err(DataError::DuplicateColumn { at: Location::line(options.file, 1), column: excerpt(name), first: first + 1, second: i + 1 });
             }
         }
         for ignored in options.ignore_columns {
@@ -113,13 +114,18 @@ impl Layout {
         if loci.is_empty() {
             return Err(DataError::NoLoci { file: options.file.into() });
         }
+        if exceeds(Limited::Loci, loci.len() as u64) {
+            return Err(DataError::TooLarge { at: Location::line(options.file, 1), what: Limited::Loci, found: loci.len() as u64 });
+        }
+        if let Some((_, name)) = loci.iter().find(|(_, name)| name.chars().count() > MAX_NAME_CHARS) {
+            return Err(DataError::LongName { at: Location::line(options.file, 1), what: "locus name", text: excerpt(name) });
+        }
         Ok(Layout { sample, population, year, loci })
     }
 }
 
 fn missing_column(file: &str, column: &str, header: &[String]) -> DataError {
-    let shown: Vec<&str> = header.iter().take(6).map(String::as_str).collect();
-    let found = if header.len() > 6 { format!("{}, …", shown.join(", ")) } else { shown.join(", ") };
+    let found = header_excerpt(header);
     let help = match did_you_mean(column, header.iter().map(String::as_str)) {
         Some(s) => format!("rename the column `{s}` to `{column}`, or fix the header row"),
         None => format!("add a `{column}` column (the wide table needs sample, population and year), or fix the header row"),
@@ -141,13 +147,20 @@ pub fn sample_meta(file: &str, line: usize, [id, population, year_text]: [&str; 
         }
         Ok(text.to_string())
     };
-    let id = required(id, "sample")?;
-    let population = required(population, "population")?;
+    let name = |text: &str, column: &str, what: &'static str| -> Result<String, DataError> {
+        let text = required(text, column)?;
+        if text.chars().count() > MAX_NAME_CHARS {
+            return Err(DataError::LongName { at: at(), what, text: excerpt(&text) });
+        }
+        Ok(text)
+    };
+    let id = name(id, "sample", "sample id")?;
+    let population = name(population, "population", "population name")?;
     let year_text = required(year_text, "year")?;
     let year = match year_text.parse::<i32>() {
         Ok(y) if YEAR_RANGE.contains(&y) => y,
-        Ok(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: format!("the year is outside {}–{}", YEAR_RANGE.start(), YEAR_RANGE.end()), help: "write the sampling year with four digits, for example 2021".into() }),
-        Err(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: year_text, problem: "the year is not a whole number".into(), help: "write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)".into() }),
+        Ok(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: excerpt(&year_text), problem: format!("the year is outside {}–{}", YEAR_RANGE.start(), YEAR_RANGE.end()), help: "write the sampling year with four digits, for example 2021".into() }),
+        Err(_) => return Err(DataError::BadField { at: at(), column: "year".into(), text: excerpt(&year_text), problem: "the year is not a whole number".into(), help: "write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)".into() }),
     };
     Ok(SampleMeta { id, population, year })
 }
@@ -168,8 +181,8 @@ impl CellProblem {
             CellProblem::OneAlleleMissing => "one allele missing".into(),
             CellProblem::Haploid => "a single allele; diploid cells are written a/b".into(),
             CellProblem::TooManyAlleles(n) => format!("{n} alleles; diploid cells have two"),
-            CellProblem::BadLabel(l) => format!("allele label \"{l}\" has characters other than letters, digits, `.`, `_` and `-`"),
-            CellProblem::LongLabel(l) => format!("allele label \"{l}\" is longer than {MAX_LABEL_LEN} characters"),
+            CellProblem::BadLabel(l) => format!("allele label \"{}\" has characters other than letters, digits, `.`, `_` and `-`", excerpt(l)),
+            CellProblem::LongLabel(l) => format!("allele label \"{}\" is longer than {MAX_LABEL_LEN} characters", excerpt(l)),
         }
     }
 
@@ -253,6 +266,7 @@ impl<'a> Builder<'a> {
     }
 
     fn add_row(&mut self, line: usize, cells: &[String]) -> Result<(), DataError> {
+        self.check_size(line)?;
         let meta = self.sample_meta(line, cells)?;
         if let Some(first_line) = self.first_line.insert(meta.id.clone(), line) {
             return Err(DataError::DuplicateSample { at: Location::line(self.options.file, line), id: meta.id, first_line });
@@ -263,6 +277,20 @@ impl<'a> Builder<'a> {
             self.codes[locus].push(b);
         }
         self.samples.push(meta);
+        Ok(())
+    }
+
+    /// Refuses the row that would take the table past the sample or genotype limit.
+    fn check_size(&self, line: usize) -> Result<(), DataError> {
+        let samples = self.samples.len() as u64 + 1;
+        let genotypes = samples * self.layout.loci.len() as u64;
+        let too_large = |what, found| Err(DataError::TooLarge { at: Location::line(self.options.file, line), what, found });
+        if exceeds(Limited::Samples, samples) {
+            return too_large(Limited::Samples, samples);
+        }
+        if exceeds(Limited::Genotypes, genotypes) {
+            return too_large(Limited::Genotypes, genotypes);
+        }
         Ok(())
     }
 
@@ -286,10 +314,11 @@ impl<'a> Builder<'a> {
         let file = self.options.file;
         let column = self.layout.loci[locus].1.clone();
         if self.options.strict {
-            return Err(DataError::BadCell { at: Location::line(file, line), column, text: text.into(), problem: problem.describe() });
+            return Err(DataError::BadCell { at: Location::line(file, line), column, text: excerpt(text), problem: problem.describe() });
         }
         let message = format!(
-            "{file} line {line}, column {column}, cell \"{text}\": {}; treated as untyped (set strict = true to stop instead)",
+            "{file} line {line}, column {column}, cell \"{}\": {}; treated as untyped (set strict = true to stop instead)",
+            excerpt(text),
             problem.describe()
         );
         let location = Where { file: Some(file.into()), line: Some(line as u64), column: Some(column), sample: Some(sample.into()), ..Where::default() };

@@ -27,10 +27,39 @@ use crate::source::Location;
 /// A [`RecipeError`] naming the file, line and key, with a `help:` line.
 pub fn load_recipe(case_dir: &Path, allow_outside: bool) -> Result<Recipe, RecipeError> {
     let recipe_path = case_dir.join(RECIPE_FILE);
-    let text = std::fs::read_to_string(&recipe_path)
+    let bytes = std::fs::read(&recipe_path)
         .map_err(|source| RecipeError::Unreadable { path: recipe_path.display().to_string(), source })?;
+    let text = decode_recipe(&bytes)?;
     let raw = parse(&text)?;
     Resolver { case_dir, text: &text, allow_outside, session: OnceCell::new() }.resolve(raw, recipe_path)
+}
+
+/// Largest recipe accepted (1 MiB): a recipe is a page of settings; anything larger is not one.
+pub const MAX_RECIPE_BYTES: usize = 1 << 20;
+
+/// The recipe's bytes as text: UTF-8, at most [`MAX_RECIPE_BYTES`].
+///
+/// # Errors
+/// [`RecipeError::Syntax`] naming the line of the first byte that is not UTF-8, or the size.
+pub fn decode_recipe(bytes: &[u8]) -> Result<String, RecipeError> {
+    if bytes.len() > MAX_RECIPE_BYTES {
+        return Err(RecipeError::Syntax {
+            at: Location::file(RECIPE_FILE),
+            message: format!("the recipe has {} bytes; popgauge reads recipes of at most {MAX_RECIPE_BYTES} bytes", bytes.len()),
+            help: "check that case.toml is the recipe; data belongs in the files it names".into(),
+        });
+    }
+    match std::str::from_utf8(bytes) {
+        Ok(text) => Ok(text.to_string()),
+        Err(e) => {
+            let line = bytes[..e.valid_up_to()].iter().filter(|&&b| b == b'\n').count() + 1;
+            Err(RecipeError::Syntax {
+                at: Location::line(RECIPE_FILE, line),
+                message: "the recipe is not valid UTF-8 text".into(),
+                help: "save case.toml as UTF-8 (most editors offer it under \"Save as… / Encoding\")".into(),
+            })
+        }
+    }
 }
 
 /// Parses recipe text strictly.
@@ -40,7 +69,7 @@ pub fn load_recipe(case_dir: &Path, allow_outside: bool) -> Result<Recipe, Recip
 pub fn parse(text: &str) -> Result<RawRecipe, RecipeError> {
     toml::from_str::<RawRecipe>(text).map_err(|e| {
         let at = Location::at_offset(RECIPE_FILE, text, e.span().map_or(0, |s| s.start));
-        let message = e.message().trim().to_string();
+        let message = plain_type_names(e.message().trim());
         match unknown_field(&message) {
             Some((key, expected)) => {
                 let suggestion = did_you_mean(&key, expected.iter().map(String::as_str)).map(str::to_string);
@@ -53,6 +82,13 @@ pub fn parse(text: &str) -> Result<RawRecipe, RecipeError> {
             },
         }
     })
+}
+
+/// serde's Rust type names in a message, in the recipe writer's words.
+fn plain_type_names(message: &str) -> String {
+    [("expected i64", "expected a whole number"), ("expected u64", "expected a whole number"), ("expected f64", "expected a number"), ("expected a boolean", "expected true or false")]
+        .iter()
+        .fold(message.to_string(), |text, (rust, plain)| text.replace(rust, plain))
 }
 
 fn syntax_help(message: &str) -> String {

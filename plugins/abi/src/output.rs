@@ -76,7 +76,9 @@ impl fmt::Display for Cell {
             Cell::Null => Ok(()),
             Cell::Bool(b) => write!(f, "{b}"),
             Cell::Int(i) => write!(f, "{i}"),
-            Cell::Num(x) => f.write_str(&format_number(*x)),
+            Cell::Num(x) if x.is_finite() => f.write_str(&format_number(*x)),
+            // A non-finite number built without `Cell::number` is written as that would write it.
+            Cell::Num(x) => Cell::number(*x).fmt(f),
             Cell::Inf => f.write_str("inf"),
             Cell::Text(t) => f.write_str(t),
         }
@@ -90,7 +92,7 @@ impl Serialize for Cell {
             Cell::Bool(b) => serializer.serialize_bool(*b),
             Cell::Int(i) => serializer.serialize_i64(*i),
             Cell::Num(x) if x.is_finite() => serializer.serialize_f64(*x),
-            Cell::Num(_) => serializer.serialize_none(),
+            Cell::Num(x) => Cell::number(*x).serialize(serializer),
             Cell::Inf => serializer.serialize_str("inf"),
             Cell::Text(t) => serializer.serialize_str(t),
         }
@@ -360,6 +362,16 @@ mod tests {
         assert_eq!(Cell::number(-f64::INFINITY), Cell::Null);
         assert_eq!(Cell::Num(1.5).to_string(), "1.5");
         assert_eq!(Cell::Null.to_string(), "");
+    }
+
+    /// DESIGN.md results contract: an infinite estimate is "inf", an undefined one null; no
+    /// NaN or infinity reaches JSON or CSV even from a cell built without `Cell::number`.
+    #[test]
+    fn non_finite_numbers_never_reach_json_or_csv() {
+        let raw = vec![Cell::Num(f64::NAN), Cell::Num(f64::INFINITY), Cell::Num(f64::NEG_INFINITY)];
+        assert_eq!(serde_json::to_string(&raw).unwrap(), r#"[null,"inf",null]"#);
+        let csv: Vec<String> = raw.iter().map(Cell::to_string).collect();
+        assert_eq!(csv, vec!["", "inf", ""]);
     }
 
     #[test]

@@ -109,3 +109,93 @@ fn every_error_has_a_help_line() {
     let text = err.to_string();
     assert!(text.lines().nth(1).is_some_and(|l| l.starts_with("  help: ")), "{text}");
 }
+
+/// Issue 10: names past the limit are refused, long cell text is cut short in findings.
+#[test]
+fn long_names_are_refused_and_long_cells_cut_short() {
+    let long = "x".repeat(65);
+    let err = read(&format!("sample,population,year,L1\n{long},N,2020,1/2\n")).unwrap_err();
+    assert_eq!(first_line(err), format!("genotypes.csv:2: the sample id \"{}… (65 characters)\" is longer than 64 characters", "x".repeat(40)));
+    let err = read(&format!("sample,population,year,{long}\ns1,N,2020,1/2\n")).unwrap_err();
+    assert!(first_line(err).starts_with("genotypes.csv:1: the locus name \"xxx"));
+    let cell = "1".repeat(10_000);
+    let t = read(&format!("sample,population,year,L1\ns1,N,2020,{cell}/2\n")).unwrap();
+    assert!(t.findings[0].message.len() < 300, "{}", t.findings[0].message);
+    assert!(t.findings[0].message.contains("… (10002 characters)"), "{}", t.findings[0].message);
+}
+
+mod properties {
+    //! Any input gives a table or a clean error (a message with a `help:` line), never a panic.
+    use proptest::prelude::*;
+
+    use super::*;
+
+    fn clean(result: Result<WideTable, DataError>) -> Result<(), TestCaseError> {
+        if let Err(e) = result {
+            prop_assert!(e.to_string().contains("\n  help: "), "no help line: {}", e);
+        }
+        Ok(())
+    }
+
+    /// One sample: population, year and per locus an optional pair of allele labels.
+    type Row = (String, i32, Vec<Option<(String, String)>>);
+
+    fn label() -> impl Strategy<Value = String> {
+        // "NA" is a missing half by definition, so it is no allele label.
+        "[A-Za-z0-9][A-Za-z0-9._-]{0,7}".prop_filter("NA means missing", |l| l != "NA")
+    }
+
+    fn rows(loci: usize) -> impl Strategy<Value = Vec<Row>> {
+        let cell = proptest::option::of((label(), label()));
+        let row = ("[A-Za-z][A-Za-z0-9]{0,9}", 1700..=2200i32, proptest::collection::vec(cell, loci));
+        proptest::collection::vec(row, 1..12)
+    }
+
+    proptest! {
+        #[test]
+        fn any_bytes(bytes in proptest::collection::vec(any::<u8>(), 0..300)) {
+            let missing = default_missing();
+            for strict in [false, true] {
+                clean(read_wide_table(&bytes, &options(&missing, &[], strict)))?;
+            }
+        }
+
+        #[test]
+        fn table_like_text(body in "[a-zA-Z0-9/,;\t\r\n\" .?-]{0,300}") {
+            clean(read(&format!("sample,population,year,L1,L2\n{body}")))?;
+            clean(read(&body))?;
+        }
+
+        /// Writing genotypes as a wide table and reading it back gives the same labels.
+        #[test]
+        fn written_tables_read_back((loci, rows) in (1..5usize).prop_flat_map(|l| (Just(l), rows(l)))) {
+            let mut text = String::from("sample,population,year");
+            for l in 0..loci {
+                text += &format!(",L{l}");
+            }
+            for (s, (population, year, cells)) in rows.iter().enumerate() {
+                text += &format!("\ns{s},{population},{year}");
+                for cell in cells {
+                    text += &cell.as_ref().map_or(",NA".to_string(), |(a, b)| format!(",{a}/{b}"));
+                }
+            }
+            let table = read(&text).map_err(|e| TestCaseError::fail(e.to_string()))?;
+            let m = &table.matrix;
+            prop_assert!(table.findings.is_empty());
+            prop_assert_eq!(m.samples().len(), rows.len());
+            let n = rows.len();
+            for (s, (population, year, cells)) in rows.iter().enumerate() {
+                prop_assert_eq!(&m.samples()[s].population, population);
+                prop_assert_eq!(m.samples()[s].year, *year);
+                for (l, cell) in cells.iter().enumerate() {
+                    let label = |k: usize| {
+                        let code = m.codes()[l * 2 * n + 2 * s + k].0 as usize;
+                        (code > 0).then(|| m.loci()[l].alleles[code - 1].clone())
+                    };
+                    let expected = cell.as_ref().map(|(a, b)| (a.clone(), b.clone()));
+                    prop_assert_eq!(label(0).zip(label(1)), expected);
+                }
+            }
+        }
+    }
+}

@@ -156,3 +156,47 @@ fn plugin_keys_are_refused_on_built_in_steps() {
         "case.toml:13:19: `timeout_seconds` applies to external plugin steps only\n  help: remove the `timeout_seconds` line"
     );
 }
+
+/// Issue 10: a recipe that is not UTF-8 is refused with its line, and type names are plain.
+#[test]
+fn issue_10_encoding_and_type_messages() {
+    let err = decode_recipe(b"[assessment]\ntitle = \"caf\xe9\"\n").unwrap_err();
+    assert_eq!(err.to_string(), "case.toml:2: the recipe is not valid UTF-8 text\n  help: save case.toml as UTF-8 (most editors offer it under \"Save as… / Encoding\")");
+    assert!(decode_recipe(&vec![b' '; MAX_RECIPE_BYTES + 1]).unwrap_err().to_string().contains("at most 1048576 bytes"));
+    let err = error_of(&MINIMAL.replace("seed = 7", "seed = \"seven\""));
+    assert!(err.starts_with("case.toml:5:8: invalid type: string \"seven\", expected a whole number\n"), "{err}");
+}
+
+mod properties {
+    //! Any recipe text gives a recipe or a clean error (a message with a `help:` line).
+    use proptest::prelude::*;
+
+    use super::*;
+
+    fn clean<T>(result: Result<T, RecipeError>) -> Result<(), TestCaseError> {
+        if let Err(e) = result {
+            prop_assert!(e.to_string().contains("\n  help: "), "no help line: {}", e);
+        }
+        Ok(())
+    }
+
+    proptest! {
+        #[test]
+        fn any_bytes(bytes in proptest::collection::vec(any::<u8>(), 0..300)) {
+            match decode_recipe(&bytes) {
+                Ok(text) => clean(parse(&text))?,
+                Err(e) => clean::<()>(Err(e))?,
+            }
+        }
+
+        /// Lines of the minimal recipe with one replaced by TOML-like text, through the full
+        /// loader (paths, steps, parameters).
+        #[test]
+        fn recipe_like_text(line in 0..14usize, replacement in "[a-z_\\[\\]=\" .0-9/:-]{0,40}") {
+            let mut lines: Vec<&str> = MINIMAL.lines().collect();
+            lines[line] = &replacement;
+            let dir = case_with(&lines.join("\n"));
+            clean(load_recipe(dir.path(), false))?;
+        }
+    }
+}
