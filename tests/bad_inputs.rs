@@ -54,6 +54,8 @@ enum Generated {
     TooManySamples,
     /// One locus with one distinct allele more than 16-bit codes hold.
     TooManyAlleles,
+    /// `calls.vcf` and `samples.csv` with one sample more than the limit.
+    VcfTooManySamples,
 }
 
 const FORTY_MB: usize = 40 * 1024 * 1024;
@@ -83,6 +85,20 @@ fn generate(what: Generated, case: &Path) {
                 writeln!(text, "s{s},North,2020,1/2").expect("write to string");
             }
             text
+        }
+        Generated::VcfTooManySamples => {
+            let names: Vec<String> = (0..=popgauge::data::limits::MAX_SAMPLES).map(|s| format!("s{s}")).collect();
+            let mut sheet = "sample,population,year\n".to_string();
+            for name in &names {
+                writeln!(sheet, "{name},North,2020").expect("write to string");
+            }
+            std::fs::write(case.join("samples.csv"), sheet).expect("write generated sheet");
+            let vcf = format!(
+                "##fileformat=VCFv4.3\n##FORMAT=<ID=GT,Number=1,Type=String,Description=\"Genotype\">\n#CHROM\tPOS\tID\tREF\tALT\tQUAL\tFILTER\tINFO\tFORMAT\t{}\n",
+                names.join("\t")
+            );
+            std::fs::write(case.join("calls.vcf"), vcf).expect("write generated VCF");
+            return;
         }
         Generated::TooManyAlleles => {
             let mut text = format!("{header}\n");

@@ -208,8 +208,11 @@ pub fn render(source: &ReportSource<'_>, template: &Template) -> Result<Report, 
         .iter()
         .map(|(key, figure, _)| Ok((key.clone(), figures::render(key, figure)?.into_bytes())))
         .collect::<Result<Vec<_>, ReportError>>()?;
-    let mut data = serde_json::to_vec_pretty(&built.data)
-        .map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
+    let mut value =
+        serde_json::to_value(&built.data).map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
+    escape_control_characters(&mut value);
+    let mut data =
+        serde_json::to_vec_pretty(&value).map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
     data.push(b'\n');
     let assessment = &built.data.assessment;
     let pdf = typst::typeset(&typst::TypesetJob {
@@ -220,6 +223,23 @@ pub fn render(source: &ReportSource<'_>, template: &Template) -> Result<Report, 
         ident: source.fingerprint,
     })?;
     Ok(Report { pdf, data, figures, template_files: template.output_files()? })
+}
+
+/// Writes control characters other than line break and tab in every string of the document
+/// data as escapes (`\u{0}`): text from the data files (a finding quoting a damaged record, for
+/// instance) must print, and no font of an archival PDF has glyphs for them.
+fn escape_control_characters(value: &mut serde_json::Value) {
+    match value {
+        serde_json::Value::String(text) if text.chars().any(|c| c.is_control() && c != '\n' && c != '\t') => {
+            *text = text
+                .chars()
+                .map(|c| if c.is_control() && c != '\n' && c != '\t' { c.escape_default().to_string() } else { c.to_string() })
+                .collect();
+        }
+        serde_json::Value::Array(items) => items.iter_mut().for_each(escape_control_characters),
+        serde_json::Value::Object(members) => members.values_mut().for_each(escape_control_characters),
+        _ => {}
+    }
 }
 
 /// Typesets an output folder again after its `assessment.typ` (or `assessment.json`, or a
@@ -300,5 +320,14 @@ mod tests {
             e.to_string(),
             "my-template/assessment.typ:12:5: the document template does not compile: unknown variable: titel\n  hint: did you mean title?\n  help: fix the Typst code there and run again; `popgauge typeset OUT` typesets an edited output folder without re-running the steps"
         );
+    }
+
+    /// A NUL or escape character in document text becomes a visible escape; line breaks, tabs
+    /// and other text stay as they are (common practice: PDF/A fonts carry no control glyphs).
+    #[test]
+    fn control_characters_are_escaped_in_document_strings() {
+        let mut value = serde_json::json!({"a": "PA\u{0}SS", "b": ["x\u{1b}y", "line\nnext\ttab"], "c": 3});
+        super::escape_control_characters(&mut value);
+        assert_eq!(value, serde_json::json!({"a": "PA\\u{0}SS", "b": ["x\\u{1b}y", "line\nnext\ttab"], "c": 3}));
     }
 }

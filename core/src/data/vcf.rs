@@ -27,13 +27,14 @@ use noodles_vcf as vcf;
 use popgauge_abi::{AlleleCode, Finding, GenotypeMatrix, LocusMeta, MatrixError, SampleMeta, Where};
 
 use super::DataError;
+use super::limits::{Limited, MAX_ALLELES_PER_LOCUS, exceeds};
 use super::sample_sheet::SampleSheet;
 use super::site_filter::{SiteTally, name_list, site_verdict};
 use super::wide_table::is_valid_label;
 use crate::progress::Progress;
 use crate::provenance::hash::{DigestingReader, FileDigest};
 use crate::recipe::SiteFilters;
-use crate::source::Location;
+use crate::source::{Location, excerpt};
 
 /// The first two bytes of every gzip (and so every bgzip) stream.
 const GZIP_MAGIC: [u8; 2] = [0x1f, 0x8b];
@@ -121,6 +122,11 @@ fn read_stream<R: BufRead>(
 ) -> Result<(GenotypeMatrix, Vec<Finding>), DataError> {
     let (header, header_lines) = read_header(reader, options.file, source.compressed)?;
     let columns = SampleColumns::match_sheet(&header, sheet, options)?;
+    let samples_read = columns.samples.len() as u64;
+    if exceeds(Limited::Samples, samples_read) {
+        let at = Location::line(options.file, header_lines);
+        return Err(DataError::TooLarge { at, what: Limited::Samples, found: samples_read });
+    }
     let mut builder = MatrixBuilder::new(columns, header_lines, options);
     let mut record = vcf::Record::default();
     loop {
@@ -412,6 +418,10 @@ impl<'a> MatrixBuilder<'a> {
         }
         let alleles = allele_list(record);
         let name = self.locus_name(record.ids().as_ref(), chromosome, position);
+        if alleles.len() > MAX_ALLELES_PER_LOCUS {
+            return Err(DataError::TooManyAlleles { file: self.options.file.into(), locus: excerpt(&name) });
+        }
+        self.check_size(line)?;
         let samples = record.samples();
         let Some(gt_index) = samples.keys().iter().position(|k| k == "GT") else {
             self.no_gt.push(name);
@@ -426,6 +436,18 @@ impl<'a> MatrixBuilder<'a> {
         self.names.insert(name.clone());
         self.codes.extend_from_slice(&site_codes);
         self.loci.push(LocusMeta { name, alleles: labels, chromosome: Some(chromosome.to_string()) });
+        Ok(())
+    }
+
+    /// Refuses the site that would take the matrix past the locus or genotype limit.
+    fn check_size(&self, line: usize) -> Result<(), DataError> {
+        let loci = self.loci.len() as u64 + 1;
+        let genotypes = loci * self.columns.samples.len() as u64;
+        for (what, found) in [(Limited::Loci, loci), (Limited::Genotypes, genotypes)] {
+            if exceeds(what, found) {
+                return Err(DataError::TooLarge { at: Location::line(self.options.file, line), what, found });
+            }
+        }
         Ok(())
     }
 
