@@ -205,6 +205,16 @@ fn slow_case() -> Case {
 /// folder beside it and nothing in the temporary directory.
 #[test]
 fn issue_10_ctrl_c_leaves_nothing_behind() {
+    interrupted_run_leaves_nothing_behind(libc::SIGINT);
+}
+
+/// The same for SIGTERM (a job scheduler or `kill` stopping the run).
+#[test]
+fn issue_10_sigterm_leaves_nothing_behind() {
+    interrupted_run_leaves_nothing_behind(libc::SIGTERM);
+}
+
+fn interrupted_run_leaves_nothing_behind(signal: libc::c_int) {
     let case = slow_case();
     let tmpdir = tempfile::tempdir().unwrap();
     let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_popgauge"))
@@ -217,8 +227,8 @@ fn issue_10_ctrl_c_leaves_nothing_behind() {
         .unwrap();
     std::thread::sleep(std::time::Duration::from_millis(1500));
     assert!(child.try_wait().unwrap().is_none(), "the run ended before Ctrl-C; make slow_case slower");
-    // SAFETY: kill(2) with a child's pid and SIGINT has no memory effects in this process.
-    assert_eq!(unsafe { libc::kill(child.id() as libc::pid_t, libc::SIGINT) }, 0);
+    // SAFETY: kill(2) with a child's pid and a signal number has no memory effects in this process.
+    assert_eq!(unsafe { libc::kill(child.id() as libc::pid_t, signal) }, 0);
     let output = child.wait_with_output().unwrap();
     assert_eq!(output.status.code(), Some(130), "stderr: {}", String::from_utf8_lossy(&output.stderr));
     assert_eq!(entries(case.root()), vec!["case"], "no output and no temporary folder");

@@ -222,3 +222,42 @@ fn gt_parsing_follows_the_vcf_rules() {
     assert_eq!(parse_gt("a/0", 2), Err(CallProblem::BadAllele));
     assert_eq!(parse_gt("./1", 2), Err(CallProblem::OneAlleleMissing));
 }
+
+mod properties {
+    use std::io::Write;
+
+    use proptest::prelude::*;
+
+    use super::{SHEET, read_with, vcf_file};
+
+    /// A refusal must render with a help line (DESIGN.md: errors say how to fix them).
+    fn clean<T>(result: Result<T, crate::data::DataError>) -> Result<(), TestCaseError> {
+        if let Err(e) = result {
+            prop_assert!(e.to_string().contains("\n  help: "), "{}", e);
+        }
+        Ok(())
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(128))]
+
+        /// Any bytes as the VCF file (plain, or bgzip when they happen to start with the gzip
+        /// magic): Ok or a clean error, never a panic.
+        #[test]
+        fn any_bytes(bytes in proptest::collection::vec(any::<u8>(), 0..400)) {
+            let mut file = tempfile::NamedTempFile::new().unwrap();
+            file.write_all(&bytes).unwrap();
+            for strict in [false, true] {
+                clean(read_with(&file, SHEET, strict, &["PASS", "."]))?;
+            }
+        }
+
+        /// Record-like text after a valid header, plain and bgzipped.
+        #[test]
+        fn record_like_text(body in "[A-Za-z0-9.:/|;,=\t\n-]{0,300}") {
+            for bgzip in [false, true] {
+                clean(read_with(&vcf_file(&body, bgzip), SHEET, false, &["PASS", "."]))?;
+            }
+        }
+    }
+}
