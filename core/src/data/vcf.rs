@@ -133,7 +133,17 @@ fn read_stream<R: BufRead>(
         let line = builder.next_line();
         match reader.read_record(&mut record) {
             Ok(0) => break,
-            Ok(_) => builder.add_record(&record, line)?,
+            Ok(_) => match without_panics(|| builder.add_record(&record, line)) {
+                Some(added) => added?,
+                None => {
+                    return Err(DataError::VcfRecord {
+                        at: Location::line(options.file, line),
+                        field: "line".into(),
+                        problem: "the record's fields cannot be told apart (a byte sequence the VCF parser cannot split)".into(),
+                        help: "check the record's CHROM, POS, ID, REF, ALT, QUAL and FILTER fields for stray characters; they are plain ASCII in a valid file".into(),
+                    });
+                }
+            },
             Err(e) => return Err(stream_error(options.file, line, source.compressed, &e)),
         }
         if builder.records.is_multiple_of(PROGRESS_EVERY) {
@@ -141,6 +151,20 @@ fn read_stream<R: BufRead>(
         }
     }
     builder.finish()
+}
+
+/// Runs `read`, turning a panic inside the VCF parsing crate into `None` without printing it.
+///
+/// noodles-vcf 0.96 can panic on some malformed records when a field is asked for (found by
+/// fuzzing: a slice ending inside a multi-byte character); a data file must give a clean
+/// refusal instead. The panic hook is silenced only for the call, on the reading thread,
+/// before any step runs.
+fn without_panics<T>(read: impl FnOnce() -> T) -> Option<T> {
+    let previous = std::panic::take_hook();
+    std::panic::set_hook(Box::new(|_| {}));
+    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(read));
+    std::panic::set_hook(previous);
+    result.ok()
 }
 
 /// Reads and parses the header; returns it with its number of lines.
