@@ -61,10 +61,20 @@
 //! pair of loci has `null` estimates. Never a negative Ne.
 //!
 //! # Speed
-//! Dosages are bytes and the pair loop uses exact integer moments, threads over fixed chunks of
-//! pairs with rayon and merges them in a fixed order, so results are identical for any number of
-//! threads (see [`pairs`]). `max_loci` caps the loci used with a seeded random subset, listed in
-//! a `loci-subset` finding.
+//! When every candidate locus has at most two alleles in a group (SNP panels), the pairs run on
+//! packed bit planes (two bits per genotype plus a typed mask, see [`packed`]): one pass serves
+//! every criterion (a biallelic pair's r̂² does not depend on it), criteria with identical panels
+//! are summed once, and without jackknife lanes eight pairs are evaluated at a time with
+//! AVX-512 population counts where the processor has them. Other groups use byte dosages
+//! ([`pairs`]). Both use exact integer moments, the same r̂² function, the same fixed chunks of
+//! pairs (threads via rayon, merged in a fixed order) and the same summation order, so their
+//! results are identical to the last bit and do not depend on the number of threads.
+//! `max_loci` caps the loci used with a seeded random subset, listed in a `loci-subset`
+//! finding. The jackknife over individuals recomputes every pair once per group of individuals
+//! left out; above `resample_max_loci` loci (2,000 by default) it runs on a seeded random
+//! subset of loci (a `resample-subset` finding says so), every other column on all loci. The
+//! variance of a subset's r̄² is on average at least that of the full panel's (the full mean is
+//! the mean of the subset means), so `ne_resample_*` can only err wide.
 //!
 //! # Citations
 //! Hill (1981); Weir (1979); Waples (2006); Waples & Do (2008, 2010); Jones, Ovenden & Wang
@@ -72,13 +82,14 @@
 //! [`CITATIONS`].
 
 mod estimate;
+mod packed;
 pub mod pairs;
 mod panel;
 
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Cell, Descriptor, Finding, GenotypeView, Group, LocusIdx, ParamKind, Seed, Step, StepContext, StepError,
+    Cell, Descriptor, Finding, GenotypeView, Group, LocusIdx, ParamKind, SampleIdx, Seed, Step, StepContext, StepError,
     StepOutput, Table, Where,
 };
 use rand::RngExt;
@@ -86,7 +97,8 @@ use serde::Deserialize;
 use serde_json::{Value, json};
 
 use self::estimate::{LdEstimate, Mating, estimate};
-use self::pairs::sum_pairs;
+use self::packed::{PackedPanel, PackedRequest, sum_pairs_packed};
+use self::pairs::{ChunkCuts, PairSums, sum_pairs};
 use self::panel::{Criterion, PanelRequest, build_panel, chromosome_ids, shuffled_samples};
 use crate::stats::bootstrap::rng;
 
@@ -133,6 +145,8 @@ pub struct Params {
     pub mating: Mating,
     /// Jackknife groups of individuals for `ne_resample_*` (at most 16; 0 or 1: none).
     pub individual_blocks: usize,
+    /// Above this many loci the jackknife over individuals runs on a seeded subset of them.
+    pub resample_max_loci: usize,
 }
 
 /// The descriptor of `ne-ld`: its name, version and parameters with defaults.
@@ -180,6 +194,13 @@ pub fn descriptor() -> Descriptor {
         "jackknife groups of individuals for ne_resample_* (individuals dealt at random; at most 16); 0 = none, faster \
          on large SNP panels",
     )
+    .param(
+        "resample_max_loci",
+        ParamKind::Integer { min: 2, max: 10_000_000 },
+        json!(2000),
+        "above this many loci, the jackknife over individuals (ne_resample_*) runs on a seeded random subset of this \
+         many loci; every other column uses all loci",
+    )
 }
 
 /// The `ne-ld` step.
@@ -192,16 +213,31 @@ impl Step for NeLd {
     }
 
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
-        let params: Params = ctx.params_as()?;
-        let criteria = criteria(&params);
-        let loci = select_loci(ctx.view.n_loci(), params.max_loci, ctx.seed);
-        let groups = estimate_groups(&ctx.view, &params, &criteria, &loci, ctx.seed);
-        let mut output = StepOutput::default();
-        output.tables.insert("estimates".into(), estimates_table(&groups)?);
-        output.findings = collect_findings(&ctx.view, &params, &loci, &groups);
-        output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
-        Ok(output)
+        run_with(ctx, PairPath::PackedWhenBiallelic)
     }
+}
+
+/// Which pair loop a run may use; the general one exists for the equivalence tests.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum PairPath {
+    /// The packed path for groups whose loci are all biallelic, the byte path otherwise.
+    PackedWhenBiallelic,
+    /// The byte path always.
+    #[cfg_attr(not(test), allow(dead_code))]
+    General,
+}
+
+fn run_with(ctx: &StepContext<'_>, path: PairPath) -> Result<StepOutput, StepError> {
+    let params: Params = ctx.params_as()?;
+    let criteria = criteria(&params);
+    let loci = select_loci(ctx.view.n_loci(), params.max_loci, ctx.seed);
+    let plan = LociPlan::new(&ctx.view, &params, loci, ctx.seed);
+    let groups = estimate_groups(&ctx.view, &params, &criteria, &plan, ctx.seed, path);
+    let mut output = StepOutput::default();
+    output.tables.insert("estimates".into(), estimates_table(&groups)?);
+    output.findings = collect_findings(&ctx.view, &params, &plan, &groups);
+    output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
+    Ok(output)
 }
 
 /// The criteria of one run, in row order: each Pcrit as given, then "no singletons".
@@ -215,16 +251,25 @@ fn criteria(params: &Params) -> Vec<Criterion> {
 
 /// All view loci, or a seeded random subset of `max_loci` of them (ascending).
 fn select_loci(n_loci: usize, max_loci: Option<usize>, seed: Seed) -> Vec<LocusIdx> {
-    let mut loci: Vec<LocusIdx> = (0..n_loci).collect();
-    let Some(keep) = max_loci.filter(|&m| m < n_loci) else { return loci };
-    let mut random = rng(seed, "ne-ld max_loci subset");
-    for position in 0..keep {
-        let pick = random.random_range(position..n_loci);
-        loci.swap(position, pick);
+    let loci: Vec<LocusIdx> = (0..n_loci).collect();
+    match max_loci.filter(|&m| m < n_loci) {
+        Some(keep) => seeded_subset(&loci, keep, seed, "ne-ld max_loci subset"),
+        None => loci,
     }
-    loci.truncate(keep);
-    loci.sort_unstable();
-    loci
+}
+
+/// `keep` of `loci` drawn at random from the step seed's stream `stream`, ascending.
+fn seeded_subset(loci: &[LocusIdx], keep: usize, seed: Seed, stream: &str) -> Vec<LocusIdx> {
+    let mut subset = loci.to_vec();
+    let mut random = rng(seed, stream);
+    let keep = keep.min(subset.len());
+    for position in 0..keep {
+        let pick = random.random_range(position..subset.len());
+        subset.swap(position, pick);
+    }
+    subset.truncate(keep);
+    subset.sort_unstable();
+    subset
 }
 
 /// The estimate of one group under one criterion.
@@ -240,14 +285,27 @@ struct GroupResult {
     criteria: Vec<CriterionResult>,
 }
 
-fn estimate_groups(
-    view: &GenotypeView<'_>,
-    params: &Params,
-    criteria: &[Criterion],
-    loci: &[LocusIdx],
-    seed: Seed,
-) -> Vec<GroupResult> {
-    let chromosomes = chromosome_ids(view);
+/// The loci of one run and how their pairs are cut into chunks; with `resample`, the seeded
+/// subset on which the jackknife over individuals runs.
+struct LociPlan {
+    loci: Vec<LocusIdx>,
+    cuts: ChunkCuts,
+    resample: Option<(Vec<LocusIdx>, ChunkCuts)>,
+    chromosomes: Vec<Option<u32>>,
+}
+
+impl LociPlan {
+    fn new(view: &GenotypeView<'_>, params: &Params, loci: Vec<LocusIdx>, seed: Seed) -> LociPlan {
+        let resample = (params.individual_blocks >= 2 && loci.len() > params.resample_max_loci).then(|| {
+            let subset = seeded_subset(&loci, params.resample_max_loci, seed, "ne-ld resample loci");
+            let cuts = ChunkCuts::new(&subset);
+            (subset, cuts)
+        });
+        LociPlan { cuts: ChunkCuts::new(&loci), loci, resample, chromosomes: chromosome_ids(view) }
+    }
+}
+
+fn estimate_groups(view: &GenotypeView<'_>, params: &Params, criteria: &[Criterion], plan: &LociPlan, seed: Seed, path: PairPath) -> Vec<GroupResult> {
     view.groups()
         .into_iter()
         .map(|group| {
@@ -255,28 +313,55 @@ fn estimate_groups(
                 &group,
                 &mut rng(seed, &format!("ne-ld jackknife groups {} {}", group.population, group.year)),
             );
+            let sums = group_sums(view, params, criteria, plan, (&group, &order), path);
             let results = criteria
                 .iter()
-                .map(|&criterion| {
-                    let request = PanelRequest {
-                        group: &group,
-                        loci,
-                        criterion,
-                        groups: params.individual_blocks,
-                        chromosomes: &chromosomes,
-                    };
-                    let panel = build_panel(view, &request, &order);
-                    let sums = sum_pairs(&panel, params.skip_same_chromosome);
-                    CriterionResult {
-                        criterion,
-                        estimate: estimate(&sums, panel.loci.len(), params.mating),
-                        same_chromosome: sums.same_chromosome,
-                    }
+                .zip(sums)
+                .map(|(&criterion, (sums, loci))| CriterionResult {
+                    criterion,
+                    estimate: estimate(&sums, loci, params.mating),
+                    same_chromosome: sums.same_chromosome,
                 })
                 .collect();
             GroupResult { group, criteria: results }
         })
         .collect()
+}
+
+/// Per criterion: the pair sums of one group and its number of panel loci. With a resampling
+/// subset, the sums over all loci come from a pass without jackknife lanes and the
+/// jackknife-over-individuals sums from a second pass over the subset.
+fn group_sums(
+    view: &GenotypeView<'_>,
+    params: &Params,
+    criteria: &[Criterion],
+    plan: &LociPlan,
+    (group, order): (&Group, &[SampleIdx]),
+    path: PairPath,
+) -> Vec<(PairSums, usize)> {
+    let pass = |loci: &[LocusIdx], cuts: &ChunkCuts, blocks: usize| {
+        let request = PackedRequest { group, loci, criteria, groups: blocks, chromosomes: &plan.chromosomes };
+        let packed = (path == PairPath::PackedWhenBiallelic).then(|| PackedPanel::build(view, &request, order));
+        match packed.flatten() {
+            Some(panel) => sum_pairs_packed(&panel, params.skip_same_chromosome, cuts).into_iter().zip(panel.loci_in).collect(),
+            None => criteria
+                .iter()
+                .map(|&criterion| {
+                    let request = PanelRequest { group, loci, criterion, groups: blocks, chromosomes: &plan.chromosomes };
+                    let panel = build_panel(view, &request, order);
+                    (sum_pairs(&panel, params.skip_same_chromosome, cuts), panel.loci.len())
+                })
+                .collect::<Vec<_>>(),
+        }
+    };
+    let Some((subset, subset_cuts)) = &plan.resample else {
+        return pass(&plan.loci, &plan.cuts, params.individual_blocks);
+    };
+    let mut all = pass(&plan.loci, &plan.cuts, 0);
+    for ((sums, _), (resampled, _)) in all.iter_mut().zip(pass(subset, subset_cuts, params.individual_blocks)) {
+        sums.without_group = resampled.without_group;
+    }
+    all
 }
 
 /// Columns of the `estimates` table: the contract's, then `loci`, `pairs`, the resampling
@@ -358,12 +443,15 @@ fn estimate_cells(estimate: Option<&LdEstimate>) -> Vec<Cell> {
 fn collect_findings(
     view: &GenotypeView<'_>,
     params: &Params,
-    loci: &[LocusIdx],
+    plan: &LociPlan,
     groups: &[GroupResult],
 ) -> Vec<Finding> {
     let mut findings = Vec::new();
-    if loci.len() < view.n_loci() {
-        findings.push(loci_subset_finding(view, loci));
+    if plan.loci.len() < view.n_loci() {
+        findings.push(loci_subset_finding(view, &plan.loci));
+    }
+    if let Some((subset, _)) = &plan.resample {
+        findings.push(resample_subset_finding(params, subset.len(), plan.loci.len()));
     }
     for result in groups {
         findings.extend(group_findings(result, params));
@@ -382,6 +470,21 @@ fn loci_subset_finding(view: &GenotypeView<'_>, loci: &[LocusIdx]) -> Finding {
             loci.len(),
             view.n_loci(),
             names.join(", ")
+        ),
+        Where::default(),
+    )
+}
+
+fn resample_subset_finding(params: &Params, subset: usize, loci: usize) -> Finding {
+    Finding::info(
+        "resample-subset",
+        format!(
+            "ne_resample_*: the jackknife over individuals recomputes every pair once per group of individuals left \
+             out ({} groups); with {loci} loci it ran on a seeded random subset of {subset} loci \
+             (resample_max_loci = {}; seed stream \"ne-ld resample loci\"), every other column on all {loci}. A \
+             subset's r² varies at least as much as the full panel's on average, so this interval errs wide, not \
+             narrow",
+            params.individual_blocks, params.resample_max_loci
         ),
         Where::default(),
     )

@@ -5,11 +5,16 @@
 //!
 //! # Speed and determinism
 //! Dosages and masks are bytes and every per-pair moment is an exact integer sum, so a pair's
-//! r̂² does not depend on summation order. The rows of the upper triangle of pairs are cut into
-//! [`CHUNKS`] chunks of about equal numbers of pairs, independent of the thread count; rayon
-//! runs the chunks on its threads, each chunk sums its pairs in row order, and the chunk results
-//! are merged in chunk order. Results are therefore bit-identical for any number of threads.
-//! The pair loop allocates nothing: each chunk reuses one scratch buffer.
+//! r̂² does not depend on summation order; r̂² itself comes from one function,
+//! [`r2_from_spreads`], shared with the packed biallelic path ([`super::packed`]). The candidate
+//! loci (all loci of the step, before any rare-allele criterion) are cut into [`CHUNKS`] row
+//! ranges of about equal numbers of pairs ([`ChunkCuts`]), independent of the thread count and
+//! of the criterion; rayon runs the chunks on its threads, each chunk sums its pairs in row
+//! order (a row's pairs into a row sum, added at the row's end to the totals and to the
+//! leave-one-out sums of its first locus; each pair also to those of its second locus), and
+//! the chunk results are merged in chunk order. Results are therefore bit-identical
+//! for any number of threads, and the packed path, which cuts the same way, reproduces them
+//! exactly. The pair loop allocates nothing: each chunk reuses one scratch buffer.
 
 use rayon::prelude::*;
 
@@ -49,7 +54,18 @@ impl Accumulator {
         self.pairs += 1;
     }
 
-    fn merge(&mut self, other: &Accumulator) {
+    /// Adds one pair already weighted: `weighted_r2` = w·r̂², `weight` = w = n·S², and
+    /// `per_sample` = n/S, for n = `comparisons` (the same sums as [`Accumulator::add`]).
+    #[inline(always)]
+    pub(super) fn add_weighted(&mut self, weighted_r2: f64, weight: f64, comparisons: f64, per_sample: f64) {
+        self.weighted_r2 += weighted_r2;
+        self.weight += weight;
+        self.comparisons += comparisons;
+        self.comparisons_per_sample += per_sample;
+        self.pairs += 1;
+    }
+
+    pub(super) fn merge(&mut self, other: &Accumulator) {
         self.weighted_r2 += other.weighted_r2;
         self.weight += other.weight;
         self.comparisons += other.comparisons;
@@ -97,7 +113,7 @@ pub struct PairSums {
 }
 
 impl PairSums {
-    fn empty(loci: usize, replicates: usize) -> PairSums {
+    pub(super) fn empty(loci: usize, replicates: usize) -> PairSums {
         PairSums {
             total: Accumulator::default(),
             with_locus: vec![Accumulator::default(); loci],
@@ -107,7 +123,7 @@ impl PairSums {
         }
     }
 
-    fn merge(&mut self, other: &PairSums) {
+    pub(super) fn merge(&mut self, other: &PairSums) {
         self.total.merge(&other.total);
         for (mine, theirs) in self.with_locus.iter_mut().zip(&other.with_locus) {
             mine.merge(theirs);
@@ -120,23 +136,69 @@ impl PairSums {
     }
 }
 
+/// The chunk boundaries of the pair loop, as view-locus cut points: chunk c holds the rows
+/// whose view locus lies in `[cuts[c-1], cuts[c])` (from 0 and up to `usize::MAX`). They are
+/// computed once from the candidate loci, so every criterion and both pair paths cut alike.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ChunkCuts(Vec<usize>);
+
+impl ChunkCuts {
+    /// [`CHUNKS`] cuts balancing the pairs of the candidate loci (view indices, ascending).
+    pub fn new(candidates: &[usize]) -> ChunkCuts {
+        let cuts = row_chunks(candidates.len(), CHUNKS)
+            .into_iter()
+            .map(|rows| candidates.get(rows.end).copied().unwrap_or(usize::MAX))
+            .collect();
+        ChunkCuts(cuts)
+    }
+
+    /// The row ranges of a panel whose rows have these view loci (ascending), one per chunk
+    /// (some possibly empty).
+    pub fn row_ranges(&self, view_loci: impl Fn(usize) -> usize, rows: usize) -> Vec<std::ops::Range<usize>> {
+        let below = |cut: usize| partition_point(rows, |row| view_loci(row) < cut);
+        let mut start = 0;
+        self.0
+            .iter()
+            .map(|&cut| {
+                let end = below(cut);
+                let range = start..end;
+                start = end;
+                range
+            })
+            .collect()
+    }
+}
+
+/// The first index in `0..len` where `is_before` turns false (it must be monotone).
+fn partition_point(len: usize, is_before: impl Fn(usize) -> bool) -> usize {
+    let (mut low, mut high) = (0, len);
+    while low < high {
+        let middle = low + (high - low) / 2;
+        if is_before(middle) { low = middle + 1 } else { high = middle }
+    }
+    low
+}
+
 /// Sums every pair of the panel's loci (skipping same-chromosome pairs when asked), on rayon's
 /// threads, with a result independent of the thread count.
-pub fn sum_pairs(panel: &Panel, skip_same_chromosome: bool) -> PairSums {
-    let chunks = row_chunks(panel.loci.len(), CHUNKS);
+pub fn sum_pairs(panel: &Panel, skip_same_chromosome: bool, cuts: &ChunkCuts) -> PairSums {
+    let chunks = cuts.row_ranges(|row| panel.loci[row].view_locus, panel.loci.len());
     let parts: Vec<PairSums> = chunks
         .par_iter()
         .map(|rows| {
             let mut part = PairSums::empty(panel.loci.len(), panel.replicates);
             let mut scratch = Scratch::new(panel);
             for a in rows.clone() {
+                let mut row = Accumulator::default();
                 for b in a + 1..panel.loci.len() {
                     if skip_same_chromosome && same_chromosome(&panel.loci[a], &panel.loci[b]) {
                         part.same_chromosome += 1;
                         continue;
                     }
-                    add_pair(panel, a, b, &mut scratch, &mut part);
+                    add_pair(panel, (a, b), &mut scratch, &mut part, &mut row);
                 }
+                part.total.merge(&row);
+                part.with_locus[a].merge(&row);
             }
             part
         })
@@ -217,19 +279,21 @@ pub struct Moments {
 /// every product stays below 4S², exact in `i64` for any realistic S.
 pub fn weir_r_squared(moments: Moments) -> Option<f64> {
     let n = moments.samples;
-    if n < 2 {
-        return None;
-    }
     let [sx, sxx, sy, syy, sxy] = moments.sums;
-    let spread_x = n * sxx - sx * sx;
-    let spread_y = n * syy - sy * sy;
-    if spread_x <= 0 || spread_y <= 0 {
-        return None;
-    }
-    let covariance = (n * sxy - sx * sy) as f64;
-    let pearson_r2 = covariance * covariance / (spread_x as f64 * spread_y as f64);
-    let factor = n as f64 / (n - 1) as f64;
-    Some(pearson_r2 * factor * factor)
+    let r2 = r2_from_spreads(n as f64, (n * sxy - sx * sy) as f64, (n * sxx - sx * sx) as f64, (n * syy - sy * sy) as f64);
+    (!r2.is_nan()).then_some(r2)
+}
+
+/// r̂²_W from S and the exact integer quantities C = SΣxy − ΣxΣy, Vx = SΣx² − (Σx)² and
+/// Vy = SΣy² − (Σy)² (each below 4S², so exact as `f64` for S below 4·10⁷):
+/// C²·S²/(Vx·Vy·(S − 1)²), with one division. NaN when undefined (S < 2 or a spread ≤ 0).
+/// Both pair paths call this one function, so they agree to the last bit.
+#[inline(always)]
+pub fn r2_from_spreads(samples: f64, covariance: f64, spread_x: f64, spread_y: f64) -> f64 {
+    let defined = samples >= 2.0 && spread_x > 0.0 && spread_y > 0.0;
+    let less = samples - 1.0;
+    let r2 = (covariance * covariance) * (samples * samples) / ((spread_x * spread_y) * (less * less));
+    if defined { r2 } else { f64::NAN }
 }
 
 /// The slots evaluated for a pair: `FULL`, then each jackknife group.
@@ -249,14 +313,14 @@ fn complete_pair(panel: &Panel, a: &PanelLocus, b: &PanelLocus, scratch: &mut Sc
             let weight = weight_u * panel.weights[vector_v];
             for slot in slots(panel) {
                 let (mu, mv) = (panel.vector_moments[vector_u][slot], panel.vector_moments[vector_v][slot]);
-                let scale = mu.inverse_spread * mv.inverse_spread;
-                if scale.is_nan() {
-                    continue;
-                }
                 let n = i64::from(panel.samples_without(slot));
                 let sxy = if slot == FULL { cross_total } else { cross_total - i64::from(cross[slot]) };
                 let covariance = (n * sxy - mu.sum * mv.sum) as f64;
-                scratch.weighted[slot] += weight * covariance * covariance * scale * panel.weir_factor[slot];
+                let r2 = r2_from_spreads(n as f64, covariance, mu.spread as f64, mv.spread as f64);
+                if r2.is_nan() {
+                    continue;
+                }
+                scratch.weighted[slot] += weight * r2;
                 scratch.weights[slot] += weight;
             }
         }
@@ -344,7 +408,9 @@ fn pair_samples(panel: &Panel, a: &PanelLocus, b: &PanelLocus, joint: &LaneSums,
     if slot == FULL { total } else { total - joint[slot] }
 }
 
-fn add_pair(panel: &Panel, a: usize, b: usize, scratch: &mut Scratch, part: &mut PairSums) {
+/// Adds pair (a, b): its full-sample values to the row's sums and to locus b's, its
+/// per-deletion values to the jackknife sums.
+fn add_pair(panel: &Panel, (a, b): (usize, usize), scratch: &mut Scratch, part: &mut PairSums, row: &mut Accumulator) {
     scratch.weighted = [0.0; LANES + 1];
     scratch.weights = [0.0; LANES + 1];
     let (la, lb) = (&panel.loci[a], &panel.loci[b]);
@@ -363,8 +429,7 @@ fn add_pair(panel: &Panel, a: usize, b: usize, scratch: &mut Scratch, part: &mut
         part.undefined += 1;
         return;
     };
-    part.total.add(r2, samples, comparisons);
-    part.with_locus[a].add(r2, samples, comparisons);
+    row.add(r2, samples, comparisons);
     part.with_locus[b].add(r2, samples, comparisons);
     for slot in 0..panel.replicates {
         if let Some((r2, samples)) = pair_value(slot) {

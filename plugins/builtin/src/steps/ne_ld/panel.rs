@@ -133,8 +133,8 @@ pub struct PanelLocus {
 pub struct VectorMoments {
     /// Σ x over the individuals left.
     pub sum: i64,
-    /// 1/(S′Σx² − (Σx)²) over them; NaN when the dosage is constant there.
-    pub inverse_spread: f64,
+    /// S′Σx² − (Σx)² over them (0 when the dosage is constant there).
+    pub spread: i64,
 }
 
 /// The dosage panel of one group under one criterion.
@@ -148,8 +148,6 @@ pub struct Panel {
     pub replicates: usize,
     /// Individuals per lane.
     pub lane_counts: LaneSums,
-    /// ((S − left out)/(S − left out − 1))² per deletion slot (`FULL` = none), for complete pairs.
-    pub weir_factor: [f64; LANES + 1],
     /// Loci with at least two retained alleles.
     pub loci: Vec<PanelLocus>,
     /// Per panel locus, `samples` bytes: 1 where the individual is typed.
@@ -244,7 +242,6 @@ pub fn build_panel(view: &GenotypeView<'_>, request: &PanelRequest<'_>, order: &
         groups,
         replicates: if groups >= 2 { groups } else { 0 },
         lane_counts,
-        weir_factor: [f64::NAN; LANES + 1],
         loci: Vec::new(),
         masks: Vec::new(),
         dosages: Vec::new(),
@@ -253,10 +250,6 @@ pub fn build_panel(view: &GenotypeView<'_>, request: &PanelRequest<'_>, order: &
         vector_moments: Vec::new(),
         typed_lanes: Vec::new(),
     };
-    for slot in 0..=LANES {
-        let n = f64::from(panel.samples_without(slot));
-        panel.weir_factor[slot] = (n / (n - 1.0)).powi(2);
-    }
     let mut counts = AlleleCounts::default();
     for &locus in request.loci {
         view.allele_counts_into(locus, &request.group.samples, &mut counts);
@@ -325,7 +318,6 @@ fn deletion_moments(panel: &Panel, lanes: &[LaneSums; 2]) -> [VectorMoments; LAN
             (sum - i64::from(lanes[0][slot]), squares - i64::from(lanes[1][slot]))
         };
         let n = i64::from(panel.samples_without(slot));
-        let spread = n * left_squares - left_sum * left_sum;
-        VectorMoments { sum: left_sum, inverse_spread: if spread > 0 { 1.0 / spread as f64 } else { f64::NAN } }
+        VectorMoments { sum: left_sum, spread: n * left_squares - left_sum * left_sum }
     })
 }
