@@ -451,24 +451,19 @@ fn pair_weights(m: &SlotMoments) -> PairWeights {
 /// byte path's [`super::pairs::sum_pairs`] on that criterion's panel.
 pub fn sum_pairs_packed(panel: &PackedPanel, skip_same_chromosome: bool, cuts: &ChunkCuts) -> Vec<PairSums> {
     let chunks = cuts.row_ranges(|row| panel.loci[row].view_locus, panel.loci.len());
-    let parts: Vec<Vec<PairSums>> =
-        chunks.par_iter().map(|rows| chunk_sums_dispatch(panel, rows.clone(), skip_same_chromosome)).collect();
-    let mut sums: Vec<PairSums> =
-        panel.loci_in.iter().map(|&loci| PairSums::empty(loci, panel.replicates)).collect();
-    for part in &parts {
-        for (total, chunk) in sums.iter_mut().zip(part) {
-            total.merge(chunk);
-        }
-    }
-    panel.copy_shared(&mut sums);
-    sums
+    let parts = chunks.par_iter().map(|rows| chunk_sums_dispatch(panel, rows.clone(), skip_same_chromosome)).collect();
+    merge_chunks(panel, parts)
 }
 
 /// [`sum_pairs_packed`] with a chosen dense kernel (the equivalence tests run both).
 #[cfg(test)]
 pub fn sum_pairs_packed_with(panel: &PackedPanel, skip: bool, cuts: &ChunkCuts, kernel: Kernel) -> Vec<PairSums> {
     let chunks = cuts.row_ranges(|row| panel.loci[row].view_locus, panel.loci.len());
-    let parts: Vec<Vec<PairSums>> = chunks.iter().map(|rows| chunk_sums_with(panel, rows.clone(), skip, kernel)).collect();
+    merge_chunks(panel, chunks.iter().map(|rows| chunk_sums_with(panel, rows.clone(), skip, kernel)).collect())
+}
+
+/// The chunks' sums merged in chunk order, shared panels filled in.
+fn merge_chunks(panel: &PackedPanel, parts: Vec<Vec<PairSums>>) -> Vec<PairSums> {
     let mut sums: Vec<PairSums> = panel.loci_in.iter().map(|&loci| PairSums::empty(loci, panel.replicates)).collect();
     for part in &parts {
         for (total, chunk) in sums.iter_mut().zip(part) {
