@@ -27,6 +27,8 @@ struct Scenario {
     size: usize,
     samples: usize,
     replicates: u64,
+    /// `resample_max_loci` when the jackknife over individuals should run on a subset.
+    resample_max_loci: Option<usize>,
 }
 
 /// The measured accuracy of one scenario.
@@ -62,7 +64,11 @@ fn measure(scenario: &Scenario) -> Accuracy {
     let mut covered = [0usize; 3];
     for replicate in 0..scenario.replicates {
         let matrix = simulate(scenario, 1_000 + replicate);
-        let output = run_step(&NeLd, &matrix, json!({"pcrit": [0.02], "exclude_singletons": false}));
+        let mut params = json!({"pcrit": [0.02], "exclude_singletons": false});
+        if let Some(cap) = scenario.resample_max_loci {
+            params["resample_max_loci"] = json!(cap);
+        }
+        let output = run_step(&NeLd, &matrix, params);
         let estimates_table = table(&output, "estimates");
         let ne = number(estimates_table, 0, "ne").expect("an estimate");
         inverse_sum += 1.0 / ne;
@@ -91,12 +97,13 @@ fn measure(scenario: &Scenario) -> Accuracy {
 fn check(scenario: &Scenario) {
     let accuracy = measure(scenario);
     println!(
-        "ne-ld {}: Ne = {}, S = {}, {} loci, {} replicates, Pcrit 0.02: mean(1/Ne^)·Ne − 1 = {:+.3}, median Ne^ = {:.1}, \
+        "ne-ld {}: Ne = {}, S = {}, {} loci (resampling subset {:?}), {} replicates, Pcrit 0.02: mean(1/Ne^)·Ne − 1 = {:+.3}, median Ne^ = {:.1}, \
          inf = {}, coverage param = {:.2}, jack = {:.2}, resample = {:.2}",
         scenario.name,
         scenario.size,
         scenario.samples,
         scenario.loci,
+        scenario.resample_max_loci,
         scenario.replicates,
         accuracy.inverse_bias,
         accuracy.median_ne,
@@ -128,6 +135,7 @@ fn microsatellites_ne_50() {
         size: 50,
         samples: 50,
         replicates: 100,
+        resample_max_loci: None,
     });
 }
 
@@ -142,6 +150,7 @@ fn microsatellites_ne_200() {
         size: 200,
         samples: 100,
         replicates: 100,
+        resample_max_loci: None,
     });
 }
 
@@ -149,12 +158,29 @@ fn microsatellites_ne_200() {
 #[test]
 #[cfg_attr(debug_assertions, ignore = "statistical test: run with --release")]
 fn snps_ne_50() {
-    check(&Scenario { name: "SNPs", marker: snps(), loci: 500, size: 50, samples: 50, replicates: 100 });
+    check(&Scenario { name: "SNPs", marker: snps(), loci: 500, size: 50, samples: 50, replicates: 100, resample_max_loci: None });
 }
 
 /// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N): 500 SNPs, Ne = 200, S = 100.
 #[test]
 #[cfg_attr(debug_assertions, ignore = "statistical test: run with --release")]
 fn snps_ne_200() {
-    check(&Scenario { name: "SNPs", marker: snps(), loci: 500, size: 200, samples: 100, replicates: 100 });
+    check(&Scenario { name: "SNPs", marker: snps(), loci: 500, size: 200, samples: 100, replicates: 100, resample_max_loci: None });
+}
+
+/// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N): 500 SNPs, Ne = 50, S = 50, with the
+/// jackknife over individuals on a seeded subset of 100 loci (`resample_max_loci`): the
+/// recommended interval must still cover (issue 9: the subset keeps large panels fast).
+#[test]
+#[cfg_attr(debug_assertions, ignore = "statistical test: run with --release")]
+fn snps_ne_50_resampling_subset() {
+    check(&Scenario {
+        name: "SNPs",
+        marker: snps(),
+        loci: 500,
+        size: 50,
+        samples: 50,
+        replicates: 100,
+        resample_max_loci: Some(100),
+    });
 }
