@@ -264,7 +264,7 @@ fn issue_10_interrupt_kills_the_plugin_worker() {
     let sha = install(&case, MISBEHAVE, "libmisbehave.so");
     recipe_with(&case, &plugin_step("stuck", "libmisbehave.so", &sha, "[step.params]\nmode = \"hang\""));
     let tmpdir = tempfile::tempdir().unwrap();
-    let mut run = Command::new(env!("CARGO_BIN_EXE_popgauge"))
+    let run = Command::new(env!("CARGO_BIN_EXE_popgauge"))
         .args(["run", "case", "--out", "out"])
         .current_dir(case.root())
         .env("TMPDIR", tmpdir.path())
