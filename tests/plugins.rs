@@ -264,19 +264,10 @@ fn issue_10_interrupt_kills_the_plugin_worker() {
     let sha = install(&case, MISBEHAVE, "libmisbehave.so");
     recipe_with(&case, &plugin_step("stuck", "libmisbehave.so", &sha, "[step.params]\nmode = \"hang\""));
     let tmpdir = tempfile::tempdir().unwrap();
-    let run = Command::new(env!("CARGO_BIN_EXE_popgauge"))
-        .args(["run", "case", "--out", "out"])
-        .current_dir(case.root())
-        .env("TMPDIR", tmpdir.path())
-        .stdout(std::process::Stdio::null())
-        .stderr(std::process::Stdio::piped())
-        .spawn()
-        .unwrap();
+    let run = crate::support::spawn_run(&case, tmpdir.path());
     let worker = wait_for_worker(run.id());
-    // SAFETY: kill(2) with a child's pid and a signal number has no memory effects in this process.
-    assert_eq!(unsafe { libc::kill(run.id() as libc::pid_t, libc::SIGTERM) }, 0);
-    let output = run.wait_with_output().unwrap();
-    assert_eq!(output.status.code(), Some(130), "stderr: {}", String::from_utf8_lossy(&output.stderr));
+    let (code, stderr) = crate::support::interrupt(run, libc::SIGTERM);
+    assert_eq!(code, Some(130), "stderr: {stderr}");
     assert!(!alive(worker), "the worker process {worker} still runs after the run was interrupted");
     assert_eq!(crate::support::entries(case.root()), vec!["case"], "no output and no temporary folder");
     assert_eq!(crate::support::entries(tmpdir.path()), Vec::<String>::new(), "nothing left in TMPDIR");
