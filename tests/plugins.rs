@@ -28,7 +28,10 @@ pub fn plugin_library(package: &str) -> PathBuf {
     let library = String::from_utf8_lossy(&output.stdout)
         .lines()
         .filter_map(|line| serde_json::from_str::<serde_json::Value>(line).ok())
-        .filter(|m| m["reason"] == "compiler-artifact" && m["target"]["kind"].as_array().is_some_and(|k| k.iter().any(|k| k == "cdylib")))
+        .filter(|m| {
+            m["reason"] == "compiler-artifact"
+                && m["target"]["kind"].as_array().is_some_and(|k| k.iter().any(|k| k == "cdylib"))
+        })
         .flat_map(|m| m["filenames"].as_array().cloned().unwrap_or_default())
         .filter_map(|f| f.as_str().map(PathBuf::from))
         .find(|f| f.extension().is_some_and(|e| e == "so" || e == "dylib" || e == "dll"))
@@ -61,9 +64,18 @@ fn plugin_step(id: &str, library: &str, sha: &str, extra: &str) -> String {
 
 fn run_with_env(case: &Case, args: &[&str], env: &[(&str, &str)]) -> Output {
     let cwd = case.root();
-    let output = Command::new(env!("CARGO_BIN_EXE_popgauge")).args(args).envs(env.iter().copied()).current_dir(cwd).output().unwrap();
+    let output = Command::new(env!("CARGO_BIN_EXE_popgauge"))
+        .args(args)
+        .envs(env.iter().copied())
+        .current_dir(cwd)
+        .output()
+        .unwrap();
     let normalise = |bytes: &[u8]| String::from_utf8_lossy(bytes).replace(&cwd.display().to_string(), "<tmp>");
-    Output { code: output.status.code().unwrap_or(-1), stdout: normalise(&output.stdout), stderr: normalise(&output.stderr) }
+    Output {
+        code: output.status.code().unwrap_or(-1),
+        stdout: normalise(&output.stdout),
+        stderr: normalise(&output.stderr),
+    }
 }
 
 fn results(case: &Case) -> serde_json::Value {
@@ -100,7 +112,9 @@ fn refuses_a_wrong_hash() {
     recipe_with(&case, &plugin_step("ext", "libmisbehave.so", &pinned, ""));
     assert_refused(
         &case,
-        &format!("error: case.toml:17: step \"ext\": plugins/libmisbehave.so has SHA-256 {sha} but the recipe pins {pinned}\n  help: rebuild the library you reviewed, or update `sha256` after reviewing the change\n"),
+        &format!(
+            "error: case.toml:17: step \"ext\": plugins/libmisbehave.so has SHA-256 {sha} but the recipe pins {pinned}\n  help: rebuild the library you reviewed, or update `sha256` after reviewing the change\n"
+        ),
     );
 }
 
@@ -146,11 +160,19 @@ fn refuses_a_file_that_is_not_a_library() {
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2);
     assert!(
-        run.stderr.starts_with("error: case.toml:16: step \"ext\": plugins/libtext.so cannot be loaded as a shared library: "),
+        run.stderr.starts_with(
+            "error: case.toml:16: step \"ext\": plugins/libtext.so cannot be loaded as a shared library: "
+        ),
         "{}",
         run.stderr
     );
-    assert!(run.stderr.ends_with("\n  help: name a shared library built for this machine (.so on Linux, .dylib on macOS, .dll on Windows)\n"), "{}", run.stderr);
+    assert!(
+        run.stderr.ends_with(
+            "\n  help: name a shared library built for this machine (.so on Linux, .dylib on macOS, .dll on Windows)\n"
+        ),
+        "{}",
+        run.stderr
+    );
 }
 
 #[test]
@@ -191,16 +213,29 @@ fn failures_while_running_are_contained() {
     let failing = [
         ("error", "", "deliberate step error"),
         ("panic", "", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:34:24: deliberate panic in run"),
-        ("panic", "isolation = \"in-process\"", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:34:24: deliberate panic in run"),
+        (
+            "panic",
+            "isolation = \"in-process\"",
+            "the plugin panicked at tests/plugins/misbehave/src/lib.rs:34:24: deliberate panic in run",
+        ),
         ("segfault", "", "the plugin crashed (signal 11, segmentation fault)"),
         ("abort", "", "the plugin crashed (signal 6, aborted)"),
         ("hang", "timeout_seconds = 1", "the plugin did not finish within 1 s and was stopped"),
-        ("invalid-json", "", "the plugin returned a result that is not valid output JSON: expected ident at line 1 column 13"),
+        (
+            "invalid-json",
+            "",
+            "the plugin returned a result that is not valid output JSON: expected ident at line 1 column 13",
+        ),
         ("ragged", "", "table `counts`: row 1 has 1 cells but the table has 2 columns"),
     ];
     let mut steps = String::from("[[step]]\nid = \"qc\"\nuses = \"validate\"\n[step.params]\nmin_group_size = 3\n\n");
     for (i, (mode, extra, _)) in failing.iter().enumerate() {
-        steps.push_str(&plugin_step(&format!("bad{i}"), "libmisbehave.so", &sha, &format!("{extra}\n[step.params]\nmode = \"{mode}\"")));
+        steps.push_str(&plugin_step(
+            &format!("bad{i}"),
+            "libmisbehave.so",
+            &sha,
+            &format!("{extra}\n[step.params]\nmode = \"{mode}\""),
+        ));
     }
     steps.push_str(&plugin_step("good", "libmisbehave.so", &sha, ""));
     steps.push_str("[[step]]\nid = \"diversity\"\nuses = \"diversity\"\n");
@@ -220,6 +255,54 @@ fn failures_while_running_are_contained() {
     assert_eq!(step(&doc, "diversity")["tables"]["by_group"]["rows"].as_array().unwrap().len(), 2);
 }
 
+/// Issue 10: SIGTERM while a plugin hangs in its worker process kills the worker (it is not
+/// left to its ten-minute time limit) and leaves no output and no temporary folder.
+#[cfg(target_os = "linux")]
+#[test]
+fn issue_10_interrupt_kills_the_plugin_worker() {
+    let case = Case::fixture("minimal");
+    let sha = install(&case, MISBEHAVE, "libmisbehave.so");
+    recipe_with(&case, &plugin_step("stuck", "libmisbehave.so", &sha, "[step.params]\nmode = \"hang\""));
+    let tmpdir = tempfile::tempdir().unwrap();
+    let run = crate::support::spawn_run(&case, tmpdir.path());
+    let worker = wait_for_worker(run.id());
+    let (code, stderr) = crate::support::interrupt(run, libc::SIGTERM);
+    assert_eq!(code, Some(130), "stderr: {stderr}");
+    assert!(!alive(worker), "the worker process {worker} still runs after the run was interrupted");
+    assert_eq!(crate::support::entries(case.root()), vec!["case"], "no output and no temporary folder");
+    assert_eq!(crate::support::entries(tmpdir.path()), Vec::<String>::new(), "nothing left in TMPDIR");
+}
+
+/// The pid of `parent`'s `plugin-worker` child, once it runs (polled; a failure names the wait).
+#[cfg(target_os = "linux")]
+fn wait_for_worker(parent: u32) -> u32 {
+    for _ in 0..600 {
+        let children =
+            std::fs::read_dir("/proc").unwrap().filter_map(|e| e.ok()?.file_name().to_str()?.parse::<u32>().ok());
+        for pid in children {
+            let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).unwrap_or_default();
+            // Fields after the parenthesised command name: state, ppid, …
+            let ppid = stat.rsplit_once(')').and_then(|(_, rest)| rest.split_whitespace().nth(1)?.parse::<u32>().ok());
+            let cmdline = std::fs::read(format!("/proc/{pid}/cmdline")).unwrap_or_default();
+            if ppid == Some(parent) && cmdline.split(|b| *b == 0).any(|arg| arg == b"plugin-worker") {
+                return pid;
+            }
+        }
+        std::thread::sleep(std::time::Duration::from_millis(100));
+    }
+    panic!("no plugin worker started within a minute");
+}
+
+/// Whether `pid` is still a live plugin worker (a zombie awaiting its reaper counts as ended,
+/// and so does a new process that happens to reuse the number).
+#[cfg(target_os = "linux")]
+fn alive(pid: u32) -> bool {
+    let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).unwrap_or_default();
+    let state = stat.rsplit_once(')').and_then(|(_, rest)| rest.split_whitespace().next());
+    let cmdline = std::fs::read(format!("/proc/{pid}/cmdline")).unwrap_or_default();
+    matches!(state, Some(s) if s != "Z" && s != "X") && cmdline.split(|b| *b == 0).any(|arg| arg == b"plugin-worker")
+}
+
 /// The demo of the example plugin as its README shows it: hash from `popgauge steps --plugin`,
 /// recipe lines pasted, results and provenance carrying the library's hash and descriptor.
 #[test]
@@ -232,13 +315,22 @@ fn example_plugin_runs_and_is_recorded_in_provenance() {
         described.stdout.replace(&sha, "<sha>"),
         "relatedness-qg 0.1.0\n  Mean pairwise relatedness per group (Queller & Goodnight 1989) with a bootstrap CI over loci\n  bootstrap              whole number 0–100000 (default 1000)\n                         bootstrap replicates over loci for the interval of r_mean (0 = none)\n  pairs_table            true/false (default true)\n                         also write the r of every pair (table `pairs`)\n\nlibrary: case/plugins/librelatedness.so\nsha256:  <sha>\n\nRecipe lines (the path is relative to the case folder; review the library before pinning it):\n\n[[step]]\nid = \"relatedness-qg\"\nuses = \"plugin:case/plugins/librelatedness.so\"\nsha256 = \"<sha>\"\n"
     );
-    recipe_with(&case, &format!("{QC_AND_DIVERSITY}\n{}", plugin_step("kin", "librelatedness.so", &sha, "[step.params]\nbootstrap = 200")));
+    recipe_with(
+        &case,
+        &format!(
+            "{QC_AND_DIVERSITY}\n{}",
+            plugin_step("kin", "librelatedness.so", &sha, "[step.params]\nbootstrap = 200")
+        ),
+    );
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let doc = results(&case);
     let kin = step(&doc, "kin");
     assert_eq!((kin["status"].as_str(), kin["uses"].as_str()), (Some("ok"), Some("relatedness-qg")));
-    assert_eq!(kin["tables"]["by_group"]["columns"], serde_json::json!(["population", "year", "n", "pairs", "loci", "r_mean", "r_low", "r_high"]));
+    assert_eq!(
+        kin["tables"]["by_group"]["columns"],
+        serde_json::json!(["population", "year", "n", "pairs", "loci", "r_mean", "r_low", "r_high"])
+    );
     assert_eq!(kin["tables"]["by_group"]["rows"][0][3], 6, "North 2020: 4 samples, 6 pairs");
     assert!(case.path().join("out/tables/kin.by_group.csv").exists());
     let prov: serde_json::Value = serde_json::from_str(&case.read("out/provenance.json")).unwrap();
@@ -278,7 +370,10 @@ fn a_builtin_exported_as_a_plugin_gives_identical_results() {
             assert_eq!(external[key], builtin[key], "{id}: {key}");
         }
         for table in ["by_group", "by_locus"] {
-            assert_eq!(case.read(&format!("out/tables/{id}.{table}.csv")), case.read(&format!("out/tables/diversity.{table}.csv")));
+            assert_eq!(
+                case.read(&format!("out/tables/{id}.{table}.csv")),
+                case.read(&format!("out/tables/diversity.{table}.csv"))
+            );
         }
     }
 }
@@ -313,13 +408,17 @@ fn a_c_plugin_built_from_the_header_runs() {
     assert!(compiled.status.success(), "{}", String::from_utf8_lossy(&compiled.stderr));
     let bytes = std::fs::read(&library).unwrap();
     case.write("plugins/libcount.so", &bytes);
-    recipe_with(&case, &format!("{QC_AND_DIVERSITY}\n{}", plugin_step("count", "libcount.so", &sha256_hex(&bytes), "")));
+    recipe_with(
+        &case,
+        &format!("{QC_AND_DIVERSITY}\n{}", plugin_step("count", "libcount.so", &sha256_hex(&bytes), "")),
+    );
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let doc = results(&case);
     let by_locus = &step(&doc, "diversity")["tables"]["by_locus"];
     let columns = by_locus["columns"].as_array().unwrap();
-    let (locus, n) = (columns.iter().position(|c| c == "locus").unwrap(), columns.iter().position(|c| c == "n").unwrap());
+    let (locus, n) =
+        (columns.iter().position(|c| c == "locus").unwrap(), columns.iter().position(|c| c == "n").unwrap());
     let mut expected: Vec<serde_json::Value> = Vec::new();
     for row in by_locus["rows"].as_array().unwrap() {
         match expected.iter_mut().find(|e| e[0] == row[locus]) {

@@ -217,20 +217,11 @@ fn issue_10_sigterm_leaves_nothing_behind() {
 fn interrupted_run_leaves_nothing_behind(signal: libc::c_int) {
     let case = slow_case();
     let tmpdir = tempfile::tempdir().unwrap();
-    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_popgauge"))
-        .args(["run", "case", "--out", "out"])
-        .current_dir(case.root())
-        .env("TMPDIR", tmpdir.path())
-        .stdout(std::process::Stdio::null())
-        .stderr(std::process::Stdio::piped())
-        .spawn()
-        .unwrap();
+    let mut child = crate::support::spawn_run(&case, tmpdir.path());
     std::thread::sleep(std::time::Duration::from_millis(1500));
     assert!(child.try_wait().unwrap().is_none(), "the run ended before Ctrl-C; make slow_case slower");
-    // SAFETY: kill(2) with a child's pid and a signal number has no memory effects in this process.
-    assert_eq!(unsafe { libc::kill(child.id() as libc::pid_t, signal) }, 0);
-    let output = child.wait_with_output().unwrap();
-    assert_eq!(output.status.code(), Some(130), "stderr: {}", String::from_utf8_lossy(&output.stderr));
+    let (code, stderr) = crate::support::interrupt(child, signal);
+    assert_eq!(code, Some(130), "stderr: {stderr}");
     assert_eq!(entries(case.root()), vec!["case"], "no output and no temporary folder");
     assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
     assert_eq!(entries(tmpdir.path()), Vec::<String>::new(), "nothing left in TMPDIR");

@@ -100,6 +100,27 @@ pub fn popgauge(args: &[&str], cwd: &Path) -> Output {
     }
 }
 
+/// Starts `popgauge run case --out out` in `case` in the background, with `TMPDIR` set to
+/// `tmpdir` (so a test can see what the run leaves there).
+pub fn spawn_run(case: &Case, tmpdir: &Path) -> std::process::Child {
+    Command::new(env!("CARGO_BIN_EXE_popgauge"))
+        .args(["run", "case", "--out", "out"])
+        .current_dir(case.root())
+        .env("TMPDIR", tmpdir)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("start popgauge run")
+}
+
+/// Sends `signal` to a running child and waits for it: its exit code and standard error.
+pub fn interrupt(child: std::process::Child, signal: libc::c_int) -> (Option<i32>, String) {
+    // SAFETY: kill(2) with a child's pid and a signal number has no memory effects in this process.
+    assert_eq!(unsafe { libc::kill(child.id() as libc::pid_t, signal) }, 0);
+    let output = child.wait_with_output().expect("wait for popgauge run");
+    (output.status.code(), String::from_utf8_lossy(&output.stderr).into_owned())
+}
+
 /// Names of the entries of a folder, sorted.
 pub fn entries(dir: &Path) -> Vec<String> {
     let mut names: Vec<String> = std::fs::read_dir(dir)

@@ -35,6 +35,9 @@ use crate::progress::Progress;
 use crate::provenance::hash::{DigestingReader, FileDigest};
 use crate::recipe::SiteFilters;
 use crate::source::{Location, excerpt};
+use panic_guard::PanicGuard;
+
+mod panic_guard;
 
 /// The first two bytes of every gzip (and so every bgzip) stream.
 const GZIP_MAGIC: [u8; 2] = [0x1f, 0x8b];
@@ -129,11 +132,12 @@ fn read_stream<R: BufRead>(
     }
     let mut builder = MatrixBuilder::new(columns, header_lines, options);
     let mut record = vcf::Record::default();
+    let guard = PanicGuard::install();
     loop {
         let line = builder.next_line();
         match reader.read_record(&mut record) {
             Ok(0) => break,
-            Ok(_) => match without_panics(|| builder.add_record(&record, line)) {
+            Ok(_) => match guard.contain(|| builder.add_record(&record, line)) {
                 Some(added) => added?,
                 None => {
                     return Err(DataError::VcfRecord {
@@ -151,20 +155,6 @@ fn read_stream<R: BufRead>(
         }
     }
     builder.finish()
-}
-
-/// Runs `read`, turning a panic inside the VCF parsing crate into `None` without printing it.
-///
-/// noodles-vcf 0.96 can panic on some malformed records when a field is asked for (found by
-/// fuzzing: a slice ending inside a multi-byte character); a data file must give a clean
-/// refusal instead. The panic hook is silenced only for the call, on the reading thread,
-/// before any step runs.
-fn without_panics<T>(read: impl FnOnce() -> T) -> Option<T> {
-    let previous = std::panic::take_hook();
-    std::panic::set_hook(Box::new(|_| {}));
-    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(read));
-    std::panic::set_hook(previous);
-    result.ok()
 }
 
 /// Reads and parses the header; returns it with its number of lines.

@@ -109,7 +109,9 @@ pub fn describe_in_child(library: &Path, shown: &str, timeout: Duration) -> Resu
     let request = WorkerRequest { library: library.into(), shown: shown.into(), action: Action::Describe };
     let worker_failed = |f: ChildFailure| LoadError::Worker { path: shown.into(), reason: f.reason() };
     match call_child(&request, timeout).map_err(worker_failed)? {
-        WorkerResponse::Called { status: popgauge_abi::ffi::STATUS_OK, output } => parse_descriptor(output.as_bytes(), shown),
+        WorkerResponse::Called { status: popgauge_abi::ffi::STATUS_OK, output } => {
+            parse_descriptor(output.as_bytes(), shown)
+        }
         WorkerResponse::Called { output, .. } => {
             Err(LoadError::Descriptor { path: shown.into(), reason: format!("describing itself failed: {output}") })
         }
@@ -158,7 +160,8 @@ pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
         active_loci: call.view.locus_indices().to_vec(),
         request: String::from_utf8_lossy(call.request).into_owned(),
     };
-    let request = WorkerRequest { library: call.library.into(), shown: call.shown.into(), action: Action::Run(payload) };
+    let request =
+        WorkerRequest { library: call.library.into(), shown: call.shown.into(), action: Action::Run(payload) };
     match call_child(&request, call.timeout).map_err(|f| StepError::new(format!("the plugin {}", f.reason())))? {
         WorkerResponse::Called { status, output } => Ok((status, output.into_bytes())),
         WorkerResponse::Refused { error } => Err(StepError::new(error.to_string())),
@@ -195,13 +198,15 @@ fn worker_executable() -> std::io::Result<PathBuf> {
 fn call_child(request: &WorkerRequest, timeout: Duration) -> Result<WorkerResponse, ChildFailure> {
     let input = serde_json::to_vec(request).map_err(|e| ChildFailure::Spawn(e.to_string()))?;
     let executable = worker_executable().map_err(|e| ChildFailure::Spawn(e.to_string()))?;
-    let mut child = Command::new(executable)
-        .arg("plugin-worker")
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .map_err(|e| ChildFailure::Spawn(e.to_string()))?;
+    // An interrupt of the run kills the worker (see `interrupt`).
+    let mut child = crate::interrupt::spawn_worker(
+        Command::new(executable)
+            .arg("plugin-worker")
+            .stdin(Stdio::piped())
+            .stdout(Stdio::piped())
+            .stderr(Stdio::piped()),
+    )
+    .map_err(|e| ChildFailure::Spawn(e.to_string()))?;
     let mut stdin = child.stdin.take();
     let writer = std::thread::spawn(move || {
         // A child that dies before reading closes the pipe; its exit status tells why.
@@ -211,7 +216,7 @@ fn call_child(request: &WorkerRequest, timeout: Duration) -> Result<WorkerRespon
     });
     let stdout = child.stdout.take().map(read_in_thread);
     let stderr = child.stderr.take().map(read_in_thread);
-    let status = wait_with_limit(&mut child, timeout)?;
+    let status = wait_with_limit(&child, timeout)?;
     let _ = writer.join();
     let output = stdout.and_then(|h| h.join().ok()).unwrap_or_default();
     let errors = stderr.and_then(|h| h.join().ok()).unwrap_or_default();
@@ -238,7 +243,7 @@ fn read_in_thread(mut pipe: impl Read + Send + 'static) -> std::thread::JoinHand
     })
 }
 
-fn wait_with_limit(child: &mut std::process::Child, timeout: Duration) -> Result<ExitStatus, ChildFailure> {
+fn wait_with_limit(child: &crate::interrupt::Worker, timeout: Duration) -> Result<ExitStatus, ChildFailure> {
     let started = Instant::now();
     let mut pause = Duration::from_millis(1);
     loop {
@@ -246,7 +251,6 @@ fn wait_with_limit(child: &mut std::process::Child, timeout: Duration) -> Result
             Ok(Some(status)) => return Ok(status),
             Ok(None) if started.elapsed() >= timeout => {
                 let _ = child.kill();
-                let _ = child.wait();
                 return Err(ChildFailure::TimedOut(timeout));
             }
             Ok(None) => {
@@ -370,11 +374,8 @@ fn run_payload(library: &LoadedLibrary, payload: RunPayload) -> WorkerResponse {
     }
     // SAFETY: `AlleleCode` is `repr(transparent)` over `u16`.
     let codes: &[AlleleCode] = unsafe { std::slice::from_raw_parts(codes.as_ptr().cast(), codes.len()) };
-    let samples = payload
-        .samples
-        .into_iter()
-        .map(|s| SampleMeta { id: s.id, population: s.population, year: s.year })
-        .collect();
+    let samples =
+        payload.samples.into_iter().map(|s| SampleMeta { id: s.id, population: s.population, year: s.year }).collect();
     let loci = payload
         .loci
         .into_iter()
@@ -386,7 +387,9 @@ fn run_payload(library: &LoadedLibrary, payload: RunPayload) -> WorkerResponse {
         Err(e) => return failed(format!("the genotype file does not fit the metadata: {e}")),
     };
     let in_range = |indices: &[usize], n: usize| indices.iter().all(|&i| i < n);
-    if !in_range(&payload.active_samples, matrix.samples().len()) || !in_range(&payload.active_loci, matrix.loci().len()) {
+    if !in_range(&payload.active_samples, matrix.samples().len())
+        || !in_range(&payload.active_loci, matrix.loci().len())
+    {
         return failed("an active sample or locus index is out of range".into());
     }
     let view = GenotypeView::new(&matrix, &payload.active_samples, &payload.active_loci);

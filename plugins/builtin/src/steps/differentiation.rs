@@ -78,6 +78,7 @@
 
 mod ibd;
 mod pairs;
+mod special_values;
 #[cfg(test)]
 mod tests;
 
@@ -182,6 +183,7 @@ impl Step for Differentiation {
             output.tables.insert("ibd_test".into(), ibd_test_table(&isolation)?);
         }
         output.findings = collect_findings(&ctx.view, &estimates, &params, isolation.findings.clone());
+        output.findings.extend(special_values::findings(&output.tables, &params));
         output.citations = citations(!isolation.tests.is_empty());
         Ok(output)
     }

@@ -131,8 +131,10 @@ impl Step for Diversity {
         let intervals = fis_intervals(&groups, params.bootstrap, ctx.seed);
         let mut output = StepOutput::default();
         output.tables.insert("by_locus".into(), tables::by_locus(&ctx.view, &groups, &richness)?);
-        output.tables.insert("by_group".into(), tables::by_group(&groups, &richness, &intervals)?);
+        let by_group = tables::by_group(&groups, &richness, &intervals)?;
         output.findings = findings::collect(&ctx.view, &groups, &richness, &params);
+        output.findings.extend(findings::undefined_in_groups(&by_group, params.bootstrap));
+        output.tables.insert("by_group".into(), by_group);
         output.citations = citations();
         Ok(output)
     }

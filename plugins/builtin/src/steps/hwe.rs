@@ -41,12 +41,14 @@
 //! - `by_group`: population, year, loci_tested, chi2, df, p_value.
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, GenotypeView, Group, ParamKind, Seed, Step, StepContext, StepError, StepOutput,
+    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, ParamKind, Seed, Step, StepContext,
+    StepError, StepOutput, Table,
 };
 use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
+use crate::special_values::{explain, group_name, rows_where};
 use crate::stats::fdr::{
     BENJAMINI_HOCHBERG_1995, FISHER_1932, FisherCombination, benjamini_hochberg, fisher_combination,
 };
@@ -103,8 +105,10 @@ impl Step for Hwe {
         let combined: Vec<Option<FisherCombination>> = results.iter().map(combine_group).collect();
         let mut output = StepOutput::default();
         output.tables.insert("by_locus".into(), tables::by_locus(&ctx.view, &groups, &results)?);
-        output.tables.insert("by_group".into(), tables::by_group(&groups, &results, &combined)?);
+        let by_group = tables::by_group(&groups, &results, &combined)?;
         output.findings = findings::collect(&ctx.view, &groups, &results, family_size, &settings);
+        output.findings.extend(untested_groups_finding(&by_group));
+        output.tables.insert("by_group".into(), by_group);
         output.citations = citations();
         Ok(output)
     }
@@ -272,6 +276,18 @@ fn citations() -> Vec<String> {
 /// A count as a table integer (counts never approach `i64::MAX`).
 fn count_cell(count: usize) -> Cell {
     Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
+}
+
+/// One finding for the groups in which no locus was tested, whose Fisher combination (chi2,
+/// df, p_value of `by_group`) is therefore null.
+fn untested_groups_finding(by_group: &Table) -> Option<Finding> {
+    let groups = rows_where(by_group, |r| r.is_null("chi2"), group_name);
+    explain(FindingLevel::Info, "hwe-group-untested", &groups, |n, list| {
+        format!(
+            "{n} group(s) have no testable locus (every locus monomorphic there or typed in fewer than two \
+             individuals), so their Fisher combination (chi2, df, p_value in by_group) is null: {list}"
+        )
+    })
 }
 
 #[cfg(test)]

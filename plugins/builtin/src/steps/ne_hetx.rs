@@ -31,10 +31,11 @@
 //! See [`CITATIONS`].
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, Step, StepContext, StepError, StepOutput, Table,
-    Where,
+    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, Step, StepContext, StepError,
+    StepOutput, Table, Where,
 };
 
+use crate::special_values::{explain, group_name, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error};
 use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
 use crate::stats::intervals::student_t_interval;
@@ -79,8 +80,10 @@ impl Step for NeHetx {
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
         let groups: Vec<GroupEstimate> = ctx.view.groups().into_iter().map(|g| estimate_group(&ctx.view, g)).collect();
         let mut output = StepOutput::default();
-        output.tables.insert("estimates".into(), estimates_table(&groups)?);
+        let estimates = estimates_table(&groups)?;
         output.findings = collect_findings(&groups);
+        output.findings.extend(special_value_findings(&estimates));
+        output.tables.insert("estimates".into(), estimates);
         output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
         Ok(output)
     }
@@ -202,6 +205,26 @@ fn collect_findings(groups: &[GroupEstimate]) -> Vec<Finding> {
     findings
 }
 
+/// The findings for interval cells that are `"inf"` or `null` while the point estimate is
+/// defined (a `null` or `"inf"` point has its own finding above).
+fn special_value_findings(estimates: &Table) -> Vec<Finding> {
+    let upper = rows_where(estimates, |r| r.is_finite("ne") && r.is_inf("ne_high"), group_name);
+    let missing = rows_where(estimates, |r| r.is_finite("d") && r.is_null("d_low"), group_name);
+    let infinite_upper = explain(FindingLevel::Info, "infinite-upper-bound", &upper, |n, list| {
+        format!(
+            "{n} group(s) have ne_high \"inf\" because the lower bound of D (d_low) is 0 or below: the data are \
+             consistent with a very large number of breeders and only ne_low constrains Nb: {list}"
+        )
+    });
+    let no_interval = explain(FindingLevel::Info, "no-interval", &missing, |n, list| {
+        format!(
+            "{n} group(s) have d_low, d_high, ne_low and ne_high null because the jackknife over loci needs at least \
+             two polymorphic loci: {list}"
+        )
+    });
+    infinite_upper.into_iter().chain(no_interval).collect()
+}
+
 fn infinite_finding(name: &str, location: Where) -> Finding {
     Finding::info(
         "infinite-estimate",
@@ -257,6 +280,15 @@ mod tests {
         assert_eq!(cell(estimates, 0, "ne_high"), &Cell::Inf);
         assert_eq!(findings_with(&output, "low-sample-size").len(), 1);
         assert_eq!(findings_with(&output, "few-loci").len(), 1);
+        // DESIGN: the "inf" upper bound comes with a finding naming the group (common practice).
+        let upper = findings_with(&output, "infinite-upper-bound");
+        assert_eq!(upper.len(), 1);
+        assert!(
+            upper[0].message.contains("ne_high") && upper[0].message.ends_with(": Cohort 2023"),
+            "{}",
+            upper[0].message
+        );
+        assert!(findings_with(&output, "no-interval").is_empty());
     }
 
     /// METHODS §7: a heterozygote deficit (D̄ < 0) gives "inf" with a finding saying what it
@@ -278,6 +310,16 @@ mod tests {
         assert_eq!(infinite.len(), 1);
         assert!(infinite[0].message.contains("cannot distinguish Nb from infinity"));
         assert_eq!(findings_with(&output, "no-estimate")[0].location, Where::group("Mono", 2020));
+        // One locus: no jackknife interval, explained once, naming the group (the null point
+        // of "Mono" has its own no-estimate finding and is not listed again).
+        assert_eq!(number(estimates, 0, "ne_low"), None);
+        let no_interval = findings_with(&output, "no-interval");
+        assert_eq!(no_interval.len(), 1);
+        assert!(no_interval[0].message.ends_with("two polymorphic loci: Deficit 2020"), "{}", no_interval[0].message);
+        assert!(
+            findings_with(&output, "infinite-upper-bound").is_empty(),
+            "ne itself is inf: infinite-estimate says so"
+        );
         let caution = &findings_with(&output, "ne-interpretation")[0].message;
         assert!(caution.contains("one cohort") && caution.contains("qualified geneticist"));
     }

@@ -89,8 +89,8 @@ mod panel;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Cell, Descriptor, Finding, GenotypeView, Group, LocusIdx, ParamKind, SampleIdx, Seed, Step, StepContext, StepError,
-    StepOutput, Table, Where,
+    Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, LocusIdx, ParamKind, SampleIdx, Seed, Step,
+    StepContext, StepError, StepOutput, Table, Where,
 };
 use rand::RngExt;
 use serde::Deserialize;
@@ -100,6 +100,7 @@ use self::estimate::{LdEstimate, Mating, estimate};
 use self::packed::{PackedPanel, PackedRequest, sum_pairs_packed};
 use self::pairs::{ChunkCuts, PairSums, sum_pairs};
 use self::panel::{Criterion, PanelRequest, build_panel, chromosome_ids, shuffled_samples};
+use crate::special_values::{Row, explain, rows_where};
 use crate::stats::bootstrap::rng;
 
 pub use self::estimate::{expected_sample_r2, ne_from_drift_r2, ne_from_r2};
@@ -234,8 +235,10 @@ fn run_with(ctx: &StepContext<'_>, path: PairPath) -> Result<StepOutput, StepErr
     let plan = LociPlan::new(&ctx.view, &params, loci, ctx.seed);
     let groups = estimate_groups(&ctx.view, &params, &criteria, &plan, ctx.seed, path);
     let mut output = StepOutput::default();
-    output.tables.insert("estimates".into(), estimates_table(&groups)?);
+    let estimates = estimates_table(&groups)?;
     output.findings = collect_findings(&ctx.view, &params, &plan, &groups);
+    output.findings.extend(missing_interval_finding(&estimates));
+    output.tables.insert("estimates".into(), estimates);
     output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
     Ok(output)
 }
@@ -532,8 +535,7 @@ fn row_codes(estimate: Option<&LdEstimate>) -> Vec<&'static str> {
     }
     if e.ne.is_infinite() {
         codes.push("infinite-estimate");
-    } else if e.resample.is_some_and(|i| i.high.is_infinite()) || e.jackknife_loci.is_some_and(|i| i.high.is_infinite())
-    {
+    } else if [e.resample, e.jackknife_loci, e.parametric].iter().flatten().any(|i| i.high.is_infinite()) {
         codes.push("infinite-upper-bound");
     }
     codes
@@ -570,6 +572,30 @@ fn group_finding(code: &'static str, name: &str, criteria: &str, group: &Group) 
     };
     let level_is_warning = code != "infinite-upper-bound";
     if level_is_warning { Finding::warning(code, message, location) } else { Finding::info(code, message, location) }
+}
+
+/// One `no-interval` finding for the rows whose estimate is defined but some of its intervals
+/// are `null` (a `null` estimate has its `no-estimate` finding, an `"inf"` bound its own).
+fn missing_interval_finding(estimates: &Table) -> Option<Finding> {
+    let missing = |r: &Row<'_>| {
+        let methods = [("ne_param_low", "ne_param"), ("ne_jack_low", "ne_jack"), ("ne_resample_low", "ne_resample")];
+        let none: Vec<&str> = methods.iter().filter(|(low, _)| r.is_null(low)).map(|m| m.1).collect();
+        if r.is_null("ne") { String::new() } else { none.join(", ") }
+    };
+    let name = |r: &Row<'_>| {
+        let criterion =
+            if r.text("pcrit") == "singletons" { "no singletons".into() } else { format!("Pcrit {}", r.text("pcrit")) };
+        format!("{} {} {criterion} ({})", r.text("population"), r.text("year"), missing(r))
+    };
+    let rows = rows_where(estimates, |r| !missing(r).is_empty(), name);
+    explain(FindingLevel::Info, "no-interval", &rows, |n, list| {
+        format!(
+            "{n} estimate(s) lack some of their 95% intervals (those low, high and df columns are null): ne_jack_* \
+             need at least three loci in usable pairs and some variation among them, ne_resample_* at least two \
+             groups of individuals (individual_blocks = 0 turns them off) and some variation among them, and \
+             ne_param_* at least one independent comparison; read the estimate with the intervals that remain: {list}"
+        )
+    })
 }
 
 fn interval_methods_finding() -> Finding {

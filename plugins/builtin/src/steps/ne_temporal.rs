@@ -54,12 +54,13 @@
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    AlleleCounts, AssessmentInfo, Cell, Descriptor, Finding, GenotypeView, Group, ParamKind, Step, StepContext,
-    StepError, StepOutput, Table, Where,
+    AlleleCounts, AssessmentInfo, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, ParamKind, Step,
+    StepContext, StepError, StepOutput, Table, Where,
 };
 use serde::Deserialize;
 use serde_json::json;
 
+use crate::special_values::{Row, explain, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error};
 use crate::stats::intervals::{chi_square_interval, student_t_interval};
 
@@ -138,8 +139,10 @@ impl Step for NeTemporal {
             .map(|(start, end)| compare(&ctx.view, ctx.assessment, params.plan, start, end))
             .collect();
         let mut output = StepOutput::default();
-        output.tables.insert("estimates".into(), estimates_table(&results)?);
+        let estimates = estimates_table(&results)?;
         output.findings = collect_findings(&ctx.view, ctx.assessment, &results);
+        output.findings.extend(special_value_findings(&estimates));
+        output.tables.insert("estimates".into(), estimates);
         output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
         Ok(output)
     }
@@ -478,6 +481,57 @@ fn collect_findings(view: &GenotypeView<'_>, assessment: &AssessmentInfo, result
         Where::default(),
     ));
     findings
+}
+
+/// Each estimate column with its interval's (low, high) columns.
+const ESTIMATE_INTERVALS: [(&str, &str, &str); 3] =
+    [("ne_fs", "ne_low", "ne_high"), ("ne_fc", "ne_fc_low", "ne_fc_high"), ("ne_fk", "ne_fk_low", "ne_fk_high")];
+
+/// The findings for `"inf"` and `null` cells of the `estimates` table that the findings above
+/// do not explain: an infinite F_c or F_k estimate, an infinite upper bound of a finite
+/// estimate, and a missing interval of a defined estimate (each listing the comparisons).
+fn special_value_findings(estimates: &Table) -> Vec<Finding> {
+    let comparison = |r: &Row<'_>| format!("{} {}–{}", r.text("population"), r.text("year_start"), r.text("year_end"));
+    let named = |r: &Row<'_>, columns: String| format!("{} ({columns})", comparison(r));
+    let listed =
+        |columns: fn(&Row<'_>) -> String| rows_where(estimates, |r| !columns(r).is_empty(), |r| named(r, columns(r)));
+    let infinite = listed(|r| r.columns_where(&["ne_fc", "ne_fk"], |r, c| r.is_inf(c)));
+    let upper = listed(|r| {
+        let open: Vec<&str> =
+            ESTIMATE_INTERVALS.iter().filter(|(e, _, h)| r.is_finite(e) && r.is_inf(h)).map(|t| t.2).collect();
+        open.join(", ")
+    });
+    let missing = listed(|r| {
+        let none: Vec<&str> = ESTIMATE_INTERVALS
+            .iter()
+            .filter(|(e, l, _)| r.cell(e).is_some_and(|c| c.as_f64().is_some()) && r.is_null(l))
+            .map(|t| t.0)
+            .collect();
+        none.join(", ")
+    });
+    let findings = [
+        explain(FindingLevel::Warning, "infinite-estimate-fc-fk", &infinite, |n, list| {
+            format!(
+                "{n} comparison(s) have ne_fc or ne_fk \"inf\" because the corrected F_c or F_k does not exceed what \
+                 sampling alone produces; the data cannot distinguish Ne from infinity by that estimator: {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "infinite-upper-bound", &upper, |n, list| {
+            format!(
+                "{n} comparison(s) have an upper confidence bound of \"inf\" (its lower F bound does not exceed \
+                 sampling noise): the data are consistent with a very large population and only the lower bound \
+                 constrains Ne: {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "no-interval", &missing, |n, list| {
+            format!(
+                "{n} comparison(s) have an estimate without an interval (its low and high columns are null): the \
+                 jackknife of ne_fs needs at least two loci typed in both samples, and the χ² intervals of ne_fc and \
+                 ne_fk at least one independent allele (df > 0): {list}"
+            )
+        }),
+    ];
+    findings.into_iter().flatten().collect()
 }
 
 fn single_year_findings(view: &GenotypeView<'_>) -> Vec<Finding> {

@@ -77,12 +77,13 @@ mod tests;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Cell, Descriptor, Finding, ParamKind, PopulationInfo, Step, StepContext, StepError, StepOutput, Table, Where,
-    format_number,
+    Cell, Descriptor, Finding, FindingLevel, ParamKind, PopulationInfo, Step, StepContext, StepError, StepOutput,
+    Table, Where, format_number,
 };
 use serde::Deserialize;
 use serde_json::{Value, json};
 
+use crate::special_values::{explain, group_name, rows_where};
 use crate::stats::drift::{generations_to_lose, heterozygosity_retained, inbreeding_after};
 use crate::steps::trend::sources::{PointsByPopulation, diversity_points};
 pub use category::{Category, categorise, default_labels};
@@ -185,6 +186,7 @@ impl Step for Status {
         output.tables.insert("horizon".into(), horizon_table(&setting)?);
         output.tables.insert("indicator".into(), indicator_table(&assessed, &setting)?);
         output.findings = collect_findings(&assessed, &setting);
+        output.findings.extend(special_value_findings(&output.tables["populations"]));
         output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
         Ok(output)
     }
@@ -567,6 +569,38 @@ fn census_finding(a: &Assessed, census: &PopulationInfo, estimate: &ChosenNe, lo
         )),
         _ => None,
     }
+}
+
+/// The columns of `populations` that carry an infinite Ne or a quantity derived from one.
+const INFINITE_COLUMNS: [&str; 6] = ["ne", "ne_low", "ne_high", "ne_nc", "generations_to_lose_10", "years_to_lose_10"];
+
+/// The findings for `"inf"` cells of `populations` (an infinite Ne or bound as its source step
+/// gives it, and what follows from it) and for a projection without F₀.
+fn special_value_findings(populations: &Table) -> Vec<Finding> {
+    let infinite_columns = |r: &crate::special_values::Row<'_>| r.columns_where(&INFINITE_COLUMNS, |r, c| r.is_inf(c));
+    let infinite = rows_where(
+        populations,
+        |r| !infinite_columns(r).is_empty(),
+        |r| format!("{} ({})", group_name(r), infinite_columns(r)),
+    );
+    let without_f0 = rows_where(populations, |r| r.is_finite("h_retained") && r.is_null("f0"), group_name);
+    let findings = [
+        explain(FindingLevel::Info, "infinite-ne", &infinite, |n, list| {
+            format!(
+                "{n} population(s) have an Ne or a bound of \"inf\" as its source step gives it (that step's \
+                 findings say why): an infinite Ne loses no heterozygosity, so h_retained is 1 there, \
+                 generations_to_lose_10 and years_to_lose_10 are \"inf\" and ne_nc is \"inf\": {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "no-initial-inbreeding", &without_f0, |n, list| {
+            format!(
+                "{n} population(s) have no F for their sampling year in the results of a `diversity` step, so f0 and \
+                 f_projected are null (h_retained and f_drift do not need it); add a diversity step to the recipe to \
+                 project the total F: {list}"
+            )
+        }),
+    ];
+    findings.into_iter().flatten().collect()
 }
 
 fn horizon_finding(setting: &Setting) -> Finding {

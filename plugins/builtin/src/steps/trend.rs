@@ -63,12 +63,13 @@ mod tests;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Descriptor, Finding, ParamKind, Step, StepContext, StepError, StepOutput, StepResult, Where, did_you_mean,
-    format_number,
+    Descriptor, Finding, FindingLevel, ParamKind, Step, StepContext, StepError, StepOutput, StepResult, Table, Where,
+    did_you_mean, format_number,
 };
 use serde::Deserialize;
 use serde_json::json;
 
+use crate::special_values::{Row, explain, rows_where};
 use crate::stats::bootstrap::{bootstrap_loci, percentile_interval, rng};
 use crate::stats::trend::{
     LeastSquares, MIN_POINTS_LEAST_SQUARES, MIN_POINTS_MANN_KENDALL, MannKendall, SenSlope, SignedRank, least_squares,
@@ -160,9 +161,11 @@ impl Step for Trend {
         findings.extend(point_count_findings(&tested));
         findings.extend(interpretation_findings(&metrics));
         let mut output = StepOutput::default();
-        output.tables.insert("tests".into(), tables::tests_table(&tested)?);
+        let (tests, paired) = (tables::tests_table(&tested)?, tables::paired_table(&paired)?);
+        findings.extend(special_value_findings(&tests, &paired));
+        output.tables.insert("tests".into(), tests);
         output.tables.insert("series".into(), tables::series_table(&series)?);
-        output.tables.insert("paired".into(), tables::paired_table(&paired)?);
+        output.tables.insert("paired".into(), paired);
         output.findings = findings;
         output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
         Ok(output)
@@ -528,6 +531,48 @@ fn point_count_findings(tested: &[TestedSeries<'_>]) -> Vec<Finding> {
         }
     }
     findings
+}
+
+/// The findings for `null` cells of `tests` and `paired` that the point counts do not explain:
+/// a Sen slope without Gilbert's interval, a paired comparison without a test, and a mean
+/// change without an interval (each one finding listing the series).
+fn special_value_findings(tests: &Table, paired: &Table) -> Vec<Finding> {
+    let series = |r: &Row<'_>| format!("{} in {}", r.text("metric"), r.text("population"));
+    let pair = |r: &Row<'_>| {
+        format!("{} in {} {}–{}", r.text("metric"), r.text("population"), r.text("year_start"), r.text("year_end"))
+    };
+    let sen = rows_where(
+        tests,
+        |r| r.is_finite("sen_slope") && r.is_null("sen_low"),
+        |r| format!("{} ({} points)", series(r), r.text("points")),
+    );
+    let untested = rows_where(paired, |r| r.is_null("p_value"), |r| format!("{} ({} loci)", pair(r), r.text("loci")));
+    let no_interval = rows_where(
+        paired,
+        |r| r.is_finite("mean_change") && r.is_null("change_low"),
+        |r| format!("{} ({} replicates)", pair(r), r.text("replicates")),
+    );
+    let findings = [
+        explain(FindingLevel::Info, "sen-interval-undefined", &sen, |n, list| {
+            format!(
+                "{n} series have a Sen slope but a null sen_low and sen_high: with so few points Gilbert's (1987) \
+                 95% interval reaches beyond the smallest and largest pairwise slopes: {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "paired-untested", &untested, |n, list| {
+            format!(
+                "{n} two-year comparison(s) have no signed-rank test (w_plus, w_minus, p_method and p_value are \
+                 null): no locus is typed in both years, or every locus has the same value in both: {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "no-interval", &no_interval, |n, list| {
+            format!(
+                "{n} two-year comparison(s) have a mean change but a null change_low and change_high: the bootstrap \
+                 over loci needs at least two replicates (`bootstrap`): {list}"
+            )
+        }),
+    ];
+    findings.into_iter().flatten().collect()
 }
 
 fn interpretation_findings(metrics: &[Metric]) -> Vec<Finding> {

@@ -2,13 +2,11 @@
 //! conventions of F, FIS and rarefaction. Lists of loci go into one finding each, never one
 //! finding per locus.
 
-use popgauge_abi::{Finding, GenotypeView, Where};
+use popgauge_abi::{Finding, FindingLevel, GenotypeView, Table, Where};
 
 use super::richness::Richness;
 use super::{FEW_LOCI, GroupEstimates, LOW_SAMPLE_SIZE, Params};
-
-/// How many items a finding names before it says "and N more".
-const LISTED: usize = 20;
+use crate::special_values::{explain, group_name as row_group, listing, rows_where};
 
 pub(super) fn collect(
     view: &GenotypeView<'_>,
@@ -60,12 +58,6 @@ fn group_size_findings(estimates: &GroupEstimates) -> Vec<Finding> {
         ));
     }
     findings
-}
-
-/// "a, b, c and 4 more".
-fn listing(items: &[String]) -> String {
-    let shown = items.iter().take(LISTED).cloned().collect::<Vec<_>>().join(", ");
-    if items.len() > LISTED { format!("{shown} and {} more", items.len() - LISTED) } else { shown }
 }
 
 fn too_few_typed(view: &GenotypeView<'_>, groups: &[GroupEstimates]) -> Option<Finding> {
@@ -208,4 +200,31 @@ fn f_definition() -> Finding {
          F and FIS differ slightly in small samples",
         Where::default(),
     )
+}
+
+/// The findings for `by_group` rows whose F and FIS, or whose FIS interval, are null although
+/// the group has usable loci (a group without any has its `few-loci` finding).
+pub(super) fn undefined_in_groups(by_group: &Table, bootstrap: u32) -> Vec<Finding> {
+    let without_diversity = rows_where(by_group, |r| r.is_finite("he") && r.is_null("fis"), row_group);
+    let without_interval = rows_where(
+        by_group,
+        |r| bootstrap > 0 && r.is_finite("fis") && r.is_null("fis_low"),
+        |r| format!("{} ({} defined replicates)", row_group(r), r.text("fis_replicates")),
+    );
+    let findings = [
+        explain(FindingLevel::Info, "group-f-undefined", &without_diversity, |n, list| {
+            format!(
+                "{n} group(s) are monomorphic at every usable locus (ΣHe = 0), so their f, fis and FIS interval are \
+                 null: {list}"
+            )
+        }),
+        explain(FindingLevel::Info, "fis-interval-undefined", &without_interval, |n, list| {
+            format!(
+                "{n} group(s) have fis but a null fis_low and fis_high: fewer than two bootstrap replicates were \
+                 defined (a replicate drawing only loci monomorphic in the group is undefined); raise `bootstrap` or \
+                 type more polymorphic loci: {list}"
+            )
+        }),
+    ];
+    findings.into_iter().flatten().collect()
 }

@@ -146,6 +146,17 @@ fn group_without_diversity_has_null_f() {
     assert_eq!((number(by_group, 0, "fis_low"), number(by_group, 0, "fis_high")), (None, None));
     // Q: three 1/2 heterozygotes, Ho = 1, He = 6/5 · 0.5 = 0.6, F = 1 − 1/0.6 = −0.666667.
     assert_close(number(by_group, 1, "f").unwrap(), 1.0 - 1.0 / 0.6, 1e-12);
+    // DESIGN: the null f and fis of P are explained once, naming the group (common practice).
+    let undefined = findings_with(&output, "group-f-undefined");
+    assert_eq!(undefined.len(), 1);
+    assert!(undefined[0].message.ends_with("are null: P 2020"), "{}", undefined[0].message);
+    assert!(findings_with(&output, "fis-interval-undefined").is_empty());
+    // One replicate cannot make an interval: Q's null interval is explained (common practice).
+    let one = run_step(&Diversity, &matrix, json!({"bootstrap": 1}));
+    assert_eq!(number(table(&one, "by_group"), 1, "fis_low"), None);
+    let interval = findings_with(&one, "fis-interval-undefined");
+    assert_eq!(interval.len(), 1);
+    assert!(interval[0].message.ends_with(": Q 2020 (1 defined replicates)"), "{}", interval[0].message);
 }
 
 /// METHODS §1: warn when n < 10 or fewer than 5 loci are usable; info findings on how F,

@@ -4,10 +4,8 @@
 use popgauge_abi::{Finding, GenotypeView, Group, Where};
 
 use super::{GroupTests, NULL_ALLELE_R, SIGNIFICANT_Q, Untested};
+use crate::special_values::listing;
 use crate::stats::hwe_exact::{TestMethod, TestSettings};
-
-/// How many items a finding names before it says "and N more".
-const LISTED: usize = 20;
 
 pub(super) fn collect(
     view: &GenotypeView<'_>,
@@ -24,12 +22,6 @@ pub(super) fn collect(
     findings.push(fdr_family(family_size));
     findings.extend(null_allele_indications(view, groups, results));
     findings
-}
-
-/// "a, b, c and 4 more".
-fn listing(items: &[String]) -> String {
-    let shown = items.iter().take(LISTED).cloned().collect::<Vec<_>>().join(", ");
-    if items.len() > LISTED { format!("{shown} and {} more", items.len() - LISTED) } else { shown }
 }
 
 fn untested(view: &GenotypeView<'_>, groups: &[Group], results: &[GroupTests], why: Untested) -> Option<Finding> {
@@ -49,7 +41,11 @@ fn untested(view: &GenotypeView<'_>, groups: &[Group], results: &[GroupTests], w
     }
     let (code, reason) = match why {
         Untested::Monomorphic => ("hwe-monomorphic", "are monomorphic in the group, so there is nothing to test"),
-        Untested::TooFewTyped => ("hwe-too-few-typed", "have fewer than two typed individuals in the group"),
+        Untested::TooFewTyped => (
+            "hwe-too-few-typed",
+            "have fewer than two typed individuals in the group (ho, he, direction and null_allele_r are null there \
+             too)",
+        ),
         Untested::NoDraws => (
             "hwe-untested",
             "have too many genotype tables to enumerate and `permutations` is 0; set `permutations` (e.g. 10000) \

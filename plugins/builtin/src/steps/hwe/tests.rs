@@ -177,6 +177,10 @@ fn untestable_loci_are_null_with_one_finding_each() {
     let by_group = table(&output, "by_group");
     assert_eq!(number(by_group, 1, "loci_tested"), Some(0.0));
     assert_eq!((number(by_group, 1, "chi2"), number(by_group, 1, "p_value")), (None, None));
+    // DESIGN: the null combination is explained once, naming the groups (common practice).
+    let untested = findings_with(&output, "hwe-group-untested");
+    assert_eq!(untested.len(), 1);
+    assert!(untested[0].message.ends_with("is null: Q 2020, S 2020"), "{}", untested[0].message);
     assert!(findings_with(&output, "fdr-family")[0].message.contains("m = 1"));
 }
 

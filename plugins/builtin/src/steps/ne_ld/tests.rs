@@ -398,6 +398,13 @@ fn resampling_interval_can_be_switched_off() {
     let estimates = table(&output, "estimates");
     assert_eq!(number(estimates, 0, "ne_resample_low"), None);
     assert!(number(estimates, 0, "ne_jack_low").is_some());
+    // DESIGN: the null interval is explained, naming the group, criterion and interval.
+    assert!(findings_with(&four, "no-interval").is_empty());
+    let missing = findings_with(&output, "no-interval");
+    assert_eq!(missing.len(), 1);
+    assert!(missing[0].message.contains("individual_blocks = 0 turns them off"), "{}", missing[0].message);
+    let group = format!("{} {} Pcrit 0 (ne_resample), ", estimates.rows[0][0], estimates.rows[0][1]);
+    assert!(missing[0].message.contains(&group), "{}", missing[0].message);
 }
 
 /// DESIGN: parameter names and defaults are fixed; `mating` is a closed choice and Pcrit lies

@@ -95,6 +95,11 @@ fn item_14_check_values() {
     assert_close(number(estimates, 0, "ne_low").unwrap(), 58.5695, 1e-3);
     assert_eq!(cell(estimates, 0, "ne_high"), &Cell::Inf);
     assert_eq!(cell(estimates, 0, "plan"), &Cell::text("II"));
+    // DESIGN: each "inf" bound of a finite estimate is explained, once, naming the comparison.
+    let upper = findings_with(&output, "infinite-upper-bound");
+    assert_eq!(upper.len(), 1);
+    assert!(upper[0].message.ends_with(": Pop 2010–2014 (ne_high, ne_fc_high, ne_fk_high)"), "{}", upper[0].message);
+    assert!(findings_with(&output, "no-interval").is_empty());
 }
 
 /// Plan I (Waples 1989; Jorde & Ryman 2007 F_s′) with census N = 500 on the item-14 data:
@@ -203,6 +208,11 @@ fn comparisons_and_infinite_estimates() {
     let infinite = findings_with(&output, "infinite-estimate");
     assert_eq!(infinite.len(), 3);
     assert!(infinite[0].message.contains("cannot distinguish Ne from infinity"));
+    // DESIGN: the "inf" of ne_fc and ne_fk is explained too, in one finding for all comparisons.
+    let moments = findings_with(&output, "infinite-estimate-fc-fk");
+    assert_eq!(moments.len(), 1);
+    assert!(moments[0].message.starts_with("3 comparison(s)"), "{}", moments[0].message);
+    assert!(moments[0].message.contains("Pop 2000–2008 (ne_fc, ne_fk)"), "{}", moments[0].message);
     assert_eq!(findings_with(&output, "single-sampling-year")[0].location.population.as_deref(), Some("Lone"));
     for code in ["few-loci", "few-comparisons"] {
         assert_eq!(findings_with(&output, code).len(), 3, "{code}");

@@ -254,6 +254,13 @@ fn populations_table_through_the_step() {
     assert_eq!(no_estimate[0].location, Where::group("West", 2020));
     assert_eq!(findings_with(&output, "census-year-unknown").len(), 1);
     assert_eq!(findings_with(&output, "ne-nc-context").len(), 1);
+    // DESIGN: the "inf" bound and the null F₀ are each explained once, naming the rows.
+    let infinite = findings_with(&output, "infinite-ne");
+    assert_eq!(infinite.len(), 1);
+    assert!(infinite[0].message.ends_with("is \"inf\": South 2020 (ne_high)"), "{}", infinite[0].message);
+    let without_f0 = findings_with(&output, "no-initial-inbreeding");
+    assert_eq!(without_f0.len(), 1);
+    assert!(without_f0[0].message.ends_with("total F: South 2020"), "{}", without_f0[0].message);
 }
 
 /// Hoban et al. (2020): the share of populations above each threshold, with the point and with
@@ -370,6 +377,10 @@ fn infinite_ne_keeps_everything() {
     let north = row_with(pops, "population", "North");
     assert_eq!(number(pops, north, "h_retained"), Some(1.0));
     assert_eq!(crate::test_support::cell(pops, north, "generations_to_lose_10"), &Cell::Inf);
+    let infinite = findings_with(&output, "infinite-ne");
+    let north_listed =
+        infinite[0].message.contains("North 2020 (ne, ") && infinite[0].message.contains("years_to_lose_10)");
+    assert!(north_listed, "{}", infinite[0].message);
 }
 
 /// Bad parameters and thresholds are errors naming the field and the fix.

@@ -1,18 +1,21 @@
 //! Assembling `validate`'s tables, filter and citations from the screen's decisions.
 
-use popgauge_abi::{Cell, Exclusion, Filter, Finding, StepError, StepOutput, Table};
+use popgauge_abi::{Cell, Exclusion, Filter, Finding, FindingLevel, StepError, StepOutput, Table};
 
 use super::Screen;
+use crate::special_values::{explain, rows_where};
 use crate::stats::heterozygosity::NEI_1978;
 use crate::stats::null_allele::BROOKFIELD_1996;
 
 impl Screen<'_> {
     pub(super) fn into_output(self, findings: Vec<Finding>) -> Result<StepOutput, StepError> {
         let mut output = StepOutput::default();
-        output.tables.insert("loci".into(), self.loci_table()?);
+        let loci = self.loci_table()?;
+        output.findings = findings;
+        output.findings.extend(undefined_null_allele_finding(&loci));
+        output.tables.insert("loci".into(), loci);
         output.tables.insert("samples".into(), self.samples_table()?);
         output.tables.insert("groups".into(), self.groups_table()?);
-        output.findings = findings;
         output.citations = vec![BROOKFIELD_1996.into(), NEI_1978.into()];
         output.filter = self.filter();
         Ok(output)
@@ -85,6 +88,18 @@ impl Screen<'_> {
     }
 }
 
+/// One finding for the kept loci whose `null_allele` is null (an excluded locus has its
+/// reason in the table).
+fn undefined_null_allele_finding(loci: &Table) -> Option<Finding> {
+    let undefined = rows_where(loci, |r| r.text("status") == "kept" && r.is_null("null_allele"), |r| r.text("locus"));
+    explain(FindingLevel::Info, "null-allele-undefined", &undefined, |n, list| {
+        format!(
+            "{n} kept locus/loci have a null null_allele: Brookfield's r needs Ho and He, so a group where the locus \
+             is typed in fewer than two individuals gives none, and here no group does: {list}"
+        )
+    })
+}
+
 fn status_cell(exclusion: &Option<String>) -> Cell {
     Cell::text(if exclusion.is_some() { "excluded" } else { "kept" })
 }
@@ -96,4 +111,25 @@ fn reason_cell(exclusion: &Option<String>) -> Cell {
 /// A count as a table integer (counts never approach `i64::MAX`).
 fn count_cell(count: usize) -> Cell {
     Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// DESIGN (no null without a finding saying why), hand-made rows: the kept locus without
+    /// an r is listed; the excluded one (its reason is in the table) and the kept one with an
+    /// r are not.
+    #[test]
+    fn kept_loci_without_r_are_listed_once() {
+        let mut loci = Table::new(&["locus", "status", "null_allele"]);
+        loci.push_row(vec![Cell::text("L1"), Cell::text("kept"), Cell::Null]).unwrap();
+        loci.push_row(vec![Cell::text("L2"), Cell::text("excluded"), Cell::Null]).unwrap();
+        loci.push_row(vec![Cell::text("L3"), Cell::text("kept"), Cell::Num(0.02)]).unwrap();
+        let finding = undefined_null_allele_finding(&loci).expect("L1 is listed");
+        assert_eq!(finding.code, "null-allele-undefined");
+        assert!(finding.message.starts_with("1 kept locus/loci") && finding.message.ends_with("no group does: L1"));
+        loci.rows.remove(0);
+        assert_eq!(undefined_null_allele_finding(&loci), None);
+    }
 }
