@@ -15,6 +15,7 @@
 //! ```
 #![warn(missing_docs)]
 
+mod packing;
 pub mod stats;
 pub mod steps;
 

@@ -1,12 +1,14 @@
 //! The estimates of one comparison (a pair of groups, or every group of a comparison set) and
 //! the permutation of individuals between the two groups of a pair.
 
-use popgauge_abi::{AlleleCounts, GenotypeView, LocusIdx, SampleIdx};
+use popgauge_abi::{AlleleCounts, GenotypeCounts, GenotypeView, LocusIdx, PackedGenotypes, SampleBits, SampleIdx};
+
+use crate::packing::pack_samples;
 use rand_chacha::ChaCha8Rng;
 
 use crate::stats::bootstrap::{Interval, bootstrap_loci, percentile_interval};
 use crate::stats::gst::{DifferentiationIndices, DiversityEstimator, DiversityTotals, LocusSummary, indices};
-use crate::stats::weir_cockerham::{VarianceComponents, locus_components};
+use crate::stats::weir_cockerham::{BiallelicSample, VarianceComponents, biallelic_components, locus_components};
 
 /// Level of the bootstrap intervals.
 pub(super) const INTERVAL_LEVEL: f64 = 0.95;
@@ -87,34 +89,54 @@ pub(super) const MAX_PERMUTED_INDIVIDUALS: usize = u16::MAX as usize;
 
 /// The individuals of a pair of groups, ready to be shuffled between them.
 ///
-/// At each locus tested the distinct genotypes of the pair are listed once and every
-/// individual's genotype is stored as its index in that list (0 = untyped), locus-major. A
-/// replicate counts only the smaller group: a histogram of genotype indices over the individuals
-/// the shuffled labels put in it (one increment per individual), turned into allele counts; the
-/// other group's counts follow by subtraction from the pair totals. All buffers are reused, so
-/// a replicate allocates nothing.
+/// The pair's individuals are the columns of a packing of their genotypes (the smaller group
+/// first), and a replicate's labels name columns. A replicate counts only the smaller group and
+/// takes the other group's counts from the pair totals by subtraction. At a biallelic locus it
+/// counts by popcount: the shuffled labels become a bitset of columns, ANDed with the locus's
+/// bit planes. At a locus with more alleles the distinct genotypes of the pair are listed once,
+/// every individual's genotype is stored as its index in that list (0 = untyped), and a
+/// replicate builds a histogram of genotype indices over the individuals in the smaller group.
+/// Both give the same integer counts, so θ̂* does not depend on the path. All buffers are
+/// reused, so a replicate allocates nothing.
 #[derive(Debug, Clone)]
-pub(super) struct PairPermutation {
+pub(super) struct PairPermutation<'v> {
     individuals: usize,
     counted: usize,
-    /// Genotype indices, `loci × individuals`.
+    packed: PackedGenotypes<'v>,
+    /// The loci tested, in view locus order.
+    tested: Vec<TestedLocus>,
+    /// The tested loci counted by popcount, in view locus order.
+    packed_loci: Vec<LocusIdx>,
+    /// Genotype counts of the smaller group at `packed_loci` in the current replicate.
+    packed_counts: Vec<GenotypeCounts>,
+    /// Genotype indices of the loci counted by histogram, `rows × individuals`.
     codes: Vec<u16>,
-    /// Per locus tested: the range of its genotypes in `genotypes`.
-    genotype_ranges: Vec<(usize, usize)>,
-    /// Distinct genotypes of every locus tested, each locus's list starting with (0, 0) = untyped.
+    /// Distinct genotypes of every locus counted by histogram, each locus's list starting with
+    /// (0, 0) = untyped.
     genotypes: Vec<(u16, u16)>,
-    totals: Vec<AlleleCounts>,
     histogram: [Vec<u32>; 2],
+    side_bits: SampleBits,
     side: AlleleCounts,
     rest: AlleleCounts,
 }
 
-impl PairPermutation {
+/// One locus of the permutation test and how a replicate counts the smaller group there.
+#[derive(Debug, Clone)]
+enum TestedLocus {
+    /// By popcount over the packed planes: entry `slot` of the replicate's packed counts;
+    /// `total` counts the pair.
+    Packed { slot: usize, total: BiallelicSample },
+    /// By histogram over row `row` of `codes`, with genotypes `genotypes[start..end]`;
+    /// `total` counts the pair.
+    Histogram { total: AlleleCounts, row: usize, start: usize, end: usize },
+}
+
+impl<'v> PairPermutation<'v> {
     /// The pair `first`, `second` (view sample indices) at `loci`; loci monomorphic over the
     /// pair are left out (they add 0 to every replicate). `None` for a pair of more than
     /// [`MAX_PERMUTED_INDIVIDUALS`] individuals, whose genotype indices might not fit 16 bits.
     pub(super) fn new(
-        view: &GenotypeView<'_>,
+        view: &GenotypeView<'v>,
         first: &[SampleIdx],
         second: &[SampleIdx],
         loci: &[LocusIdx],
@@ -124,27 +146,47 @@ impl PairPermutation {
         }
         let (smaller, larger) = if first.len() <= second.len() { (first, second) } else { (second, first) };
         let members: Vec<SampleIdx> = smaller.iter().chain(larger).copied().collect();
+        let packed = pack_samples(*view, &members);
         let mut permutation = PairPermutation {
             individuals: members.len(),
             counted: smaller.len(),
-            codes: Vec::with_capacity(loci.len() * members.len()),
-            genotype_ranges: Vec::with_capacity(loci.len()),
+            side_bits: packed.empty_bits(),
+            packed,
+            tested: Vec::with_capacity(loci.len()),
+            packed_loci: Vec::new(),
+            packed_counts: Vec::new(),
+            codes: Vec::new(),
             genotypes: Vec::new(),
-            totals: Vec::with_capacity(loci.len()),
             histogram: [Vec::new(), Vec::new()],
             side: AlleleCounts::default(),
             rest: AlleleCounts::default(),
         };
+        let everyone = SampleBits::from_columns(members.len(), 0..members.len());
         for &locus in loci {
             let total = view.allele_counts(locus, &members);
             if total.distinct() > 1 {
-                permutation.add_locus(view, locus, &members, total);
+                let tested = match permutation.packed.locus(locus) {
+                    Some(packed) => {
+                        permutation.packed_loci.push(locus);
+                        let total = BiallelicSample::from(packed.genotype_counts(&everyone));
+                        TestedLocus::Packed { slot: permutation.packed_loci.len() - 1, total }
+                    }
+                    None => permutation.add_histogram_locus(view, locus, &members, total),
+                };
+                permutation.tested.push(tested);
             }
         }
         Some(permutation)
     }
 
-    fn add_locus(&mut self, view: &GenotypeView<'_>, locus: LocusIdx, members: &[SampleIdx], total: AlleleCounts) {
+    fn add_histogram_locus(
+        &mut self,
+        view: &GenotypeView<'_>,
+        locus: LocusIdx,
+        members: &[SampleIdx],
+        total: AlleleCounts,
+    ) -> TestedLocus {
+        let row = self.codes.len() / self.individuals.max(1);
         let start = self.genotypes.len();
         self.genotypes.push((0, 0));
         for &sample in members {
@@ -163,8 +205,7 @@ impl PairPermutation {
             // untyped bin), which `new` keeps within u16.
             self.codes.push(u16::try_from(index).unwrap_or(u16::MAX));
         }
-        self.genotype_ranges.push((start, self.genotypes.len()));
-        self.totals.push(total);
+        TestedLocus::Histogram { total, row, start, end: self.genotypes.len() }
     }
 
     /// The labels of the data as they are: the smaller group first.
@@ -175,15 +216,29 @@ impl PairPermutation {
     /// θ̂ with the first labels of `order` (as many as the smaller group) forming that group.
     pub(super) fn theta(&mut self, order: &[u32]) -> Option<f64> {
         let counted = &order[..self.counted];
+        self.side_bits.clear();
+        for &label in counted {
+            self.side_bits.insert(label as usize);
+        }
+        self.packed.genotype_counts_into(&self.packed_loci, &self.side_bits, &mut self.packed_counts);
         let mut sum = VarianceComponents::default();
         let mut any_locus = false;
-        for (locus, total) in self.totals.iter().enumerate() {
-            let row = &self.codes[locus * self.individuals..(locus + 1) * self.individuals];
-            let (start, end) = self.genotype_ranges[locus];
-            genotype_histogram(row, counted, end - start, &mut self.histogram);
-            counts_from_histogram(&self.histogram[0], &self.genotypes[start..end], total.alleles.len(), &mut self.side);
-            subtract(total, &self.side, &mut self.rest);
-            if let Some(c) = locus_components(&[&self.side, &self.rest]) {
+        for tested in &self.tested {
+            let components = match tested {
+                TestedLocus::Packed { slot, total } => {
+                    let side = BiallelicSample::from(self.packed_counts[*slot]);
+                    biallelic_components(&[side, total.without(side)])
+                }
+                TestedLocus::Histogram { total, row, start, end } => {
+                    let row = &self.codes[row * self.individuals..(row + 1) * self.individuals];
+                    genotype_histogram(row, counted, end - start, &mut self.histogram);
+                    let genotypes = &self.genotypes[*start..*end];
+                    counts_from_histogram(&self.histogram[0], genotypes, total.alleles.len(), &mut self.side);
+                    subtract(total, &self.side, &mut self.rest);
+                    locus_components(&[&self.side, &self.rest])
+                }
+            };
+            if let Some(c) = components {
                 sum += c;
                 any_locus = true;
             }
