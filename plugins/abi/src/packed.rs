@@ -217,6 +217,21 @@ impl<'p> PackedLocus<'p> {
         counts_in(self.planes, set)
     }
 
+    /// Genotype counts over each of `sets`, in order, into `out` (cleared first). One call for
+    /// many sets reads the planes once and keeps the counting loop free of per-set dispatch
+    /// (a permutation test counts a batch of shuffled groups this way).
+    pub fn genotype_counts_many(&self, sets: &[SampleBits], out: &mut Vec<GenotypeCounts>) {
+        out.clear();
+        #[cfg(target_arch = "x86_64")]
+        if self.popcnt {
+            // SAFETY: `popcnt` is true only when `popcnt_available` detected the instruction
+            // on this processor.
+            unsafe { counts_of_sets_popcnt(self.planes, sets, out) };
+            return;
+        }
+        counts_of_sets(self.planes, sets, out);
+    }
+
     /// Allele counts over the columns in `set`, into `counts` (the same values
     /// [`GenotypeView::allele_counts_into`] gives for those samples).
     pub fn allele_counts_into(&self, set: &SampleBits, counts: &mut AlleleCounts) {
@@ -360,21 +375,6 @@ impl<'a> PackedGenotypes<'a> {
         let mut counts = AlleleCounts::default();
         self.allele_counts_into(locus, set, &mut counts);
         counts
-    }
-
-    /// Genotype counts over `set` (a set over this packing's columns) at each packed locus of
-    /// `loci`, in that order, into `out` (cleared first); loci not packed are skipped. One call
-    /// for many loci keeps the counting loop free of per-locus dispatch.
-    pub fn genotype_counts_into(&self, loci: &[LocusIdx], set: &SampleBits, out: &mut Vec<GenotypeCounts>) {
-        out.clear();
-        #[cfg(target_arch = "x86_64")]
-        if self.popcnt {
-            // SAFETY: `popcnt` is true only when `popcnt_available` detected the instruction
-            // on this processor.
-            unsafe { counts_of_loci_popcnt(self, loci, set, out) };
-            return;
-        }
-        counts_of_loci(self, loci, set, out);
     }
 
     /// Number of samples of `set` with at least one allele untyped at `locus` (equal to
@@ -524,27 +524,17 @@ fn counts_in_popcnt(planes: &[u64], set: &SampleBits) -> GenotypeCounts {
     counts_in(planes, set)
 }
 
-/// [`PackedGenotypes::genotype_counts_into`]'s loop.
+/// [`PackedLocus::genotype_counts_many`]'s loop.
 #[inline(always)]
-fn counts_of_loci(packed: &PackedGenotypes<'_>, loci: &[LocusIdx], set: &SampleBits, out: &mut Vec<GenotypeCounts>) {
-    let span = PLANES * packed.words;
-    for &locus in loci {
-        if packed.codes[locus].is_some() {
-            out.push(counts_in(&packed.planes[locus * span..(locus + 1) * span], set));
-        }
-    }
+fn counts_of_sets(planes: &[u64], sets: &[SampleBits], out: &mut Vec<GenotypeCounts>) {
+    out.extend(sets.iter().map(|set| counts_in(planes, set)));
 }
 
-/// [`counts_of_loci`] compiled with the `popcnt` instruction.
+/// [`counts_of_sets`] compiled with the `popcnt` instruction.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "popcnt")]
-fn counts_of_loci_popcnt(
-    packed: &PackedGenotypes<'_>,
-    loci: &[LocusIdx],
-    set: &SampleBits,
-    out: &mut Vec<GenotypeCounts>,
-) {
-    counts_of_loci(packed, loci, set, out);
+fn counts_of_sets_popcnt(planes: &[u64], sets: &[SampleBits], out: &mut Vec<GenotypeCounts>) {
+    counts_of_sets(planes, sets, out);
 }
 
 #[cfg(test)]

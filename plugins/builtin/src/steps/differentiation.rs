@@ -95,7 +95,7 @@ use serde_json::json;
 
 use crate::stats::bootstrap::rng;
 use crate::stats::gst::{HEDRICK_2005, JOST_2008, MEIRMANS_HEDRICK_2011, NEI_1973, NEI_CHESSER_1983};
-use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test};
+use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test_in_batches};
 use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
 use ibd::{IsolationByDistance, MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
 use pairs::{ComparisonEstimate, PairPermutation};
@@ -295,9 +295,7 @@ fn estimate_pair(
             let mut labels = permuted.labels();
             let observed = permuted.theta(&labels)?;
             let mut stream = rng(seed, &format!("fst-permutation/{key}"));
-            permutation_test(&mut labels, observed, params.permutations as usize, &mut stream, |order| {
-                permuted.theta(order)
-            })
+            permutation_test_in_batches(&mut labels, observed, params.permutations as usize, &mut stream, &mut permuted)
         });
     PairResult { a, b, estimate, permutation }
 }

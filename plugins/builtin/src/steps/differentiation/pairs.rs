@@ -2,9 +2,10 @@
 //! the permutation of individuals between the two groups of a pair.
 
 use popgauge_abi::{AlleleCounts, GenotypeCounts, GenotypeView, LocusIdx, PackedGenotypes, SampleBits, SampleIdx};
+use rand_chacha::ChaCha8Rng;
 
 use crate::packing::pack_samples;
-use rand_chacha::ChaCha8Rng;
+use crate::stats::permutation::BatchedStatistic;
 
 use crate::stats::bootstrap::{Interval, bootstrap_loci, percentile_interval};
 use crate::stats::gst::{DifferentiationIndices, DiversityEstimator, DiversityTotals, LocusSummary, indices};
@@ -87,6 +88,9 @@ fn combined_indices(nei_chesser: &DiversityTotals, jost: &DiversityTotals, k: us
 /// Largest pair (individuals in both groups) the permutation test handles.
 pub(super) const MAX_PERMUTED_INDIVIDUALS: usize = u16::MAX as usize;
 
+/// Replicates evaluated together: one pass over the loci serves this many arrangements.
+const BATCH: usize = 64;
+
 /// The individuals of a pair of groups, ready to be shuffled between them.
 ///
 /// The pair's individuals are the columns of a packing of their genotypes (the smaller group
@@ -96,8 +100,11 @@ pub(super) const MAX_PERMUTED_INDIVIDUALS: usize = u16::MAX as usize;
 /// bit planes. At a locus with more alleles the distinct genotypes of the pair are listed once,
 /// every individual's genotype is stored as its index in that list (0 = untyped), and a
 /// replicate builds a histogram of genotype indices over the individuals in the smaller group.
-/// Both give the same integer counts, so θ̂* does not depend on the path. All buffers are
-/// reused, so a replicate allocates nothing.
+/// Both give the same integer counts, so θ̂* does not depend on the path.
+///
+/// Replicates are evaluated [`BATCH`] at a time ([`BatchedStatistic`]): each locus's planes are
+/// read once for the whole batch, and each replicate still sums its loci in locus order, so
+/// θ̂* is the same as one replicate at a time. Buffers are reused across batches.
 #[derive(Debug, Clone)]
 pub(super) struct PairPermutation<'v> {
     individuals: usize,
@@ -105,17 +112,26 @@ pub(super) struct PairPermutation<'v> {
     packed: PackedGenotypes<'v>,
     /// The loci tested, in view locus order.
     tested: Vec<TestedLocus>,
-    /// The tested loci counted by popcount, in view locus order.
-    packed_loci: Vec<LocusIdx>,
-    /// Genotype counts of the smaller group at `packed_loci` in the current replicate.
-    packed_counts: Vec<GenotypeCounts>,
     /// Genotype indices of the loci counted by histogram, `rows × individuals`.
     codes: Vec<u16>,
     /// Distinct genotypes of every locus counted by histogram, each locus's list starting with
     /// (0, 0) = untyped.
     genotypes: Vec<(u16, u16)>,
+    batch: Batch,
+}
+
+/// The arrangements recorded for the next evaluation and the evaluation's buffers.
+#[derive(Debug, Clone, Default)]
+struct Batch {
+    recorded: usize,
+    /// The smaller group of each arrangement as columns.
+    sides: Vec<SampleBits>,
+    /// The smaller group of each arrangement as labels (kept only for histogram loci).
+    labels: Vec<Vec<u32>>,
+    side_counts: Vec<GenotypeCounts>,
+    sums: Vec<VarianceComponents>,
+    defined: Vec<bool>,
     histogram: [Vec<u32>; 2],
-    side_bits: SampleBits,
     side: AlleleCounts,
     rest: AlleleCounts,
 }
@@ -123,9 +139,8 @@ pub(super) struct PairPermutation<'v> {
 /// One locus of the permutation test and how a replicate counts the smaller group there.
 #[derive(Debug, Clone)]
 enum TestedLocus {
-    /// By popcount over the packed planes: entry `slot` of the replicate's packed counts;
-    /// `total` counts the pair.
-    Packed { slot: usize, total: BiallelicSample },
+    /// By popcount over the packed planes of view locus `locus`; `total` counts the pair.
+    Packed { locus: LocusIdx, total: BiallelicSample },
     /// By histogram over row `row` of `codes`, with genotypes `genotypes[start..end]`;
     /// `total` counts the pair.
     Histogram { total: AlleleCounts, row: usize, start: usize, end: usize },
@@ -146,35 +161,29 @@ impl<'v> PairPermutation<'v> {
         }
         let (smaller, larger) = if first.len() <= second.len() { (first, second) } else { (second, first) };
         let members: Vec<SampleIdx> = smaller.iter().chain(larger).copied().collect();
-        let packed = pack_samples(*view, &members);
         let mut permutation = PairPermutation {
             individuals: members.len(),
             counted: smaller.len(),
-            side_bits: packed.empty_bits(),
-            packed,
+            packed: pack_samples(*view, &members),
             tested: Vec::with_capacity(loci.len()),
-            packed_loci: Vec::new(),
-            packed_counts: Vec::new(),
             codes: Vec::new(),
             genotypes: Vec::new(),
-            histogram: [Vec::new(), Vec::new()],
-            side: AlleleCounts::default(),
-            rest: AlleleCounts::default(),
+            batch: Batch::default(),
         };
         let everyone = SampleBits::from_columns(members.len(), 0..members.len());
         for &locus in loci {
-            let total = view.allele_counts(locus, &members);
-            if total.distinct() > 1 {
-                let tested = match permutation.packed.locus(locus) {
-                    Some(packed) => {
-                        permutation.packed_loci.push(locus);
-                        let total = BiallelicSample::from(packed.genotype_counts(&everyone));
-                        TestedLocus::Packed { slot: permutation.packed_loci.len() - 1, total }
-                    }
-                    None => permutation.add_histogram_locus(view, locus, &members, total),
-                };
-                permutation.tested.push(tested);
-            }
+            let tested = match permutation.packed.locus(locus) {
+                Some(packed) => {
+                    let total = BiallelicSample::from(packed.genotype_counts(&everyone));
+                    // Both alleles present: the packed equivalent of `distinct() > 1`.
+                    (total.low_copies > 0 && total.high_copies > 0).then_some(TestedLocus::Packed { locus, total })
+                }
+                None => {
+                    let total = view.allele_counts(locus, &members);
+                    (total.distinct() > 1).then(|| permutation.add_histogram_locus(view, locus, &members, total))
+                }
+            };
+            permutation.tested.extend(tested);
         }
         Some(permutation)
     }
@@ -215,35 +224,78 @@ impl<'v> PairPermutation<'v> {
 
     /// θ̂ with the first labels of `order` (as many as the smaller group) forming that group.
     pub(super) fn theta(&mut self, order: &[u32]) -> Option<f64> {
-        let counted = &order[..self.counted];
-        self.side_bits.clear();
-        for &label in counted {
-            self.side_bits.insert(label as usize);
+        self.batch.recorded = 0;
+        self.record(order);
+        let mut values = Vec::with_capacity(1);
+        self.evaluate(&mut values);
+        values.pop().flatten()
+    }
+
+    fn has_histogram_loci(&self) -> bool {
+        !self.codes.is_empty()
+    }
+}
+
+impl BatchedStatistic<u32> for PairPermutation<'_> {
+    const BATCH: usize = BATCH;
+
+    fn record(&mut self, arrangement: &[u32]) {
+        let counted = &arrangement[..self.counted];
+        let slot = self.batch.recorded;
+        if self.batch.sides.len() == slot {
+            self.batch.sides.push(self.packed.empty_bits());
+            self.batch.labels.push(Vec::new());
         }
-        self.packed.genotype_counts_into(&self.packed_loci, &self.side_bits, &mut self.packed_counts);
-        let mut sum = VarianceComponents::default();
-        let mut any_locus = false;
+        let side = &mut self.batch.sides[slot];
+        side.clear();
+        for &label in counted {
+            side.insert(label as usize);
+        }
+        if self.has_histogram_loci() {
+            self.batch.labels[slot].clear();
+            self.batch.labels[slot].extend_from_slice(counted);
+        }
+        self.batch.recorded += 1;
+    }
+
+    fn evaluate(&mut self, values: &mut Vec<Option<f64>>) {
+        let replicates = self.batch.recorded;
+        let batch = &mut self.batch;
+        batch.sums.clear();
+        batch.sums.resize(replicates, VarianceComponents::default());
+        batch.defined.clear();
+        batch.defined.resize(replicates, false);
         for tested in &self.tested {
-            let components = match tested {
-                TestedLocus::Packed { slot, total } => {
-                    let side = BiallelicSample::from(self.packed_counts[*slot]);
-                    biallelic_components(&[side, total.without(side)])
+            match tested {
+                TestedLocus::Packed { locus, total } => {
+                    // Always `Some`: `new` chose this path by the same lookup.
+                    let Some(packed) = self.packed.locus(*locus) else { continue };
+                    packed.genotype_counts_many(&batch.sides[..replicates], &mut batch.side_counts);
+                    for (r, &counts) in batch.side_counts.iter().enumerate() {
+                        let side = BiallelicSample::from(counts);
+                        if let Some(c) = biallelic_components(&[side, total.without(side)]) {
+                            batch.sums[r] += c;
+                            batch.defined[r] = true;
+                        }
+                    }
                 }
                 TestedLocus::Histogram { total, row, start, end } => {
                     let row = &self.codes[row * self.individuals..(row + 1) * self.individuals];
-                    genotype_histogram(row, counted, end - start, &mut self.histogram);
                     let genotypes = &self.genotypes[*start..*end];
-                    counts_from_histogram(&self.histogram[0], genotypes, total.alleles.len(), &mut self.side);
-                    subtract(total, &self.side, &mut self.rest);
-                    locus_components(&[&self.side, &self.rest])
+                    for r in 0..replicates {
+                        genotype_histogram(row, &batch.labels[r], end - start, &mut batch.histogram);
+                        counts_from_histogram(&batch.histogram[0], genotypes, total.alleles.len(), &mut batch.side);
+                        subtract(total, &batch.side, &mut batch.rest);
+                        if let Some(c) = locus_components(&[&batch.side, &batch.rest]) {
+                            batch.sums[r] += c;
+                            batch.defined[r] = true;
+                        }
+                    }
                 }
-            };
-            if let Some(c) = components {
-                sum += c;
-                any_locus = true;
             }
         }
-        if any_locus { sum.theta() } else { None }
+        values.extend(batch.sums.iter().zip(&batch.defined).map(|(sum, &defined)| sum.theta().filter(|_| defined)));
+        batch.recorded = 0;
     }
 }
 
