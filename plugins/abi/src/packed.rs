@@ -503,10 +503,13 @@ fn counts_in(planes: &[u64], set: &SampleBits) -> GenotypeCounts {
     let plane = |p: usize| &planes[p * words + first..][..span.len()];
     let (typed, heterozygous, high_homozygous) = (plane(0), plane(1), plane(2));
     let (mut n_typed, mut heterozygotes, mut high_homozygotes) = (0u32, 0u32, 0u32);
-    for (((&s, &t), &h), &hh) in span.iter().zip(typed).zip(heterozygous).zip(high_homozygous) {
-        n_typed += (t & s).count_ones();
-        heterozygotes += (h & s).count_ones();
-        high_homozygotes += (hh & s).count_ones();
+    // Indexing (bounds known from the slices above) rather than zipped iterators, for the
+    // reason given in `counts_of_sets`.
+    for i in 0..span.len() {
+        let s = span[i];
+        n_typed += (typed[i] & s).count_ones();
+        heterozygotes += (heterozygous[i] & s).count_ones();
+        high_homozygotes += (high_homozygous[i] & s).count_ones();
     }
     let len = u32::try_from(set.len()).unwrap_or(u32::MAX);
     GenotypeCounts {
@@ -527,7 +530,11 @@ fn counts_in_popcnt(planes: &[u64], set: &SampleBits) -> GenotypeCounts {
 /// [`PackedLocus::genotype_counts_many`]'s loop.
 #[inline(always)]
 fn counts_of_sets(planes: &[u64], sets: &[SampleBits], out: &mut Vec<GenotypeCounts>) {
-    out.extend(sets.iter().map(|set| counts_in(planes, set)));
+    // A plain loop, not an iterator adapter: the adapter's `fold` would be a separate function
+    // compiled without `popcnt`, whatever the caller enables.
+    for set in sets {
+        out.push(counts_in(planes, set));
+    }
 }
 
 /// [`counts_of_sets`] compiled with the `popcnt` instruction.
