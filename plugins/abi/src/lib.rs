@@ -10,6 +10,8 @@
 //! - [`GenotypeMatrix`] owns the samples × loci genotype codes (two allele codes per cell,
 //!   code 0 = untyped); [`GenotypeView`] is a zero-copy subset of it (the samples and loci
 //!   still in play after earlier filters).
+//! - [`PackedGenotypes`] packs the loci of a view with at most two alleles into bit planes and
+//!   counts genotypes of a [`SampleSet`] by popcount (SDK side only; not part of the C ABI).
 //! - [`Table`] and [`Cell`] hold results exactly as they reach `results.json` and CSV;
 //!   [`format_number`] is the one number formatter.
 //! - [`Finding`] is a data-quality or interpretation note with a [`FindingLevel`].
@@ -45,6 +47,7 @@ pub mod ffi;
 mod matrix;
 mod number;
 mod output;
+mod packed;
 mod params;
 pub mod sdk;
 mod step;
@@ -55,6 +58,7 @@ pub use matrix::{
     MatrixError, SampleIdx, SampleMeta,
 };
 pub use number::format_number;
+pub use packed::{GenotypeCounts, PackedGenotypes, PackedLocus, SampleBits, SampleSet};
 pub use output::{
     Cell, Exclusion, Filter, Finding, FindingLevel, StepOutput, Table, TableError, Where,
 };

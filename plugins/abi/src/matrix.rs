@@ -277,7 +277,8 @@ impl AlleleCounts {
         self.alleles.iter().map(|&c| f64::from(c) / copies).collect()
     }
 
-    fn reset(&mut self, codes: usize) {
+    /// Zeroes the counts for a locus with `codes` allele labels, keeping capacity.
+    pub(crate) fn reset(&mut self, codes: usize) {
         self.alleles.clear();
         self.alleles.resize(codes + 1, 0);
         self.heterozygous_carriers.clear();

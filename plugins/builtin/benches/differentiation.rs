@@ -5,11 +5,15 @@
 //!   the default parameters (1,000 permutations per pair, 1,000 bootstrap replicates): 45 pairs;
 //! - 5,000 biallelic SNPs × 1,000 samples in 4 populations of 250 (6 pairs), with 100
 //!   permutations per pair and 1,000 bootstrap replicates (the permutation test's cost grows
-//!   linearly with the number of permutations).
+//!   linearly with the number of permutations);
+//! - 20,000 biallelic SNPs × 1,200 samples in 6 populations of 200, each sampled in 2 years
+//!   (15 pairs, years pooled), with the default parameters. Besides the criterion figure, one
+//!   single timed run is printed (it is the README's figure for this case).
 //!
 //! Run with `cargo bench -p popgauge-builtin --bench differentiation`.
 
 use std::hint::black_box;
+use std::time::{Duration, Instant};
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use popgauge_abi::{
@@ -22,9 +26,11 @@ use serde_json::{Value, json};
 
 /// Populations with mildly different allele frequencies (each population's frequencies are
 /// the shared ones with random noise), genotypes in Hardy–Weinberg proportions, 2 % untyped.
+/// A population's samples alternate between `years` sampling years from 2024 on.
 fn simulated(
     populations: usize,
     per_population: usize,
+    years: usize,
     loci: usize,
     alleles: impl Fn(usize) -> usize,
 ) -> GenotypeMatrix {
@@ -34,7 +40,7 @@ fn simulated(
             (0..per_population).map(move |i| SampleMeta {
                 id: format!("P{p}-{i}"),
                 population: format!("P{p}"),
-                year: 2024,
+                year: 2024 + (i % years) as i32,
             })
         })
         .collect();
@@ -88,7 +94,7 @@ fn run(matrix: &GenotypeMatrix, params: &Value) -> StepOutput {
 }
 
 fn microsatellites(c: &mut Criterion) {
-    let matrix = simulated(10, 200, 20, |l| 8 + l % 5);
+    let matrix = simulated(10, 200, 1, 20, |l| 8 + l % 5);
     let params = json!({});
     c.bench_function("differentiation 20 microsatellites x 2000 samples, 10 groups, 1000 permutations", |b| {
         b.iter(|| black_box(run(&matrix, &params)))
@@ -96,16 +102,32 @@ fn microsatellites(c: &mut Criterion) {
 }
 
 fn snps(c: &mut Criterion) {
-    let matrix = simulated(4, 250, 5000, |_| 2);
+    let matrix = simulated(4, 250, 1, 5000, |_| 2);
     let params = json!({"permutations": 100});
     c.bench_function("differentiation 5000 SNPs x 1000 samples, 4 groups, 100 permutations", |b| {
         b.iter(|| black_box(run(&matrix, &params)))
     });
 }
 
+fn snp_panel(c: &mut Criterion) {
+    let matrix = simulated(6, 200, 2, 20_000, |_| 2);
+    let params = json!({});
+    let start = Instant::now();
+    black_box(run(&matrix, &params));
+    println!(
+        "differentiation 20,000 SNPs × 1,200 samples, 6 populations × 2 years, defaults: {:.2} s wall on {} threads",
+        start.elapsed().as_secs_f64(),
+        rayon::current_num_threads()
+    );
+    let mut group = c.benchmark_group("differentiation 20000 SNPs x 1200 samples");
+    group.sample_size(10).measurement_time(Duration::from_secs(60));
+    group.bench_function("6 populations x 2 years, defaults", |b| b.iter(|| black_box(run(&matrix, &params))));
+    group.finish();
+}
+
 criterion_group! {
     name = benches;
     config = Criterion::default().sample_size(10);
-    targets = microsatellites, snps
+    targets = microsatellites, snps, snp_panel
 }
 criterion_main!(benches);

@@ -1,7 +1,7 @@
 //! Speed of `diversity` (with the default 1000 bootstrap replicates for the FIS interval) and
 //! `hwe` (default 10,000 Monte Carlo draws for multi-allelic loci too large to enumerate) on
-//! 20 microsatellite loci × 2,000 samples in 10 groups and on 5,000 SNPs × 1,000 samples in
-//! 10 groups. Genotypes are drawn in Hardy–Weinberg proportions from seeded random allele
+//! 20 microsatellite loci × 2,000 samples in 10 groups, on 5,000 SNPs × 1,000 samples in
+//! 10 groups and on 20,000 SNPs × 1,200 samples in 12 groups (6 populations × 2 years). Genotypes are drawn in Hardy–Weinberg proportions from seeded random allele
 //! frequencies, with 2% of cells untyped; nothing is read from disk. The README "Performance"
 //! table records the figures.
 //!
@@ -16,16 +16,14 @@ use popgauge_builtin::steps::hwe::Hwe;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
-/// Groups: 5 populations × 2 years.
-const GROUPS: usize = 10;
-
 /// `loci` loci with `alleles` alleles each (random frequencies per locus, shared by all
-/// groups), `samples` samples spread evenly over [`GROUPS`] groups.
-fn simulated(loci: usize, alleles: std::ops::RangeInclusive<usize>, samples: usize) -> GenotypeMatrix {
+/// groups), `samples` samples spread evenly over `groups` groups (`groups / 2` populations ×
+/// 2 years).
+fn simulated(loci: usize, alleles: std::ops::RangeInclusive<usize>, samples: usize, groups: usize) -> GenotypeMatrix {
     let mut rng = ChaCha8Rng::seed_from_u64(20_261_130);
     let sample_meta: Vec<SampleMeta> = (0..samples)
         .map(|s| {
-            let group = s * GROUPS / samples;
+            let group = s * groups / samples;
             SampleMeta { id: format!("S{s}"), population: format!("Pop{}", group / 2), year: 2020 + (group % 2) as i32 }
         })
         .collect();
@@ -93,15 +91,18 @@ fn report(step: &dyn Step, name: &str, matrix: &GenotypeMatrix) {
 }
 
 fn bench(c: &mut Criterion) {
-    let microsatellites = simulated(20, 8..=16, 2_000);
-    let snps = simulated(5_000, 2..=2, 1_000);
+    let microsatellites = simulated(20, 8..=16, 2_000, 10);
+    let snps = simulated(5_000, 2..=2, 1_000, 10);
+    let panel = simulated(20_000, 2..=2, 1_200, 12);
     for (step, uses) in [(&Diversity as &dyn Step, "diversity"), (&Hwe as &dyn Step, "hwe")] {
         report(step, "20 microsatellites × 2,000 samples, 10 groups", &microsatellites);
         report(step, "5,000 SNPs × 1,000 samples, 10 groups", &snps);
+        report(step, "20,000 SNPs × 1,200 samples, 12 groups", &panel);
         let mut group = c.benchmark_group(uses);
         group.sample_size(10);
         group.bench_function("20 msats x 2000", |b| b.iter(|| run(step, &microsatellites)));
         group.bench_function("5000 SNPs x 1000", |b| b.iter(|| run(step, &snps)));
+        group.bench_function("20000 SNPs x 1200", |b| b.iter(|| run(step, &panel)));
         group.finish();
     }
 }

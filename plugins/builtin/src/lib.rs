@@ -15,6 +15,7 @@
 //! ```
 #![warn(missing_docs)]
 
+mod packing;
 mod special_values;
 pub mod stats;
 pub mod steps;

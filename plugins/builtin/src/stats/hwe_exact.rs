@@ -137,13 +137,18 @@ impl GenotypeTable {
 
     /// Adds one individual with alleles `a` and `b` (each `< alleles`).
     pub fn add(&mut self, a: usize, b: usize) {
+        self.add_many(a, b, 1);
+    }
+
+    /// Adds `count` individuals with alleles `a` and `b` (each `< alleles`).
+    pub fn add_many(&mut self, a: usize, b: usize, count: u32) {
         let (u, v) = if a <= b { (a, b) } else { (b, a) };
-        self.pairs[u * self.alleles + v] += 1;
-        self.copies[a] += 1;
-        self.copies[b] += 1;
-        self.individuals += 1;
+        self.pairs[u * self.alleles + v] += count;
+        self.copies[a] += count;
+        self.copies[b] += count;
+        self.individuals += count;
         if u != v {
-            self.heterozygotes += 1;
+            self.heterozygotes += count;
         }
     }
 

@@ -6,6 +6,7 @@
 //! ```text
 //! pub fn locus_components(samples: &[&AlleleCounts]) -> Option<VarianceComponents>
 //! pub fn allele_components(samples: &[&AlleleCounts], allele: usize) -> Option<VarianceComponents>
+//! pub fn biallelic_components(samples: &[BiallelicSample]) -> Option<VarianceComponents>
 //! pub struct VarianceComponents { between_samples: f64 /* a */, between_individuals: f64 /* b */,
 //!                                 within_individuals: f64 /* c */ }
 //! impl VarianceComponents { fn theta(&self) / fn f_it(&self) / fn f_is(&self) -> Option<f64> }
@@ -52,7 +53,7 @@
 use std::iter::Sum;
 use std::ops::{Add, AddAssign};
 
-use popgauge_abi::AlleleCounts;
+use popgauge_abi::{AlleleCounts, GenotypeCounts};
 
 /// The full reference of the estimator, for a step's citations.
 pub const WEIR_COCKERHAM_1984: &str = "Weir BS, Cockerham CC (1984) Estimating F-statistics for the analysis of \
@@ -118,34 +119,58 @@ impl Sum for VarianceComponents {
     }
 }
 
-/// Sample sizes shared by every allele of the locus.
+/// Sample sizes shared by every allele of the locus, with the factors built from them alone
+/// (computed once per locus; each is the same expression, so the same value, as when it was
+/// written out inside the per-allele formulas).
 #[derive(Debug, Clone, Copy)]
 struct SampleSizes {
-    /// r, the number of samples.
-    samples: f64,
     /// n̄, the mean number of typed individuals per sample.
     mean: f64,
-    /// n_c (unused when r = 1).
-    corrected: f64,
+    /// r·n̄, the typed individuals of all samples.
+    pooled: f64,
+    /// (r − 1)·n̄, the divisor of s².
+    spread_divisor: f64,
+    /// n̄/n_c (unused when r = 1).
+    mean_over_corrected: f64,
+    /// n̄/(n̄ − 1).
+    mean_over_mean_less_one: f64,
+    /// (r − 1)/r.
+    samples_less_one_over_samples: f64,
+    /// (2n̄ − 1)/(4n̄).
+    heterozygote_weight: f64,
 }
 
 fn sample_sizes(samples: &[&AlleleCounts]) -> Option<SampleSizes> {
-    if samples.is_empty() || samples.iter().any(|s| s.typed == 0) {
+    sizes_of(samples.len(), |i| samples[i].typed)
+}
+
+/// The sizes of `count` samples, sample i having `typed(i)` typed individuals.
+#[inline(always)]
+fn sizes_of(count: usize, typed: impl Fn(usize) -> u32) -> Option<SampleSizes> {
+    if count == 0 || (0..count).any(|i| typed(i) == 0) {
         return None;
     }
-    let r = samples.len() as f64;
-    let total: f64 = samples.iter().map(|s| f64::from(s.typed)).sum();
+    let r = count as f64;
+    let total: f64 = (0..count).map(|i| f64::from(typed(i))).sum();
     let mean = total / r;
     if mean <= 1.0 {
         return None;
     }
-    let corrected = if samples.len() > 1 {
-        let squares: f64 = samples.iter().map(|s| f64::from(s.typed).powi(2)).sum();
+    let corrected = if count > 1 {
+        let squares: f64 = (0..count).map(|i| f64::from(typed(i)).powi(2)).sum();
         (r * mean - squares / (r * mean)) / (r - 1.0)
     } else {
         mean
     };
-    Some(SampleSizes { samples: r, mean, corrected })
+    Some(SampleSizes {
+        mean,
+        pooled: r * mean,
+        spread_divisor: (r - 1.0) * mean,
+        mean_over_corrected: mean / corrected,
+        mean_over_mean_less_one: mean / (mean - 1.0),
+        samples_less_one_over_samples: (r - 1.0) / r,
+        heterozygote_weight: (2.0 * mean - 1.0) / (4.0 * mean),
+    })
 }
 
 /// The components a, b, c of allele code `allele` (≥ 1) at one locus over `samples` (one
@@ -165,36 +190,98 @@ pub fn locus_components(samples: &[&AlleleCounts]) -> Option<VarianceComponents>
     Some((1..codes).map(|allele| components_for(samples, allele, sizes)).sum())
 }
 
+/// The counts of one sample at a locus with at most two alleles: what [`biallelic_components`]
+/// needs, without the count vectors of [`AlleleCounts`].
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct BiallelicSample {
+    /// Individuals with both alleles typed (nᵢ).
+    pub typed: u32,
+    /// Copies of the lower allele code.
+    pub low_copies: u32,
+    /// Copies of the higher allele code.
+    pub high_copies: u32,
+    /// Heterozygous individuals (each carries one copy of both alleles).
+    pub heterozygotes: u32,
+}
+
+impl From<GenotypeCounts> for BiallelicSample {
+    fn from(genotypes: GenotypeCounts) -> Self {
+        BiallelicSample {
+            typed: genotypes.typed(),
+            low_copies: genotypes.low_copies(),
+            high_copies: genotypes.high_copies(),
+            heterozygotes: genotypes.heterozygotes,
+        }
+    }
+}
+
+impl BiallelicSample {
+    /// The counts of `self` less those of `part`, a subset of its individuals.
+    pub fn without(self, part: BiallelicSample) -> BiallelicSample {
+        BiallelicSample {
+            typed: self.typed - part.typed,
+            low_copies: self.low_copies - part.low_copies,
+            high_copies: self.high_copies - part.high_copies,
+            heterozygotes: self.heterozygotes - part.heterozygotes,
+        }
+    }
+}
+
+/// [`locus_components`] at a locus with at most two allele codes, from scalar counts: the same
+/// formulas in the same order (the lower code first, then the higher; an absent code adds
+/// exact zeros), so the result is bit-for-bit that of [`locus_components`] on the equivalent
+/// [`AlleleCounts`]. The permutation test of `differentiation` calls it once per locus and
+/// replicate; inlined there, the sample count is a constant and the formulas fold around it.
+#[inline(always)]
+pub fn biallelic_components(samples: &[BiallelicSample]) -> Option<VarianceComponents> {
+    let sizes = sizes_of(samples.len(), |i| samples[i].typed)?;
+    let low =
+        components_with(samples.len(), |i| (samples[i].typed, samples[i].low_copies, samples[i].heterozygotes), sizes);
+    let high =
+        components_with(samples.len(), |i| (samples[i].typed, samples[i].high_copies, samples[i].heterozygotes), sizes);
+    Some([low, high].into_iter().sum())
+}
+
 fn components_for(samples: &[&AlleleCounts], allele: usize, sizes: SampleSizes) -> VarianceComponents {
-    let SampleSizes { samples: r, mean: n_bar, corrected: n_c } = sizes;
-    let copies_of = |s: &AlleleCounts| f64::from(s.alleles.get(allele).copied().unwrap_or(0));
-    let carriers_of = |s: &AlleleCounts| f64::from(s.heterozygous_carriers.get(allele).copied().unwrap_or(0));
+    let of = |i: usize| {
+        let s = samples[i];
+        let copies = s.alleles.get(allele).copied().unwrap_or(0);
+        (s.typed, copies, s.heterozygous_carriers.get(allele).copied().unwrap_or(0))
+    };
+    components_with(samples.len(), of, sizes)
+}
+
+/// The components of one allele over `count` samples, sample i giving `sample(i)` = (typed
+/// individuals, copies of the allele, heterozygous carriers of the allele).
+#[inline(always)]
+fn components_with(count: usize, sample: impl Fn(usize) -> (u32, u32, u32), sizes: SampleSizes) -> VarianceComponents {
+    let copies_of = |i: usize| f64::from(sample(i).1);
     // Σnᵢp̃ᵢ = Σ copies/2 and Σnᵢh̃ᵢ = Σ carriers.
-    let p_bar = samples.iter().map(|s| copies_of(s) / 2.0).sum::<f64>() / (r * n_bar);
-    let h_bar = samples.iter().map(|s| carriers_of(s)).sum::<f64>() / (r * n_bar);
+    let p_bar = (0..count).map(|i| copies_of(i) / 2.0).sum::<f64>() / sizes.pooled;
+    let h_bar = (0..count).map(|i| f64::from(sample(i).2)).sum::<f64>() / sizes.pooled;
     if p_bar == 0.0 && h_bar == 0.0 {
         return VarianceComponents::default();
     }
-    let s2 = if samples.len() > 1 {
-        samples
-            .iter()
-            .map(|s| {
-                let n = f64::from(s.typed);
-                n * (copies_of(s) / (2.0 * n) - p_bar).powi(2)
+    let s2 = if count > 1 {
+        (0..count)
+            .map(|i| {
+                let n = f64::from(sample(i).0);
+                n * (copies_of(i) / (2.0 * n) - p_bar).powi(2)
             })
             .sum::<f64>()
-            / ((r - 1.0) * n_bar)
+            / sizes.spread_divisor
     } else {
         0.0
     };
     let pq = p_bar * (1.0 - p_bar);
-    let between_samples = if samples.len() > 1 {
-        n_bar / n_c * (s2 - (pq - (r - 1.0) / r * s2 - h_bar / 4.0) / (n_bar - 1.0))
+    let between_samples = if count > 1 {
+        sizes.mean_over_corrected
+            * (s2 - (pq - sizes.samples_less_one_over_samples * s2 - h_bar / 4.0) / (sizes.mean - 1.0))
     } else {
         0.0
     };
-    let between_individuals =
-        n_bar / (n_bar - 1.0) * (pq - (r - 1.0) / r * s2 - (2.0 * n_bar - 1.0) / (4.0 * n_bar) * h_bar);
+    let between_individuals = sizes.mean_over_mean_less_one
+        * (pq - sizes.samples_less_one_over_samples * s2 - sizes.heterozygote_weight * h_bar);
     VarianceComponents { between_samples, between_individuals, within_individuals: h_bar / 2.0 }
 }
 
@@ -314,5 +401,54 @@ mod tests {
         assert_eq!(k, VarianceComponents::default());
         assert_eq!((k.theta(), k.f_it(), k.f_is()), (None, None, None));
         assert_eq!(allele_components(&[&monomorphic], 3), Some(VarianceComponents::default()));
+    }
+
+    /// Two-allele counts of one sample: (typed, heterozygotes, high homozygotes).
+    fn biallelic_sample() -> impl proptest::strategy::Strategy<Value = BiallelicSample> {
+        use proptest::prelude::*;
+        (0u32..60).prop_flat_map(|typed| (Just(typed), 0..=typed)).prop_flat_map(|(typed, het)| {
+            (0..=typed - het).prop_map(move |high_homozygotes| BiallelicSample {
+                typed,
+                low_copies: 2 * (typed - het - high_homozygotes) + het,
+                high_copies: 2 * high_homozygotes + het,
+                heterozygotes: het,
+            })
+        })
+    }
+
+    /// The same sample as [`AlleleCounts`] with the two alleles at codes `low` < `high` of a
+    /// locus with `labels` labels.
+    fn as_allele_counts(sample: &BiallelicSample, labels: usize, low: usize, high: usize) -> AlleleCounts {
+        let mut c = AlleleCounts {
+            alleles: vec![0; labels + 1],
+            heterozygous_carriers: vec![0; labels + 1],
+            typed: sample.typed,
+            heterozygotes: sample.heterozygotes,
+        };
+        (c.alleles[low], c.alleles[high]) = (sample.low_copies, sample.high_copies);
+        (c.heterozygous_carriers[low], c.heterozygous_carriers[high]) = (sample.heterozygotes, sample.heterozygotes);
+        c
+    }
+
+    fn bits(k: Option<VarianceComponents>) -> Option<[u64; 3]> {
+        k.map(|k| [k.between_samples.to_bits(), k.between_individuals.to_bits(), k.within_individuals.to_bits()])
+    }
+
+    proptest::proptest! {
+        /// The scalar two-allele path is bit-for-bit the general path (the general path is
+        /// the reference; common practice), for 0–4 samples, any two codes of 2–4 labels, and
+        /// samples with nothing typed (undefined) included.
+        #[test]
+        fn biallelic_components_equal_locus_components(
+            samples in proptest::collection::vec(biallelic_sample(), 0..5),
+            labels in 2usize..=4,
+            codes in (1usize..=4, 1usize..=4),
+        ) {
+            let (low, high) = (codes.0.min(labels), codes.1.min(labels));
+            proptest::prop_assume!(low < high);
+            let general: Vec<AlleleCounts> = samples.iter().map(|s| as_allele_counts(s, labels, low, high)).collect();
+            let general: Vec<&AlleleCounts> = general.iter().collect();
+            proptest::prop_assert_eq!(bits(biallelic_components(&samples)), bits(locus_components(&general)));
+        }
     }
 }

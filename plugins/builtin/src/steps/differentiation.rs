@@ -85,16 +85,18 @@ mod tests;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, ParamKind, Seed, Step, StepContext, StepError,
-    StepOutput, Table, Where,
+    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, PackedGenotypes, ParamKind, Seed, Step, StepContext,
+    StepError, StepOutput, Table, Where,
 };
+
+use crate::packing::pack;
 use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
 use crate::stats::bootstrap::rng;
 use crate::stats::gst::{HEDRICK_2005, JOST_2008, MEIRMANS_HEDRICK_2011, NEI_1973, NEI_CHESSER_1983};
-use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test};
+use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test_in_batches};
 use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
 use ibd::{IsolationByDistance, MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
 use pairs::{ComparisonEstimate, PairPermutation};
@@ -172,8 +174,9 @@ impl Step for Differentiation {
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
         let params: Params = ctx.params_as()?;
         let sets = comparison_sets(&ctx.view, params.by_year);
+        let packed = pack(ctx.view);
         let estimates: Vec<SetEstimates<'_>> =
-            sets.iter().map(|set| estimate_set(&ctx.view, set, &params, ctx.seed)).collect();
+            sets.iter().map(|set| estimate_set(&packed, set, &params, ctx.seed)).collect();
         let isolation = ibd::analyse(&estimates, &ctx.assessment.populations, &params, ctx.seed);
         let mut output = StepOutput::default();
         output.tables.insert("pairwise".into(), pairwise_table(&estimates)?);
@@ -239,12 +242,14 @@ fn comparison_sets(view: &GenotypeView<'_>, by_year: bool) -> Vec<ComparisonSet>
     by_year.into_iter().map(|(year, groups)| ComparisonSet { year: Some(year), groups }).collect()
 }
 
-fn estimate_set<'s>(view: &GenotypeView<'_>, set: &'s ComparisonSet, params: &Params, seed: Seed) -> SetEstimates<'s> {
-    let counts: Vec<Vec<AlleleCounts>> = set
-        .groups
-        .iter()
-        .map(|group| (0..view.n_loci()).map(|locus| view.allele_counts(locus, &group.samples)).collect())
-        .collect();
+fn estimate_set<'s>(
+    packed: &PackedGenotypes<'_>,
+    set: &'s ComparisonSet,
+    params: &Params,
+    seed: Seed,
+) -> SetEstimates<'s> {
+    let counts = group_counts(packed, set);
+    let view = &packed.view();
     let indices: Vec<(usize, usize)> =
         (0..set.groups.len()).flat_map(|a| ((a + 1)..set.groups.len()).map(move |b| (a, b))).collect();
     // Pairs run in parallel; each draws from its own streams and `collect` keeps their order,
@@ -256,6 +261,18 @@ fn estimate_set<'s>(view: &GenotypeView<'_>, set: &'s ComparisonSet, params: &Pa
         pairs::estimate(&all, params.bootstrap as usize, &mut rng(seed, &stream))
     });
     SetEstimates { set, counts, pairs, global }
+}
+
+/// Allele counts per group of the set and view locus (`counts[group][locus]`), by popcount at
+/// biallelic loci.
+fn group_counts(packed: &PackedGenotypes<'_>, set: &ComparisonSet) -> Vec<Vec<AlleleCounts>> {
+    set.groups
+        .iter()
+        .map(|group| {
+            let members = packed.sample_set(&group.samples);
+            (0..packed.view().n_loci()).map(|locus| packed.allele_counts(locus, &members)).collect()
+        })
+        .collect()
 }
 
 /// Estimates one pair. Each pair draws from its own named streams, so a pair's interval and
@@ -272,14 +289,15 @@ fn estimate_pair(
     let bootstrap_stream = format!("fst-bootstrap/{key}");
     let estimate =
         pairs::estimate(&[&counts[a], &counts[b]], params.bootstrap as usize, &mut rng(seed, &bootstrap_stream));
-    let permutation = PairPermutation::new(view, &set.groups[a].samples, &set.groups[b].samples, &estimate.loci)
+    // With no permutation the test is off: skip packing the pair.
+    let tested = (params.permutations > 0).then_some(&estimate.loci);
+    let permutation = tested
+        .and_then(|loci| PairPermutation::new(view, &set.groups[a].samples, &set.groups[b].samples, loci))
         .and_then(|mut permuted| {
             let mut labels = permuted.labels();
             let observed = permuted.theta(&labels)?;
             let mut stream = rng(seed, &format!("fst-permutation/{key}"));
-            permutation_test(&mut labels, observed, params.permutations as usize, &mut stream, |order| {
-                permuted.theta(order)
-            })
+            permutation_test_in_batches(&mut labels, observed, params.permutations as usize, &mut stream, &mut permuted)
         });
     PairResult { a, b, estimate, permutation }
 }

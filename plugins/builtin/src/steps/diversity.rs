@@ -64,6 +64,8 @@
 use popgauge_abi::{
     AlleleCounts, Cell, Descriptor, GenotypeView, Group, ParamKind, Seed, Step, StepContext, StepError, StepOutput,
 };
+
+use crate::packing::pack;
 use serde::Deserialize;
 use serde_json::{Value, json};
 
@@ -197,12 +199,14 @@ impl GroupEstimates {
 }
 
 fn estimate_groups(view: &GenotypeView<'_>) -> Vec<GroupEstimates> {
+    let packed = pack(*view);
     let mut counts = AlleleCounts::default();
     let mut estimates = Vec::new();
     for group in view.groups() {
+        let members = packed.sample_set(&group.samples);
         let mut loci = Vec::with_capacity(view.n_loci());
         for locus in 0..view.n_loci() {
-            view.allele_counts_into(locus, &group.samples, &mut counts);
+            packed.allele_counts_into(locus, &members, &mut counts);
             loci.push(estimate_locus(&counts));
         }
         estimates.push(GroupEstimates { group, loci });

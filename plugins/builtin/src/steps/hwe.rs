@@ -41,9 +41,11 @@
 //! - `by_group`: population, year, loci_tested, chi2, df, p_value.
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, ParamKind, Seed, Step, StepContext,
-    StepError, StepOutput, Table,
+    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, Group, PackedGenotypes, ParamKind, SampleSet,
+    Seed, Step, StepContext, StepError, StepOutput, Table,
 };
+
+use crate::packing::pack;
 use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
@@ -100,7 +102,7 @@ impl Step for Hwe {
         let params: Params = ctx.params_as()?;
         let settings = TestSettings { permutations: params.permutations, ..TestSettings::default() };
         let groups = ctx.view.groups();
-        let mut results = test_groups(&ctx.view, &groups, &settings, ctx.seed);
+        let mut results = test_groups(&pack(ctx.view), &groups, &settings, ctx.seed);
         let family_size = assign_q_values(&mut results);
         let combined: Vec<Option<FisherCombination>> = results.iter().map(combine_group).collect();
         let mut output = StepOutput::default();
@@ -195,19 +197,21 @@ type GroupTests = Vec<LocusTest>;
 
 /// Tests every locus in every group, groups in parallel; each test draws only from its own
 /// named stream, so the thread count does not change any result.
-fn test_groups(view: &GenotypeView<'_>, groups: &[Group], settings: &TestSettings, seed: Seed) -> Vec<GroupTests> {
-    groups.par_iter().map(|group| test_group(view, group, settings, seed)).collect()
+fn test_groups(packed: &PackedGenotypes<'_>, groups: &[Group], settings: &TestSettings, seed: Seed) -> Vec<GroupTests> {
+    groups.par_iter().map(|group| test_group(packed, group, settings, seed)).collect()
 }
 
-fn test_group(view: &GenotypeView<'_>, group: &Group, settings: &TestSettings, seed: Seed) -> GroupTests {
+fn test_group(packed: &PackedGenotypes<'_>, group: &Group, settings: &TestSettings, seed: Seed) -> GroupTests {
+    let view = packed.view();
+    let members = packed.sample_set(&group.samples);
     let mut counts = AlleleCounts::default();
     let mut table = GenotypeTable::new();
     let mut workspace = HweWorkspace::new();
     let mut compact: Vec<usize> = Vec::new();
     (0..view.n_loci())
         .map(|locus| {
-            view.allele_counts_into(locus, &group.samples, &mut counts);
-            fill_table(view, locus, &group.samples, &counts, &mut compact, &mut table);
+            packed.allele_counts_into(locus, &members, &mut counts);
+            fill_table(packed, locus, &members, &counts, &mut compact, &mut table);
             let rng = || test_rng(seed, &group.population, group.year, &view.locus(locus).name);
             let outcome = match workspace.test(&table, settings, rng) {
                 Some(test) => Ok(test),
@@ -225,11 +229,12 @@ fn test_group(view: &GenotypeView<'_>, group: &Group, settings: &TestSettings, s
         .collect()
 }
 
-/// The genotype table of `samples` at `locus`, alleles relabelled in code order `0..k`.
+/// The genotype table of `members` at `locus`, alleles relabelled in code order `0..k`: from
+/// the genotype counts at a packed locus, sample by sample otherwise.
 fn fill_table(
-    view: &GenotypeView<'_>,
+    packed: &PackedGenotypes<'_>,
     locus: usize,
-    samples: &[usize],
+    members: &SampleSet,
     counts: &AlleleCounts,
     compact: &mut Vec<usize>,
     table: &mut GenotypeTable,
@@ -242,7 +247,22 @@ fn fill_table(
         index
     }));
     table.reset(next);
-    for &s in samples {
+    if let (Some(biallelic), Some(bits)) = (packed.locus(locus), members.bits()) {
+        let genotypes = biallelic.genotype_counts(bits);
+        let (low, high) = (usize::from(biallelic.low.0), usize::from(biallelic.high.0));
+        for (a, b, n) in [
+            (low, low, genotypes.low_homozygotes),
+            (low, high, genotypes.heterozygotes),
+            (high, high, genotypes.high_homozygotes),
+        ] {
+            if n > 0 {
+                table.add_many(compact[a], compact[b], n);
+            }
+        }
+        return;
+    }
+    let view = packed.view();
+    for &s in members.samples() {
         if let Some((a, b)) = view.genotype(s, locus) {
             table.add(compact[a.0 as usize], compact[b.0 as usize]);
         }

@@ -31,10 +31,11 @@
 //! See [`CITATIONS`].
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, Step, StepContext, StepError,
-    StepOutput, Table, Where,
+    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, Group, PackedGenotypes, Step, StepContext,
+    StepError, StepOutput, Table, Where,
 };
 
+use crate::packing::pack;
 use crate::special_values::{explain, group_name, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error};
 use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
@@ -78,7 +79,8 @@ impl Step for NeHetx {
     }
 
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
-        let groups: Vec<GroupEstimate> = ctx.view.groups().into_iter().map(|g| estimate_group(&ctx.view, g)).collect();
+        let packed = pack(ctx.view);
+        let groups: Vec<GroupEstimate> = ctx.view.groups().into_iter().map(|g| estimate_group(&packed, g)).collect();
         let mut output = StepOutput::default();
         let estimates = estimates_table(&groups)?;
         output.findings = collect_findings(&groups);
@@ -120,11 +122,12 @@ impl GroupEstimate {
     }
 }
 
-fn estimate_group(view: &GenotypeView<'_>, group: Group) -> GroupEstimate {
+fn estimate_group(packed: &PackedGenotypes<'_>, group: Group) -> GroupEstimate {
     let mut counts = AlleleCounts::default();
-    let excess: Vec<f64> = (0..view.n_loci())
+    let members = packed.sample_set(&group.samples);
+    let excess: Vec<f64> = (0..packed.view().n_loci())
         .filter_map(|locus| {
-            view.allele_counts_into(locus, &group.samples, &mut counts);
+            packed.allele_counts_into(locus, &members, &mut counts);
             LocusHeterozygosity::from_counts(&counts).inbreeding().map(|f| -f)
         })
         .collect();

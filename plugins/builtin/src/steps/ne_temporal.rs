@@ -54,9 +54,11 @@
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    AlleleCounts, AssessmentInfo, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, ParamKind, Step,
-    StepContext, StepError, StepOutput, Table, Where,
+    AlleleCounts, AssessmentInfo, Cell, Descriptor, Finding, FindingLevel, GenotypeView, Group, PackedGenotypes,
+    ParamKind, Step, StepContext, StepError, StepOutput, Table, Where,
 };
+
+use crate::packing::pack;
 use serde::Deserialize;
 use serde_json::json;
 
@@ -134,9 +136,10 @@ impl Step for NeTemporal {
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
         let params: Params = ctx.params_as()?;
         let comparisons = sampling_comparisons(&ctx.view);
+        let packed = pack(ctx.view);
         let results: Vec<Comparison> = comparisons
             .into_iter()
-            .map(|(start, end)| compare(&ctx.view, ctx.assessment, params.plan, start, end))
+            .map(|(start, end)| compare(&packed, ctx.assessment, params.plan, start, end))
             .collect();
         let mut output = StepOutput::default();
         let estimates = estimates_table(&results)?;
@@ -326,8 +329,14 @@ struct Estimates {
     fs_interval: Option<Interval>,
 }
 
-fn compare(view: &GenotypeView<'_>, assessment: &AssessmentInfo, plan: Plan, start: Group, end: Group) -> Comparison {
-    let loci = locus_frequencies(view, &start, &end);
+fn compare(
+    packed: &PackedGenotypes<'_>,
+    assessment: &AssessmentInfo,
+    plan: Plan,
+    start: Group,
+    end: Group,
+) -> Comparison {
+    let loci = locus_frequencies(packed, &start, &end);
     let all: Vec<usize> = (0..loci.len()).collect();
     let statistics = drift_statistics(&loci, &all);
     let generations =
@@ -352,12 +361,13 @@ fn census_size(assessment: &AssessmentInfo, population: &str) -> Option<f64> {
 }
 
 /// Per-locus frequencies of the loci usable in both samples.
-fn locus_frequencies(view: &GenotypeView<'_>, start: &Group, end: &Group) -> Vec<LocusFrequencies> {
+fn locus_frequencies(packed: &PackedGenotypes<'_>, start: &Group, end: &Group) -> Vec<LocusFrequencies> {
     let (mut first, mut second) = (AlleleCounts::default(), AlleleCounts::default());
-    (0..view.n_loci())
+    let (start, end) = (packed.sample_set(&start.samples), packed.sample_set(&end.samples));
+    (0..packed.view().n_loci())
         .filter_map(|locus| {
-            view.allele_counts_into(locus, &start.samples, &mut first);
-            view.allele_counts_into(locus, &end.samples, &mut second);
+            packed.allele_counts_into(locus, &start, &mut first);
+            packed.allele_counts_into(locus, &end, &mut second);
             LocusFrequencies::from_counts(&first, &second)
         })
         .collect()

@@ -58,9 +58,11 @@ mod tests;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Descriptor, Finding, GenotypeView, LocusIdx, ParamKind, SampleIdx, Step, StepContext, StepError, StepOutput, Where,
-    format_number,
+    Descriptor, Finding, GenotypeView, LocusIdx, PackedGenotypes, ParamKind, SampleIdx, SampleSet, Step, StepContext,
+    StepError, StepOutput, Where, format_number,
 };
+
+use crate::packing::pack;
 use serde::Deserialize;
 use serde_json::json;
 
@@ -162,6 +164,8 @@ impl Step for Validate {
 /// The decisions so far about every sample, locus and group of the view.
 struct Screen<'a> {
     view: GenotypeView<'a>,
+    /// The view's biallelic loci packed, for counts over sets of samples.
+    packed: PackedGenotypes<'a>,
     loci: Vec<LocusRecord>,
     samples: Vec<SampleRecord>,
     groups: Vec<GroupRecord>,
@@ -202,10 +206,12 @@ enum MonomorphicPass {
 impl<'a> Screen<'a> {
     fn new(view: GenotypeView<'a>, input_findings: &[Finding]) -> Screen<'a> {
         let all: Vec<SampleIdx> = (0..view.n_samples()).collect();
+        let packed = pack(view);
+        let everyone = packed.sample_set(&all);
         let bad_cells = bad_cells_per_column(input_findings);
         let loci = (0..view.n_loci())
             .map(|l| {
-                let untyped = view.untyped_count(l, &all);
+                let untyped = packed.untyped_count(l, &everyone);
                 LocusRecord {
                     typed: all.len() - untyped,
                     missing: untyped as f64 / all.len() as f64,
@@ -228,7 +234,7 @@ impl<'a> Screen<'a> {
             })
             .collect();
         let samples = (0..view.n_samples()).map(|_| SampleRecord::default()).collect();
-        Screen { view, loci, samples, groups }
+        Screen { view, packed, loci, samples, groups }
     }
 
     fn kept_loci(&self) -> Vec<LocusIdx> {
@@ -260,9 +266,9 @@ impl<'a> Screen<'a> {
 
     /// Checks 4 and 8; also records each locus's distinct alleles in the samples kept now.
     fn exclude_monomorphic_loci(&mut self, pass: MonomorphicPass) {
-        let kept = self.kept_samples();
+        let kept = self.packed.sample_set(&self.kept_samples());
         for (l, locus) in self.loci.iter_mut().enumerate() {
-            locus.alleles = self.view.allele_counts(l, &kept).distinct();
+            locus.alleles = self.packed.allele_counts(l, &kept).distinct();
             if locus.exclusion.is_none() && locus.alleles <= 1 {
                 locus.exclusion = Some(monomorphic_reason(pass, locus.alleles));
             }
@@ -275,8 +281,9 @@ impl<'a> Screen<'a> {
         if kept_loci.is_empty() {
             return vec![no_loci_kept_finding()];
         }
-        for (s, sample) in self.samples.iter_mut().enumerate() {
-            let untyped = kept_loci.iter().filter(|&&l| self.view.genotype(s, l).is_none()).count();
+        // The packing's columns are the view's samples, in order.
+        let untyped_per_sample = self.packed.untyped_per_column(&kept_loci);
+        for (sample, &untyped) in self.samples.iter_mut().zip(&untyped_per_sample) {
             let missing = untyped as f64 / kept_loci.len() as f64;
             sample.missing = Some(missing);
             if missing > max_missing {
@@ -390,15 +397,19 @@ impl<'a> Screen<'a> {
 
     /// Check 9: `null_allele` per kept locus and a warning where the indication is consistent.
     fn indicate_null_alleles(&mut self) -> Vec<Finding> {
-        let groups: Vec<Vec<SampleIdx>> = self
+        let groups: Vec<SampleSet> = self
             .groups
             .iter()
-            .map(|g| g.samples.iter().copied().filter(|&s| self.samples[s].exclusion.is_none()).collect())
+            .map(|g| {
+                let kept: Vec<SampleIdx> =
+                    g.samples.iter().copied().filter(|&s| self.samples[s].exclusion.is_none()).collect();
+                self.packed.sample_set(&kept)
+            })
             .collect();
         let mut findings = Vec::new();
         for l in self.kept_loci() {
             let per_group: Vec<(u32, f64)> =
-                groups.iter().filter_map(|samples| null_allele_in_group(&self.view, l, samples)).collect();
+                groups.iter().filter_map(|samples| null_allele_in_group(&self.packed, l, samples)).collect();
             self.loci[l].null_allele = mean(per_group.iter().map(|g| g.1));
             findings.extend(null_allele_finding(&self.view.locus(l).name, &per_group));
         }
@@ -491,8 +502,8 @@ fn duplicate_check_skipped_finding(kept_loci: usize, min_loci: usize) -> Finding
 }
 
 /// (typed individuals, Brookfield r) at one locus in one group; `None` when n < 2.
-fn null_allele_in_group(view: &GenotypeView<'_>, locus: LocusIdx, samples: &[SampleIdx]) -> Option<(u32, f64)> {
-    let het = LocusHeterozygosity::from_counts(&view.allele_counts(locus, samples));
+fn null_allele_in_group(packed: &PackedGenotypes<'_>, locus: LocusIdx, samples: &SampleSet) -> Option<(u32, f64)> {
+    let het = LocusHeterozygosity::from_counts(&packed.allele_counts(locus, samples));
     Some((het.typed, brookfield_null_allele_frequency(het.observed?, het.expected?)))
 }
 

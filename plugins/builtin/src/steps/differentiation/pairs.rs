@@ -1,12 +1,15 @@
 //! The estimates of one comparison (a pair of groups, or every group of a comparison set) and
 //! the permutation of individuals between the two groups of a pair.
 
-use popgauge_abi::{AlleleCounts, GenotypeView, LocusIdx, SampleIdx};
+use popgauge_abi::{AlleleCounts, GenotypeCounts, GenotypeView, LocusIdx, PackedGenotypes, SampleBits, SampleIdx};
 use rand_chacha::ChaCha8Rng;
+
+use crate::packing::pack_samples;
+use crate::stats::permutation::BatchedStatistic;
 
 use crate::stats::bootstrap::{Interval, bootstrap_loci, percentile_interval};
 use crate::stats::gst::{DifferentiationIndices, DiversityEstimator, DiversityTotals, LocusSummary, indices};
-use crate::stats::weir_cockerham::{VarianceComponents, locus_components};
+use crate::stats::weir_cockerham::{BiallelicSample, VarianceComponents, biallelic_components, locus_components};
 
 /// Level of the bootstrap intervals.
 pub(super) const INTERVAL_LEVEL: f64 = 0.95;
@@ -85,36 +88,70 @@ fn combined_indices(nei_chesser: &DiversityTotals, jost: &DiversityTotals, k: us
 /// Largest pair (individuals in both groups) the permutation test handles.
 pub(super) const MAX_PERMUTED_INDIVIDUALS: usize = u16::MAX as usize;
 
+/// Replicates evaluated together: one pass over the loci serves this many arrangements.
+const BATCH: usize = 64;
+
 /// The individuals of a pair of groups, ready to be shuffled between them.
 ///
-/// At each locus tested the distinct genotypes of the pair are listed once and every
-/// individual's genotype is stored as its index in that list (0 = untyped), locus-major. A
-/// replicate counts only the smaller group: a histogram of genotype indices over the individuals
-/// the shuffled labels put in it (one increment per individual), turned into allele counts; the
-/// other group's counts follow by subtraction from the pair totals. All buffers are reused, so
-/// a replicate allocates nothing.
+/// The pair's individuals are the columns of a packing of their genotypes (the smaller group
+/// first), and a replicate's labels name columns. A replicate counts only the smaller group and
+/// takes the other group's counts from the pair totals by subtraction. At a biallelic locus it
+/// counts by popcount: the shuffled labels become a bitset of columns, ANDed with the locus's
+/// bit planes. At a locus with more alleles the distinct genotypes of the pair are listed once,
+/// every individual's genotype is stored as its index in that list (0 = untyped), and a
+/// replicate builds a histogram of genotype indices over the individuals in the smaller group.
+/// Both give the same integer counts, so θ̂* does not depend on the path.
+///
+/// Replicates are evaluated [`BATCH`] at a time ([`BatchedStatistic`]): each locus's planes are
+/// read once for the whole batch, and each replicate still sums its loci in locus order, so
+/// θ̂* is the same as one replicate at a time. Buffers are reused across batches.
 #[derive(Debug, Clone)]
-pub(super) struct PairPermutation {
+pub(super) struct PairPermutation<'v> {
     individuals: usize,
     counted: usize,
-    /// Genotype indices, `loci × individuals`.
+    packed: PackedGenotypes<'v>,
+    /// The loci tested, in view locus order.
+    tested: Vec<TestedLocus>,
+    /// Genotype indices of the loci counted by histogram, `rows × individuals`.
     codes: Vec<u16>,
-    /// Per locus tested: the range of its genotypes in `genotypes`.
-    genotype_ranges: Vec<(usize, usize)>,
-    /// Distinct genotypes of every locus tested, each locus's list starting with (0, 0) = untyped.
+    /// Distinct genotypes of every locus counted by histogram, each locus's list starting with
+    /// (0, 0) = untyped.
     genotypes: Vec<(u16, u16)>,
-    totals: Vec<AlleleCounts>,
+    batch: Batch,
+}
+
+/// The arrangements recorded for the next evaluation and the evaluation's buffers.
+#[derive(Debug, Clone, Default)]
+struct Batch {
+    recorded: usize,
+    /// The smaller group of each arrangement as columns.
+    sides: Vec<SampleBits>,
+    /// The smaller group of each arrangement as labels (kept only for histogram loci).
+    labels: Vec<Vec<u32>>,
+    side_counts: Vec<GenotypeCounts>,
+    sums: Vec<VarianceComponents>,
+    defined: Vec<bool>,
     histogram: [Vec<u32>; 2],
     side: AlleleCounts,
     rest: AlleleCounts,
 }
 
-impl PairPermutation {
+/// One locus of the permutation test and how a replicate counts the smaller group there.
+#[derive(Debug, Clone)]
+enum TestedLocus {
+    /// By popcount over the packed planes of view locus `locus`; `total` counts the pair.
+    Packed { locus: LocusIdx, total: BiallelicSample },
+    /// By histogram over row `row` of `codes`, with genotypes `genotypes[start..end]`;
+    /// `total` counts the pair.
+    Histogram { total: AlleleCounts, row: usize, start: usize, end: usize },
+}
+
+impl<'v> PairPermutation<'v> {
     /// The pair `first`, `second` (view sample indices) at `loci`; loci monomorphic over the
     /// pair are left out (they add 0 to every replicate). `None` for a pair of more than
     /// [`MAX_PERMUTED_INDIVIDUALS`] individuals, whose genotype indices might not fit 16 bits.
     pub(super) fn new(
-        view: &GenotypeView<'_>,
+        view: &GenotypeView<'v>,
         first: &[SampleIdx],
         second: &[SampleIdx],
         loci: &[LocusIdx],
@@ -127,24 +164,38 @@ impl PairPermutation {
         let mut permutation = PairPermutation {
             individuals: members.len(),
             counted: smaller.len(),
-            codes: Vec::with_capacity(loci.len() * members.len()),
-            genotype_ranges: Vec::with_capacity(loci.len()),
+            packed: pack_samples(*view, &members),
+            tested: Vec::with_capacity(loci.len()),
+            codes: Vec::new(),
             genotypes: Vec::new(),
-            totals: Vec::with_capacity(loci.len()),
-            histogram: [Vec::new(), Vec::new()],
-            side: AlleleCounts::default(),
-            rest: AlleleCounts::default(),
+            batch: Batch::default(),
         };
+        let everyone = SampleBits::from_columns(members.len(), 0..members.len());
         for &locus in loci {
-            let total = view.allele_counts(locus, &members);
-            if total.distinct() > 1 {
-                permutation.add_locus(view, locus, &members, total);
-            }
+            let tested = match permutation.packed.locus(locus) {
+                Some(packed) => {
+                    let total = BiallelicSample::from(packed.genotype_counts(&everyone));
+                    // Both alleles present: the packed equivalent of `distinct() > 1`.
+                    (total.low_copies > 0 && total.high_copies > 0).then_some(TestedLocus::Packed { locus, total })
+                }
+                None => {
+                    let total = view.allele_counts(locus, &members);
+                    (total.distinct() > 1).then(|| permutation.add_histogram_locus(view, locus, &members, total))
+                }
+            };
+            permutation.tested.extend(tested);
         }
         Some(permutation)
     }
 
-    fn add_locus(&mut self, view: &GenotypeView<'_>, locus: LocusIdx, members: &[SampleIdx], total: AlleleCounts) {
+    fn add_histogram_locus(
+        &mut self,
+        view: &GenotypeView<'_>,
+        locus: LocusIdx,
+        members: &[SampleIdx],
+        total: AlleleCounts,
+    ) -> TestedLocus {
+        let row = self.codes.len() / self.individuals.max(1);
         let start = self.genotypes.len();
         self.genotypes.push((0, 0));
         for &sample in members {
@@ -163,8 +214,7 @@ impl PairPermutation {
             // untyped bin), which `new` keeps within u16.
             self.codes.push(u16::try_from(index).unwrap_or(u16::MAX));
         }
-        self.genotype_ranges.push((start, self.genotypes.len()));
-        self.totals.push(total);
+        TestedLocus::Histogram { total, row, start, end: self.genotypes.len() }
     }
 
     /// The labels of the data as they are: the smaller group first.
@@ -174,21 +224,78 @@ impl PairPermutation {
 
     /// θ̂ with the first labels of `order` (as many as the smaller group) forming that group.
     pub(super) fn theta(&mut self, order: &[u32]) -> Option<f64> {
-        let counted = &order[..self.counted];
-        let mut sum = VarianceComponents::default();
-        let mut any_locus = false;
-        for (locus, total) in self.totals.iter().enumerate() {
-            let row = &self.codes[locus * self.individuals..(locus + 1) * self.individuals];
-            let (start, end) = self.genotype_ranges[locus];
-            genotype_histogram(row, counted, end - start, &mut self.histogram);
-            counts_from_histogram(&self.histogram[0], &self.genotypes[start..end], total.alleles.len(), &mut self.side);
-            subtract(total, &self.side, &mut self.rest);
-            if let Some(c) = locus_components(&[&self.side, &self.rest]) {
-                sum += c;
-                any_locus = true;
+        self.batch.recorded = 0;
+        self.record(order);
+        let mut values = Vec::with_capacity(1);
+        self.evaluate(&mut values);
+        values.pop().flatten()
+    }
+
+    fn has_histogram_loci(&self) -> bool {
+        !self.codes.is_empty()
+    }
+}
+
+impl BatchedStatistic<u32> for PairPermutation<'_> {
+    const BATCH: usize = BATCH;
+
+    fn record(&mut self, arrangement: &[u32]) {
+        let counted = &arrangement[..self.counted];
+        let slot = self.batch.recorded;
+        if self.batch.sides.len() == slot {
+            self.batch.sides.push(self.packed.empty_bits());
+            self.batch.labels.push(Vec::new());
+        }
+        let side = &mut self.batch.sides[slot];
+        side.clear();
+        for &label in counted {
+            side.insert(label as usize);
+        }
+        if self.has_histogram_loci() {
+            self.batch.labels[slot].clear();
+            self.batch.labels[slot].extend_from_slice(counted);
+        }
+        self.batch.recorded += 1;
+    }
+
+    fn evaluate(&mut self, values: &mut Vec<Option<f64>>) {
+        let replicates = self.batch.recorded;
+        let batch = &mut self.batch;
+        batch.sums.clear();
+        batch.sums.resize(replicates, VarianceComponents::default());
+        batch.defined.clear();
+        batch.defined.resize(replicates, false);
+        for tested in &self.tested {
+            match tested {
+                TestedLocus::Packed { locus, total } => {
+                    // Always `Some`: `new` chose this path by the same lookup.
+                    let Some(packed) = self.packed.locus(*locus) else { continue };
+                    packed.genotype_counts_many(&batch.sides[..replicates], &mut batch.side_counts);
+                    for (r, &counts) in batch.side_counts.iter().enumerate() {
+                        let side = BiallelicSample::from(counts);
+                        if let Some(c) = biallelic_components(&[side, total.without(side)]) {
+                            batch.sums[r] += c;
+                            batch.defined[r] = true;
+                        }
+                    }
+                }
+                TestedLocus::Histogram { total, row, start, end } => {
+                    let row = &self.codes[row * self.individuals..(row + 1) * self.individuals];
+                    let genotypes = &self.genotypes[*start..*end];
+                    for r in 0..replicates {
+                        genotype_histogram(row, &batch.labels[r], end - start, &mut batch.histogram);
+                        counts_from_histogram(&batch.histogram[0], genotypes, total.alleles.len(), &mut batch.side);
+                        subtract(total, &batch.side, &mut batch.rest);
+                        if let Some(c) = locus_components(&[&batch.side, &batch.rest]) {
+                            batch.sums[r] += c;
+                            batch.defined[r] = true;
+                        }
+                    }
+                }
             }
         }
-        if any_locus { sum.theta() } else { None }
+        values.extend(batch.sums.iter().zip(&batch.defined).map(|(sum, &defined)| sum.theta().filter(|_| defined)));
+        batch.recorded = 0;
     }
 }
 
