@@ -75,17 +75,34 @@ pub fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
     sorted[below] + (sorted[above] - sorted[below]) * (position - below as f64)
 }
 
-/// Delete-one jackknife over `n_loci` loci: the statistic without each locus in turn (the slice
-/// holds the other loci). Undefined leave-one-out values are `None`.
-pub fn jackknife_loci(n_loci: usize, mut statistic: impl FnMut(&[usize]) -> Option<f64>) -> Vec<Option<f64>> {
-    let mut indices: Vec<usize> = Vec::with_capacity(n_loci.saturating_sub(1));
-    (0..n_loci)
-        .map(|left_out| {
-            indices.clear();
-            indices.extend((0..n_loci).filter(|&l| l != left_out));
-            statistic(&indices).filter(|v| v.is_finite())
+/// Delete-one jackknife over loci for a statistic of per-locus sums: `terms[l]` holds locus
+/// l's K summands, and each leave-one-out value is `statistic(total − terms[l], L − 1)`. This is
+/// linear in the number of loci (recomputing every subset would be quadratic: minutes at 20,000
+/// SNPs); the totals minus one locus agree with a fresh sum to rounding. Undefined or
+/// non-finite values are `None`.
+pub fn jackknife_loci<const K: usize>(
+    terms: &[[f64; K]],
+    statistic: impl Fn(&[f64; K], usize) -> Option<f64>,
+) -> Vec<Option<f64>> {
+    let total = sum_terms(terms);
+    terms
+        .iter()
+        .map(|locus| {
+            let without: [f64; K] = std::array::from_fn(|k| total[k] - locus[k]);
+            statistic(&without, terms.len() - 1).filter(|v| v.is_finite())
         })
         .collect()
+}
+
+/// Σ over loci of each of the K summands, in locus order.
+pub fn sum_terms<const K: usize>(terms: &[[f64; K]]) -> [f64; K] {
+    let mut total = [0.0; K];
+    for locus in terms {
+        for (sum, term) in total.iter_mut().zip(locus) {
+            *sum += term;
+        }
+    }
+    total
 }
 
 /// Jackknife standard error SE_J = √[((L−1)/L) Σ (θ₍₋ₗ₎ − θ̄₍·₎)²] over the defined
@@ -132,8 +149,22 @@ mod tests {
     #[test]
     fn jackknife_of_the_mean_is_the_standard_error() {
         let data = [1.0, 2.0, 3.0, 4.0, 5.0];
-        let loo = jackknife_loci(5, |idx| Some(idx.iter().map(|&i| data[i]).sum::<f64>() / idx.len() as f64));
+        let terms: Vec<[f64; 1]> = data.iter().map(|&x| [x]).collect();
+        let loo = jackknife_loci(&terms, |sums, loci| Some(sums[0] / loci as f64));
+        assert_eq!(loo[0], Some(3.5), "leave out 1: mean of 2..5");
         let se = jackknife_standard_error(&loo).unwrap();
         assert!((se - 0.5f64.sqrt()).abs() < 1e-12, "{se}");
+    }
+
+    /// The linear leave-one-out (total minus one locus) equals recomputing the statistic on the
+    /// other loci, to rounding (common practice: a ratio of sums, as in ne-temporal's F̃).
+    #[test]
+    fn linear_leave_one_out_matches_recomputation() {
+        let terms: Vec<[f64; 2]> = (1..=40).map(|l| [f64::from(l).sin().abs(), 1.0 + f64::from(l).cos().abs()]).collect();
+        let loo = jackknife_loci(&terms, |sums, _| Some(sums[0] / sums[1]));
+        for (left_out, value) in loo.iter().enumerate() {
+            let (num, den) = terms.iter().enumerate().filter(|(l, _)| *l != left_out).fold((0.0, 0.0), |(n, d), (_, t)| (n + t[0], d + t[1]));
+            assert!((value.unwrap() - num / den).abs() < 1e-12, "{left_out}");
+        }
     }
 }

@@ -132,7 +132,8 @@ fn estimate_group(packed: &PackedGenotypes<'_>, group: Group) -> GroupEstimate {
         })
         .collect();
     let mean_excess = mean(excess.iter().copied());
-    let leave_one_out = jackknife_loci(excess.len(), |loci| mean(loci.iter().map(|&l| excess[l])));
+    let terms: Vec<[f64; 1]> = excess.iter().map(|&d| [d]).collect();
+    let leave_one_out = jackknife_loci(&terms, |sums, loci| (loci > 0).then(|| sums[0] / loci as f64));
     let excess_interval = match (mean_excess, jackknife_standard_error(&leave_one_out)) {
         (Some(d), Some(se)) => student_t_interval(d, se, excess.len() as f64 - 1.0, LEVEL),
         _ => None,

@@ -63,7 +63,7 @@ use serde::Deserialize;
 use serde_json::json;
 
 use crate::special_values::{Row, explain, rows_where};
-use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error};
+use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error, sum_terms};
 use crate::stats::intervals::{chi_square_interval, student_t_interval};
 
 /// A sample with fewer individuals (harmonic mean over loci) gets a `low-sample-size` warning.
@@ -246,25 +246,33 @@ pub struct DriftStatistics {
 
 /// The drift statistics over the loci `indices` of `loci`; `None` without loci.
 pub fn drift_statistics(loci: &[LocusFrequencies], indices: &[usize]) -> Option<DriftStatistics> {
-    if indices.is_empty() {
-        return None;
-    }
-    let (mut k_sum, mut df, mut fc, mut fk, mut num, mut den, mut inv_start, mut inv_end) =
-        (0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
-    for locus in indices.iter().map(|&l| &loci[l]) {
-        let k = locus.allele_count();
-        k_sum += k;
-        df += k - 1.0;
-        fc += k * locus.nei_tajima();
-        fk += (k - 1.0) * locus.pollak();
-        let (n, d) = locus.ratio_terms();
-        num += n;
-        den += d;
-        inv_start += k / locus.start_typed;
-        inv_end += k / locus.end_typed;
-    }
-    Some(DriftStatistics {
-        loci: indices.len(),
+    let terms: Vec<[f64; DRIFT_TERMS]> = indices.iter().map(|&l| drift_terms(&loci[l])).collect();
+    statistics_of_sums(&sum_terms(&terms), indices.len())
+}
+
+/// Summands of one locus: K, K − 1, K·F_c, (K − 1)·F_k, the two F̃ ratio terms, K/S₀ and K/S_t.
+const DRIFT_TERMS: usize = 8;
+
+fn drift_terms(locus: &LocusFrequencies) -> [f64; DRIFT_TERMS] {
+    let k = locus.allele_count();
+    let (numerator, denominator) = locus.ratio_terms();
+    [
+        k,
+        k - 1.0,
+        k * locus.nei_tajima(),
+        (k - 1.0) * locus.pollak(),
+        numerator,
+        denominator,
+        k / locus.start_typed,
+        k / locus.end_typed,
+    ]
+}
+
+/// The drift statistics from the summed terms of `loci` loci; `None` without loci.
+fn statistics_of_sums(sums: &[f64; DRIFT_TERMS], loci: usize) -> Option<DriftStatistics> {
+    let [k_sum, df, fc, fk, num, den, inv_start, inv_end] = *sums;
+    (loci > 0).then(|| DriftStatistics {
+        loci,
         df,
         start_samples: k_sum / inv_start,
         end_samples: k_sum / inv_end,
@@ -378,10 +386,11 @@ fn estimates(loci: &[LocusFrequencies], stats: &DriftStatistics, generations: f6
         |f: f64| ne_from_corrected(corrected_f(f, stats.start_samples, stats.end_samples, census), generations);
     let ne_interval = |interval: Interval| Interval { low: ne_of_f(interval.high), high: ne_of_f(interval.low) };
     let fs = jorde_ryman(stats.f_ratio, stats.start_samples, stats.end_samples, census);
-    let fs_of = |indices: &[usize]| {
-        drift_statistics(loci, indices).map(|s| jorde_ryman(s.f_ratio, s.start_samples, s.end_samples, census))
+    let fs_of = |sums: &[f64; DRIFT_TERMS], count: usize| {
+        statistics_of_sums(sums, count).map(|s| jorde_ryman(s.f_ratio, s.start_samples, s.end_samples, census))
     };
-    let leave_one_out = jackknife_loci(loci.len(), fs_of);
+    let terms: Vec<[f64; DRIFT_TERMS]> = loci.iter().map(drift_terms).collect();
+    let leave_one_out = jackknife_loci(&terms, fs_of);
     let fs_interval = jackknife_standard_error(&leave_one_out)
         .and_then(|se| student_t_interval(fs, se, loci.len() as f64 - 1.0, LEVEL))
         .map(|i| Interval { low: ne_from_corrected(i.high, generations), high: ne_from_corrected(i.low, generations) });
