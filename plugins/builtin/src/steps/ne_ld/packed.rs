@@ -83,6 +83,8 @@ pub struct PackedPanel {
     stride: usize,
     /// Per locus and criterion: its row in that criterion's panel, or [`NO_ROW`].
     rows: Vec<u32>,
+    /// Per locus: its criteria bits (as in `loci`, contiguous for the vector sums).
+    members: Vec<u64>,
     /// Per criterion: loci in its panel.
     pub loci_in: Vec<usize>,
     /// Per criterion: an earlier criterion with exactly the same panel, whose sums it shares
@@ -125,6 +127,7 @@ impl PackedPanel {
             columns: Vec::new(),
             stride: 0,
             rows: Vec::new(),
+            members: Vec::new(),
             loci_in: vec![0; request.criteria.len()],
             same_as: vec![None; request.criteria.len()],
         };
@@ -156,6 +159,7 @@ impl PackedPanel {
             });
         }
         panel.share_identical_panels();
+        panel.members = panel.loci.iter().map(|l| l.member).collect();
         if panel.replicates == 0 {
             panel.fill_columns();
         }
@@ -489,7 +493,8 @@ fn chunk_sums_dispatch(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: 
     #[cfg(target_arch = "x86_64")]
     {
         if panel.replicates == 0 && avx512::available() {
-            return chunk_sums_with(panel, rows, skip, Kernel::Avx512);
+            // SAFETY: the processor has AVX-512 F, DQ and VPOPCNTDQ (checked just above).
+            return unsafe { chunk_sums_avx512(panel, rows, skip) };
         }
         if std::is_x86_feature_detected!("avx2") && std::is_x86_feature_detected!("popcnt") {
             // SAFETY: the processor supports AVX2 and POPCNT (checked just above), the only
@@ -498,6 +503,13 @@ fn chunk_sums_dispatch(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: 
         }
     }
     chunk_sums(panel, rows, skip)
+}
+
+/// The dense chunk loop with AVX-512 enabled throughout (the kernel and the vector sums).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512dq,avx512vpopcntdq,avx2,popcnt")]
+fn chunk_sums_avx512(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: bool) -> Vec<PairSums> {
+    chunk_sums_with(panel, rows, skip, Kernel::Avx512)
 }
 
 #[cfg(target_arch = "x86_64")]
@@ -529,14 +541,13 @@ fn chunk_sums_with(
     skip_same_chromosome: bool,
     kernel: Kernel,
 ) -> Vec<PairSums> {
+    if panel.replicates == 0 {
+        return dense_chunk_sums(panel, rows, skip_same_chromosome, kernel);
+    }
     let mut parts: Vec<CriterionPart> =
         panel.loci_in.iter().map(|&loci| CriterionPart::new(loci, panel.replicates)).collect();
-    let mut values = vec![None; panel.loci.len()];
     let mut row_sums = vec![Accumulator::default(); panel.criteria];
     for a in rows {
-        if panel.replicates == 0 {
-            dense_row_values(panel, a, kernel, &mut values);
-        }
         let (locus_a, planes_a) = (&panel.loci[a], panel.planes(a));
         row_sums.fill(Accumulator::default());
         for b in a + 1..panel.loci.len() {
@@ -551,13 +562,8 @@ fn chunk_sums_with(
                 for_each_criterion(member, |c| parts[c].sums.same_chromosome += 1);
                 continue;
             }
-            if panel.replicates == 0 {
-                let full = values[b];
-                for_each_criterion(member, |c| add_full(&mut parts[c].sums, &mut row_sums[c], panel.row(b, c), full));
-            } else {
-                let weights = pair_weights(&slot_moments(&lane_counts(planes_a, panel.planes(b)), panel.replicates));
-                for_each_criterion(member, |c| add_to(&mut parts[c], &mut row_sums[c], panel.row(b, c), &weights));
-            }
+            let weights = pair_weights(&slot_moments(&lane_counts(planes_a, panel.planes(b)), panel.replicates));
+            for_each_criterion(member, |c| add_to(&mut parts[c], &mut row_sums[c], panel.row(b, c), &weights));
         }
         for_each_criterion(locus_a.member, |c| {
             let sums = &mut parts[c].sums;
@@ -568,9 +574,174 @@ fn chunk_sums_with(
     parts.into_iter().map(CriterionPart::finish).collect()
 }
 
+/// The full-sample values of the pairs of one row, by second locus b (zero-padded to the
+/// panel's `stride`): w·r̂², w = S², 1/S and whether r̂² is defined (1) or not (0).
+struct RowValues {
+    weighted_r2: Vec<f64>,
+    weight: Vec<f64>,
+    per_sample: Vec<f64>,
+    defined: Vec<u8>,
+}
+
+impl RowValues {
+    fn new(length: usize) -> RowValues {
+        RowValues {
+            weighted_r2: vec![0.0; length],
+            weight: vec![0.0; length],
+            per_sample: vec![0.0; length],
+            defined: vec![0; length],
+        }
+    }
+}
+
+/// Per-locus sums of one criterion in a chunk, by panel locus (not criterion row), kept as
+/// arrays so a row adds its pairs to them in vector operations; pairs a criterion excludes add
+/// +0.0, which leaves a sum's bits unchanged (the sums start at +0.0 and only grow).
+struct LocusSums {
+    weighted_r2: Vec<f64>,
+    weight: Vec<f64>,
+    per_sample: Vec<f64>,
+    pairs: Vec<u64>,
+}
+
+impl LocusSums {
+    fn new(loci: usize) -> LocusSums {
+        LocusSums { weighted_r2: vec![0.0; loci], weight: vec![0.0; loci], per_sample: vec![0.0; loci], pairs: vec![0; loci] }
+    }
+
+    /// Adds a row's sums to its first locus.
+    fn add_row(&mut self, locus: usize, row: &Accumulator) {
+        self.weighted_r2[locus] += row.weighted_r2;
+        self.weight[locus] += row.weight;
+        self.per_sample[locus] += row.comparisons_per_sample;
+        self.pairs[locus] += row.pairs;
+    }
+
+    /// Into the criterion's `with_locus` (by its rows); with one comparison per pair, the
+    /// comparisons are the pair counts (sums of 1.0, exact).
+    fn write_into(&self, panel: &PackedPanel, criterion: usize, with_locus: &mut [Accumulator]) {
+        for locus in 0..panel.loci.len() {
+            if panel.loci[locus].member >> criterion & 1 == 1 {
+                with_locus[panel.row(locus, criterion)] = Accumulator {
+                    weighted_r2: self.weighted_r2[locus],
+                    weight: self.weight[locus],
+                    comparisons: self.pairs[locus] as f64,
+                    comparisons_per_sample: self.per_sample[locus],
+                    pairs: self.pairs[locus],
+                };
+            }
+        }
+    }
+}
+
+/// The chunk loop without jackknife lanes: per row, the kernel's values for every second
+/// locus, then per criterion the second loci's sums in vector operations, then the row sums of
+/// all criteria in one pass over b (in b order, as the byte path adds them).
+#[inline(always)]
+fn dense_chunk_sums(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: bool, kernel: Kernel) -> Vec<PairSums> {
+    let loci = panel.loci.len();
+    let mut sums: Vec<PairSums> = panel.loci_in.iter().map(|&n| PairSums::empty(n, 0)).collect();
+    let mut locus_sums: Vec<LocusSums> = (0..panel.criteria).map(|_| LocusSums::new(loci)).collect();
+    let mut values = RowValues::new(panel.stride.max(loci));
+    let mut same = vec![0u8; loci];
+    let mut include: Vec<Vec<u8>> = vec![vec![0; loci]; panel.criteria];
+    let mut active: Vec<usize> = Vec::with_capacity(panel.criteria);
+    for a in rows {
+        dense_row_values(panel, a, kernel, &mut values);
+        let chromosome_a = panel.loci[a].chromosome;
+        for b in a + 1..loci {
+            same[b] = u8::from(skip && chromosome_a.is_some() && panel.loci[b].chromosome == chromosome_a);
+        }
+        active.clear();
+        for_each_criterion(panel.loci[a].member, |c| active.push(c));
+        for &c in &active {
+            let counts = include_and_add(panel, (a, c), (&values, &same), &mut include[c], &mut locus_sums[c]);
+            sums[c].same_chromosome += counts.0;
+            sums[c].undefined += counts.1;
+        }
+        for group in active.chunks(ROW_CHAINS) {
+            let rows = row_sums(&values, group, &include, a + 1..loci);
+            for (&c, row) in group.iter().zip(&rows) {
+                sums[c].total.merge(row);
+                locus_sums[c].add_row(a, row);
+            }
+        }
+    }
+    for (c, (sums, locus_sums)) in sums.iter_mut().zip(&locus_sums).enumerate() {
+        locus_sums.write_into(panel, c, &mut sums.with_locus);
+    }
+    sums
+}
+
+/// Criteria whose row sums run side by side (independent chains of additions).
+const ROW_CHAINS: usize = 4;
+
+/// The sums of a row's included pairs for up to [`ROW_CHAINS`] criteria, each added in b
+/// order (the same sequence of additions as [`Accumulator::add_weighted`] from zero; an
+/// excluded pair adds +0.0, which changes no bits), without branches.
+#[inline(always)]
+fn row_sums(values: &RowValues, criteria: &[usize], include: &[Vec<u8>], seconds: std::ops::Range<usize>) -> Vec<Accumulator> {
+    let mut weighted_r2 = [0.0f64; ROW_CHAINS];
+    let mut weight = [0.0f64; ROW_CHAINS];
+    let mut per_sample = [0.0f64; ROW_CHAINS];
+    let mut pairs = [0u64; ROW_CHAINS];
+    let none = vec![0u8; 0];
+    let flags: [&[u8]; ROW_CHAINS] =
+        std::array::from_fn(|k| criteria.get(k).map_or(none.as_slice(), |&c| include[c].as_slice()));
+    let used = criteria.len();
+    for b in seconds {
+        let (w, wr, ps) = (values.weight[b], values.weighted_r2[b], values.per_sample[b]);
+        for k in 0..ROW_CHAINS {
+            if k < used {
+                let on = flags[k][b] == 1;
+                weighted_r2[k] += if on { wr } else { 0.0 };
+                weight[k] += if on { w } else { 0.0 };
+                per_sample[k] += if on { ps } else { 0.0 };
+                pairs[k] += u64::from(flags[k][b]);
+            }
+        }
+    }
+    (0..used)
+        .map(|k| Accumulator {
+            weighted_r2: weighted_r2[k],
+            weight: weight[k],
+            comparisons: pairs[k] as f64,
+            comparisons_per_sample: per_sample[k],
+            pairs: pairs[k],
+        })
+        .collect()
+}
+
+/// For criterion c and row a: which pairs (a, b) it sums (`include[b]`), their values added to
+/// locus b's sums, and the counts of its pairs skipped as same-chromosome and undefined.
+#[inline(always)]
+fn include_and_add(
+    panel: &PackedPanel,
+    (a, c): (usize, usize),
+    (values, same): (&RowValues, &[u8]),
+    include: &mut [u8],
+    sums: &mut LocusSums,
+) -> (u64, u64) {
+    let (mut same_count, mut undefined) = (0u64, 0u64);
+    for b in a + 1..panel.loci.len() {
+        let member = (panel.members[b] >> c & 1) as u8;
+        let kept = member & (1 - same[b]);
+        let included = kept & values.defined[b];
+        same_count += u64::from(member & same[b]);
+        undefined += u64::from(kept & (1 - values.defined[b]));
+        include[b] = included;
+        let on = included == 1;
+        sums.weighted_r2[b] += if on { values.weighted_r2[b] } else { 0.0 };
+        sums.weight[b] += if on { values.weight[b] } else { 0.0 };
+        sums.per_sample[b] += if on { values.per_sample[b] } else { 0.0 };
+        sums.pairs[b] += u64::from(included);
+    }
+    (same_count, undefined)
+}
+
 /// The full-sample values (w·r̂², w, 1/S) of pairs (a, b) for every b > a, into `values[b]`.
 #[inline(always)]
-fn dense_row_values(panel: &PackedPanel, a: usize, kernel: Kernel, values: &mut [Option<(f64, f64, f64)>]) {
+fn dense_row_values(panel: &PackedPanel, a: usize, kernel: Kernel, values: &mut RowValues) {
     #[cfg(target_arch = "x86_64")]
     if kernel == Kernel::Avx512 {
         // SAFETY: `Kernel::Avx512` is only chosen where the processor has AVX-512 F, DQ and
@@ -580,8 +751,13 @@ fn dense_row_values(panel: &PackedPanel, a: usize, kernel: Kernel, values: &mut 
     }
     let _ = kernel;
     let planes_a = panel.planes(a);
-    for (b, value) in values.iter_mut().enumerate().skip(a + 1) {
-        *value = full_weights(dense_counts(planes_a, panel.planes(b)), &panel.reciprocals);
+    for b in a + 1..panel.loci.len() {
+        let full = full_weights(dense_counts(planes_a, panel.planes(b)), &panel.reciprocals);
+        let (weighted_r2, weight, per_sample) = full.unwrap_or((0.0, 0.0, 0.0));
+        values.weighted_r2[b] = weighted_r2;
+        values.weight[b] = weight;
+        values.per_sample[b] = per_sample;
+        values.defined[b] = u8::from(full.is_some());
     }
 }
 
@@ -594,7 +770,7 @@ mod avx512 {
 
     use std::arch::x86_64::*;
 
-    use super::{PackedPanel, VECTOR};
+    use super::{PackedPanel, RowValues, VECTOR};
 
     /// True when the processor has what [`row_values`] needs.
     pub fn available() -> bool {
@@ -608,7 +784,7 @@ mod avx512 {
     /// # Safety
     /// The processor must have AVX-512 F, DQ and VPOPCNTDQ ([`available`]).
     #[target_feature(enable = "avx512f,avx512dq,avx512vpopcntdq")]
-    pub unsafe fn row_values(panel: &PackedPanel, a: usize, values: &mut [Option<(f64, f64, f64)>]) {
+    pub unsafe fn row_values(panel: &PackedPanel, a: usize, values: &mut RowValues) {
         let (words, stride, loci) = (panel.words, panel.stride, panel.loci.len());
         let column = |plane: usize, word: usize, b: usize| (plane * words + word) * stride + b;
         let mut b0 = a + 1;
@@ -650,15 +826,19 @@ mod avx512 {
             let defined = _mm512_cmp_pd_mask::<_CMP_GE_OQ>(n, _mm512_set1_pd(2.0))
                 & _mm512_cmp_pd_mask::<_CMP_GT_OQ>(spread_x, zero)
                 & _mm512_cmp_pd_mask::<_CMP_GT_OQ>(spread_y, zero);
-            let mut out = [[0f64; VECTOR]; 3];
-            // SAFETY: each array holds eight f64, the width of the stores.
+            // Undefined lanes hold 0.0, as the portable kernel writes them.
+            let weighted = _mm512_maskz_mov_pd(defined, weighted);
+            let weight = _mm512_maskz_mov_pd(defined, weight);
+            let per_sample = _mm512_maskz_mov_pd(defined, per_sample);
+            // SAFETY: the value arrays have `stride` ≥ b0 + 8 entries (b0 < loci, and the
+            // stride is the loci rounded up to 8 plus 8).
             unsafe {
-                _mm512_storeu_pd(out[0].as_mut_ptr(), weighted);
-                _mm512_storeu_pd(out[1].as_mut_ptr(), weight);
-                _mm512_storeu_pd(out[2].as_mut_ptr(), per_sample);
+                _mm512_storeu_pd(values.weighted_r2.as_mut_ptr().add(b0), weighted);
+                _mm512_storeu_pd(values.weight.as_mut_ptr().add(b0), weight);
+                _mm512_storeu_pd(values.per_sample.as_mut_ptr().add(b0), per_sample);
             }
-            for lane in 0..VECTOR.min(loci - b0) {
-                values[b0 + lane] = (defined >> lane & 1 == 1).then(|| (out[0][lane], out[1][lane], out[2][lane]));
+            for lane in 0..VECTOR {
+                values.defined[b0 + lane] = (defined >> lane & 1) as u8;
             }
             b0 += VECTOR;
         }
