@@ -34,7 +34,20 @@ struct Options {
     regenerate: bool,
 }
 
+/// The internal mode in which this program only writes the case (see [`run`]).
+const GENERATE: &str = "--generate-case-into";
+
 fn main() -> ExitCode {
+    let mut args = std::env::args().skip(1);
+    if let (Some(GENERATE), Some(dir)) = (args.next().as_deref(), args.next()) {
+        return match generate(Path::new(&dir)) {
+            Ok(()) => ExitCode::SUCCESS,
+            Err(error) => {
+                eprintln!("error: {error}");
+                ExitCode::FAILURE
+            }
+        };
+    }
     let options = match parse(std::env::args().skip(1)) {
         Ok(options) => options,
         Err(message) => {
@@ -73,7 +86,13 @@ fn run(options: &Options) -> Result<(), Box<dyn Error>> {
     let popgauge = find_popgauge(options.popgauge.as_deref())?;
     let case = options.out.join("case");
     if options.regenerate || !case.join("case.toml").is_file() {
-        generate(&case)?;
+        // In a child process: Linux carries a process's peak memory over into the programs
+        // it starts (`ru_maxrss` survives fork and exec), so the simulation's half gigabyte
+        // must not be this process's.
+        let status = Command::new(std::env::current_exe()?).arg(GENERATE).arg(&case).status()?;
+        if !status.success() {
+            return Err(format!("generating the case failed ({status})").into());
+        }
     } else {
         println!("case: {} (already there; --regenerate to write it again)", case.display());
     }
