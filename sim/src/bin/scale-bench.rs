@@ -16,6 +16,7 @@
 use std::error::Error;
 use std::fs;
 use std::path::{Path, PathBuf};
+use std::os::unix::process::CommandExt;
 use std::process::{Command, ExitCode};
 use std::time::{Duration, Instant};
 
@@ -86,9 +87,8 @@ fn run(options: &Options) -> Result<(), Box<dyn Error>> {
     let popgauge = find_popgauge(options.popgauge.as_deref())?;
     let case = options.out.join("case");
     if options.regenerate || !case.join("case.toml").is_file() {
-        // In a child process: Linux carries a process's peak memory over into the programs
-        // it starts (`ru_maxrss` survives fork and exec), so the simulation's half gigabyte
-        // must not be this process's.
+        // In a child process: a child started with fork counts from this process's resident
+        // size in `ru_maxrss`, so the simulation's half gigabyte must not be held here.
         let status = Command::new(std::env::current_exe()?).arg(GENERATE).arg(&case).status()?;
         if !status.success() {
             return Err(format!("generating the case failed ({status})").into());
@@ -178,7 +178,14 @@ impl Measured {
 /// use, and fails when it exits non-zero.
 fn timed(program: &Path, args: &[&str]) -> Result<Measured, Box<dyn Error>> {
     let start = Instant::now();
-    let child = Command::new(program).args(args).spawn()?;
+    let mut command = Command::new(program);
+    command.args(args);
+    // SAFETY: the hook does nothing, so it is async-signal-safe. Its presence makes std
+    // start the child with fork and exec rather than posix_spawn's vfork, whose child
+    // shares this process's memory map until exec and so starts with this process's peak
+    // resident size in `ru_maxrss`.
+    unsafe { command.pre_exec(|| Ok(())) };
+    let child = command.spawn()?;
     let pid = libc::pid_t::try_from(child.id())?;
     let mut status: libc::c_int = 0;
     // SAFETY: an all-zero `rusage` is a valid value of this plain C struct.
