@@ -27,7 +27,10 @@ fn read_panel(c: &mut Criterion) {
     };
     let mut group = c.benchmark_group("vcf");
     group.sample_size(10);
-    for (name, path) in [("read 20,000 SNPs × 1,200 samples, plain", &files.vcf), ("… bgzipped", &files.vcf_bgzipped)] {
+    for (name, path) in [
+        ("read 20,000 SNPs × 1,200 samples, plain", &files.vcf),
+        ("read 20,000 SNPs × 1,200 samples, bgzipped", &files.vcf_bgzipped),
+    ] {
         group.bench_function(name, |b| {
             b.iter(|| {
                 let read = read_vcf(path, &sheet, &options, &mut Silent).expect("the panel reads");

@@ -71,7 +71,7 @@ pub use sample::{SampleRequest, SampleSet, SampledIndividual};
 pub use schedule::{MAX_POPULATION_SIZE, MigrationPhase, MigrationRates, MigrationSchedule, SizeSchedule};
 pub use simulation::{BurnIn, PopulationIdx, PopulationSpec, Simulation, SimulationConfig};
 pub use snp_panel::{
-    CaseFiles, FIRST_SAMPLING_GENERATION, GENERATION_TIME_YEARS, GENERATIONS_BETWEEN_SAMPLES, PanelData, SAMPLING_YEARS,
-    SnpPanel, write_case,
+    CaseFiles, FIRST_SAMPLING_GENERATION, GENERATION_TIME_YEARS, GENERATIONS_BETWEEN_SAMPLES, PanelData,
+    SAMPLING_YEARS, SnpPanel, write_case,
 };
 pub use wide_table::{WideTable, write_wide_table};

@@ -146,7 +146,14 @@ impl SnpPanel {
     /// The benchmark case: 20,000 SNPs on 20 chromosomes, 6 sites × 2 years × 100 samples
     /// (1,200 samples), 1 % of calls missing.
     pub fn benchmark() -> Self {
-        Self { loci: 20_000, chromosomes: 20, populations: 6, samples_per_group: 100, missing_rate: 0.01, seed: 20_251_117 }
+        Self {
+            loci: 20_000,
+            chromosomes: 20,
+            populations: 6,
+            samples_per_group: 100,
+            missing_rate: 0.01,
+            seed: 20_251_117,
+        }
     }
 
     /// Simulates the populations and draws the samples.
@@ -163,9 +170,12 @@ impl SnpPanel {
                 .iter()
                 .map(|site| {
                     let (before, after) = (site.size, site.size_after_first_sample);
-                    let schedule = SizeSchedule::from_fn(move |generation| {
-                        if generation > FIRST_SAMPLING_GENERATION { after } else { before }
-                    });
+                    let schedule =
+                        SizeSchedule::from_fn(
+                            move |generation| {
+                                if generation > FIRST_SAMPLING_GENERATION { after } else { before }
+                            },
+                        );
                     PopulationSpec::new(site.name, schedule)
                 })
                 .collect(),
@@ -194,7 +204,10 @@ impl SnpPanel {
     fn validate(&self) -> Result<(), SimError> {
         let invalid = |reason: String| Err(SimError::InvalidPanel { reason });
         if self.loci == 0 || self.chromosomes == 0 || self.chromosomes > self.loci {
-            return invalid(format!("{} loci on {} chromosomes: need 1 ≤ chromosomes ≤ loci", self.loci, self.chromosomes));
+            return invalid(format!(
+                "{} loci on {} chromosomes: need 1 ≤ chromosomes ≤ loci",
+                self.loci, self.chromosomes
+            ));
         }
         if !(1..=SITES.len()).contains(&self.populations) {
             return invalid(format!("{} populations: the scenario has 1 to {}", self.populations, SITES.len()));
@@ -391,11 +404,8 @@ pub fn write_case(panel: &PanelData, dir: &Path) -> io::Result<CaseFiles> {
     let mut compressed = noodles_bgzf::io::Writer::new(Vec::new());
     compressed.write_all(&vcf)?;
     let compressed = compressed.finish()?;
-    let files = CaseFiles {
-        vcf: dir.join("calls.vcf"),
-        vcf_bgzipped: dir.join("calls.vcf.gz"),
-        recipe: dir.join("case.toml"),
-    };
+    let files =
+        CaseFiles { vcf: dir.join("calls.vcf"), vcf_bgzipped: dir.join("calls.vcf.gz"), recipe: dir.join("case.toml") };
     fs::write(&files.vcf, vcf)?;
     fs::write(&files.vcf_bgzipped, compressed)?;
     fs::write(dir.join("samples.csv"), panel.sample_sheet())?;

@@ -528,9 +528,8 @@ mod tests {
     /// that holds every row (issue 9: 20,000 SNPs × 12 groups would be 240,000 rows).
     #[test]
     fn long_appendix_tables_print_an_excerpt_and_name_the_full_table() {
-        let by_locus: Vec<serde_json::Value> = (0..1200)
-            .map(|i| serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.5, 0.5, 0.0]))
-            .collect();
+        let by_locus: Vec<serde_json::Value> =
+            (0..1200).map(|i| serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.5, 0.5, 0.0])).collect();
         let results: crate::results::ResultsDocument = serde_json::from_value(serde_json::json!({
             "schema": "popgauge.results/1",
             "tool": {"name": "popgauge", "version": "0.1.0"},
@@ -544,7 +543,8 @@ mod tests {
         }))
         .unwrap();
         let built = source_of(&results);
-        let key = built.data.diversity.as_ref().and_then(|d| d.by_locus.clone()).expect("per-locus table in the appendix");
+        let key =
+            built.data.diversity.as_ref().and_then(|d| d.by_locus.clone()).expect("per-locus table in the appendix");
         let table = built.data.appendix.iter().find(|t| t.key == key).expect("appendix table");
         assert_eq!(table.table.rows.len(), APPENDIX_ROWS);
         assert_eq!(table.table.rows[0][2], "snp00000", "the first rows are kept, in order");

@@ -15,8 +15,8 @@
 
 use std::error::Error;
 use std::fs;
-use std::path::{Path, PathBuf};
 use std::os::unix::process::CommandExt;
+use std::path::{Path, PathBuf};
 use std::process::{Command, ExitCode};
 use std::time::{Duration, Instant};
 
@@ -276,7 +276,10 @@ mod tests {
         let args = |list: &[&str]| list.iter().map(|s| s.to_string()).collect::<Vec<_>>().into_iter();
         assert!(parse(args(&["--verify"])).is_err());
         let options = parse(args(&["--out", "/tmp/x", "--threads", "2", "--verify"])).expect("valid");
-        assert_eq!((options.out, options.threads.as_deref(), options.verify), (PathBuf::from("/tmp/x"), Some("2"), true));
+        assert_eq!(
+            (options.out, options.threads.as_deref(), options.verify),
+            (PathBuf::from("/tmp/x"), Some("2"), true)
+        );
         assert!(parse(args(&["--out", "/tmp/x", "--fast"])).is_err());
     }
 }

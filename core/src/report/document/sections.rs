@@ -509,7 +509,11 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
     let pairwise_key = pairwise.filter(|p| !p.is_empty()).map(|p| {
         let mut data = generic(&p);
         data.drop_empty_columns(&[]);
-        extras.appendix(format!("Pairwise differentiation (step \"{}\")", step.id), data, table_file(&step.id, table::PAIRWISE))
+        extras.appendix(
+            format!("Pairwise differentiation (step \"{}\")", step.id),
+            data,
+            table_file(&step.id, table::PAIRWISE),
+        )
     });
     Some(DifferentiationSection {
         step: step.id.clone(),
