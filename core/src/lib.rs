@@ -7,7 +7,7 @@
 //!
 //! Principal parts: [`recipe`] (strict parsing and resolution), [`data`] (readers into a
 //! [`popgauge_abi::GenotypeMatrix`]), [`engine`] (running steps), [`provenance`] (hashes and
-//! the record), [`host`] (external plugin libraries), [`output`] (atomic folder writing), [`pipeline`] (all of it for one case) and
+//! the record), [`host`] (external plugin libraries), [`output`] (atomic folder writing), [`pretty`] (the layout of the JSON files), [`pipeline`] (all of it for one case) and
 //! [`cli`] (the command line).
 //!
 //! ```no_run
@@ -30,6 +30,7 @@ pub mod interrupt;
 pub mod output;
 pub mod pipeline;
 pub mod planning;
+pub mod pretty;
 pub mod progress;
 pub mod provenance;
 pub mod recipe;

@@ -163,9 +163,7 @@ pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progre
 
 fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
     // popgauge's own result types always serialise; an empty file would be caught by verify.
-    let mut bytes = serde_json::to_vec_pretty(value).unwrap_or_default();
-    bytes.push(b'\n');
-    bytes
+    crate::pretty::to_json_bytes(value).unwrap_or_default()
 }
 
 /// Every output file except `provenance.json`, from a case and its step results.
@@ -178,7 +176,7 @@ fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
 /// compile, named by file and line).
 pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(ResultsDocument, OutputFiles), RunError> {
     let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, engine);
-    let mut files = vec![("results.json".to_string(), pretty_json(&results))];
+    let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
     files.extend(results.table_files());
     let fingerprint = assessment_fingerprint(case, engine);
     let facts = |file: &InputFile, digest: &FileDigest| FileFacts { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() };

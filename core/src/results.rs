@@ -96,9 +96,17 @@ impl ResultsDocument {
     pub fn table_files(&self) -> Vec<(String, Vec<u8>)> {
         self.steps
             .iter()
-            .flat_map(|step| step.tables.iter().map(move |(name, table)| (format!("tables/{}.{name}.csv", step.id), table_csv(table))))
+            .flat_map(|step| step.tables.iter().map(move |(name, table)| (table_file(&step.id, name), table_csv(table))))
             .collect()
     }
+}
+
+/// The results file in the output folder.
+pub const RESULTS_FILE: &str = "results.json";
+
+/// Where the output folder holds table `table` of step `step`: `tables/<step>.<table>.csv`.
+pub fn table_file(step: &str, table: &str) -> String {
+    format!("tables/{step}.{table}.csv")
 }
 
 /// A table as CSV: header row, then rows; numbers through the one formatter, null empty.

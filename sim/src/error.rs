@@ -64,6 +64,11 @@ pub enum SimError {
     },
     /// Two sample sets with different loci cannot be joined.
     LociMismatch,
+    /// A [`crate::SnpPanel`] size is out of range.
+    InvalidPanel {
+        /// What is wrong.
+        reason: String,
+    },
 }
 
 impl fmt::Display for SimError {
@@ -98,6 +103,9 @@ impl fmt::Display for SimError {
             ),
             SimError::LociMismatch => {
                 write!(f, "the sample sets have different loci\n  help: join only samples from the same simulation")
+            }
+            SimError::InvalidPanel { reason } => {
+                write!(f, "SNP panel: {reason}\n  help: change the panel's size to fit the scenario")
             }
         }
     }

@@ -22,6 +22,8 @@
 //! - [`SampleSet`]: the sampled genotypes; [`write_wide_table`] writes popgauge's wide CSV
 //!   table (`sample,population,year,<loci>…`, cells `152/156`, untyped cells empty), and
 //!   [`WideTable`] lets a caller add columns or edit cells before writing.
+//! - [`SnpPanel`]: a seeded SNP-panel case at genomic scale for benchmarks (VCF, sample and
+//!   population sheets, full recipe), written by [`write_case`].
 //!
 //! All randomness comes from ChaCha8 streams derived from the seed, through integer-only draws
 //! (see the `random` module), so the same seed gives bit-identical output on any machine.
@@ -59,6 +61,7 @@ mod random;
 mod sample;
 mod schedule;
 mod simulation;
+mod snp_panel;
 mod wide_table;
 
 pub use cohort::IndividualId;
@@ -67,4 +70,8 @@ pub use markers::{Locus, LocusKind, LocusSpec, MarkerModel, MicrosatelliteModel,
 pub use sample::{SampleRequest, SampleSet, SampledIndividual};
 pub use schedule::{MAX_POPULATION_SIZE, MigrationPhase, MigrationRates, MigrationSchedule, SizeSchedule};
 pub use simulation::{BurnIn, PopulationIdx, PopulationSpec, Simulation, SimulationConfig};
+pub use snp_panel::{
+    CaseFiles, FIRST_SAMPLING_GENERATION, GENERATION_TIME_YEARS, GENERATIONS_BETWEEN_SAMPLES, PanelData,
+    SAMPLING_YEARS, SnpPanel, write_case,
+};
 pub use wide_table::{WideTable, write_wide_table};

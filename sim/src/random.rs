@@ -20,6 +20,8 @@ pub(crate) enum Stream {
     Evolution = 1,
     /// Choosing sampled individuals.
     Sampling = 2,
+    /// Blanking calls of a generated panel (see `snp_panel`).
+    Faults = 3,
 }
 
 /// A seeded generator with the few draws the simulator needs.

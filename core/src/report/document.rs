@@ -32,6 +32,10 @@ pub const REPORT_DATA_SCHEMA: &str = "popgauge.report-data/1";
 pub const BODY_ROWS: usize = 40;
 /// A table up to this long stays whole in the body (about a page and a half).
 pub const BODY_LIMIT: usize = 60;
+/// Rows an appendix table prints at most (about five pages of short rows in two columns).
+/// A longer table, such as one row per locus and group of a SNP panel, prints its first rows
+/// and names the file that holds every row: thousands of pages help no reader.
+pub const APPENDIX_ROWS: usize = 500;
 
 /// The threshold references the document cites beside the steps' own (METHODS §9).
 const FRANKLIN_1980: &str = "Franklin IR (1980) Evolutionary change in small populations. In Soulé ME, Wilcox BA (eds) Conservation Biology: An Evolutionary-Ecological Perspective. Sinauer, Sunderland, 135–149.";
@@ -160,8 +164,19 @@ pub struct AppendixTable {
     pub title: String,
     /// How to set it: `normal`, `two-columns` (many short rows) or `landscape` (many columns).
     pub layout: String,
-    /// The table.
+    /// The table, at most [`APPENDIX_ROWS`] rows.
     pub table: TableData,
+    /// Set when rows were left out because of [`APPENDIX_ROWS`].
+    pub excerpt: Option<Excerpt>,
+}
+
+/// What an appendix table that prints only its first rows leaves out.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Excerpt {
+    /// How many rows are not printed, as display text (`239,500`).
+    pub omitted: String,
+    /// The output file that holds every row (`tables/<step>.<table>.csv` or `results.json`).
+    pub file: String,
 }
 
 /// How an appendix table is best set: on its side when it has many columns, in two columns
@@ -226,22 +241,27 @@ impl Extras {
         self.figures.push((key.to_string(), figure, alt));
     }
 
-    /// Adds an appendix table and returns its key (`A1`, …), for the body to refer to.
-    pub(crate) fn appendix(&mut self, title: String, table: TableData) -> String {
+    /// Adds an appendix table and returns its key (`A1`, …), for the body to refer to. Of a
+    /// table longer than [`APPENDIX_ROWS`] only the first rows are kept, and the document
+    /// points to `full_table`, the output file with every row.
+    pub(crate) fn appendix(&mut self, title: String, mut table: TableData, full_table: String) -> String {
         let key = format!("A{}", self.appendix.len() + 1);
+        let excerpt = table
+            .split_off(APPENDIX_ROWS)
+            .map(|rest| Excerpt { omitted: format::count(rest.rows.len()), file: full_table });
         let layout = appendix_layout(&table).to_string();
-        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table });
+        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table, excerpt });
         key
     }
 
     /// Keeps a table of up to [`BODY_LIMIT`] rows whole; of a longer one keeps the first
-    /// [`BODY_ROWS`] rows in the body and moves the rest to the appendix under `title`. Returns
-    /// the appendix key when rows moved.
-    pub(crate) fn overflow(&mut self, table: &mut TableData, title: String) -> Option<String> {
+    /// [`BODY_ROWS`] rows in the body and moves the rest to the appendix under `title`
+    /// (`full_table` as for [`Extras::appendix`]). Returns the appendix key when rows moved.
+    pub(crate) fn overflow(&mut self, table: &mut TableData, title: String, full_table: String) -> Option<String> {
         if table.rows.len() <= BODY_LIMIT {
             return None;
         }
-        table.split_off(BODY_ROWS).map(|rest| self.appendix(title, rest))
+        table.split_off(BODY_ROWS).map(|rest| self.appendix(title, rest, full_table))
     }
 }
 
@@ -501,6 +521,40 @@ mod tests {
         assert_eq!(pairs.name, "pairs");
         assert_eq!(pairs.table.rows[0], vec!["A", "0.25", "< 0.001"]);
         assert_eq!(data.methods.references.len(), 1, "no threshold references without an Ne or status result");
+    }
+
+    /// A per-locus table of a SNP panel (here 1,200 rows, one per locus and group) is not
+    /// printed whole: the appendix keeps its first [`APPENDIX_ROWS`] rows and names the CSV file
+    /// that holds every row (issue 9: 20,000 SNPs × 12 groups would be 240,000 rows).
+    #[test]
+    fn long_appendix_tables_print_an_excerpt_and_name_the_full_table() {
+        let by_locus: Vec<serde_json::Value> =
+            (0..1200).map(|i| serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.5, 0.5, 0.0])).collect();
+        let results: crate::results::ResultsDocument = serde_json::from_value(serde_json::json!({
+            "schema": "popgauge.results/1",
+            "tool": {"name": "popgauge", "version": "0.1.0"},
+            "assessment": {"title": "T", "species": "S", "assessor": "", "organisation": "", "date": "2026-02-03", "seed": 1, "thresholds": [50.0, 500.0]},
+            "data": {"genotypes": "calls.vcf.gz", "samples": 50, "loci": 1200, "groups": [{"population": "A", "year": 2020, "n": 50}], "findings": []},
+            "steps": [{"id": "div", "uses": "diversity", "version": "0.1.0", "status": "ok",
+                       "tables": {
+                           "by_group": {"columns": ["population", "year", "n", "ho", "he", "f"], "rows": [["A", 2020, 50, 0.5, 0.5, 0.0]]},
+                           "by_locus": {"columns": ["population", "year", "locus", "n", "alleles", "ho", "he", "fis"], "rows": by_locus}},
+                       "findings": [], "citations": []}]
+        }))
+        .unwrap();
+        let built = source_of(&results);
+        let key =
+            built.data.diversity.as_ref().and_then(|d| d.by_locus.clone()).expect("per-locus table in the appendix");
+        let table = built.data.appendix.iter().find(|t| t.key == key).expect("appendix table");
+        assert_eq!(table.table.rows.len(), APPENDIX_ROWS);
+        assert_eq!(table.table.rows[0][2], "snp00000", "the first rows are kept, in order");
+        let excerpt = table.excerpt.as_ref().expect("an excerpt");
+        assert_eq!(excerpt.omitted, "700");
+        assert_eq!(excerpt.file, "tables/div.by_locus.csv");
+        let mut extras = Extras::default();
+        let whole = TableData { rows: vec![vec!["x".into()]; APPENDIX_ROWS], ..TableData::new(&[("c", false)]) };
+        extras.appendix("short".into(), whole, "results.json".into());
+        assert!(extras.appendix[0].excerpt.is_none(), "a table of APPENDIX_ROWS rows prints whole");
     }
 
     #[test]

@@ -91,6 +91,19 @@ pub fn effective_size(value: f64) -> String {
     if value.abs() >= 10.0 { fixed(value, 0) } else { fixed(value, 1) }
 }
 
+/// A count with a comma between groups of three digits (`239,500`).
+pub fn count(value: usize) -> String {
+    let digits = value.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (index, digit) in digits.chars().enumerate() {
+        if index > 0 && (digits.len() - index).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(digit);
+    }
+    out
+}
+
 /// A p- or q-value: three decimals, or `< 0.001`.
 pub fn p_value(value: f64) -> String {
     if let Some(special) = special(value) {
@@ -281,6 +294,15 @@ mod tests {
         assert_eq!(fixed(-0.0, 2), "0.00");
         assert_eq!(fixed(f64::INFINITY, 3), "∞");
         assert_eq!(fixed(f64::NAN, 3), "—");
+    }
+
+    #[test]
+    fn counts_group_thousands_with_commas() {
+        assert_eq!(count(0), "0");
+        assert_eq!(count(999), "999");
+        assert_eq!(count(1000), "1,000");
+        assert_eq!(count(239_500), "239,500");
+        assert_eq!(count(1_234_567), "1,234,567");
     }
 
     #[test]

@@ -13,6 +13,7 @@ use super::super::format::{self, NumberStyle};
 use super::table::{HeatCell, HeatTable, TableData, generic, readable};
 use super::{BODY_ROWS, Extras};
 use crate::engine::StepRun;
+use crate::results::{RESULTS_FILE, table_file};
 
 /// What every section builder reads.
 pub(crate) struct Context<'a> {
@@ -187,7 +188,7 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
     let excluded_loci: BTreeSet<&str> =
         doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
     let mut exclusions = exclusions_table(&doc.steps, validate);
-    let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into());
+    let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into(), RESULTS_FILE.into());
     let findings: Vec<(String, &Finding)> = doc
         .data
         .findings
@@ -200,7 +201,7 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
     let mut body_findings = findings_table(serious.iter().copied().take(15));
     body_findings.drop_empty_columns(&[]);
     let findings_all = (findings.len() > body_findings.rows.len())
-        .then(|| extras.appendix("All findings".into(), findings_table(findings.iter())));
+        .then(|| extras.appendix("All findings".into(), findings_table(findings.iter()), RESULTS_FILE.into()));
     DataSection {
         genotypes: doc.data.genotypes.clone(),
         samples_read: doc.data.samples,
@@ -358,7 +359,8 @@ pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Optio
     let by_locus = table_of(step, table::BY_LOCUS).filter(|t| !t.is_empty()).map(|t| {
         let mut data = generic(&t);
         data.drop_empty_columns(&[]);
-        extras.appendix(format!("Diversity per locus and group (step \"{}\")", step.id), data)
+        let title = format!("Diversity per locus and group (step \"{}\")", step.id);
+        extras.appendix(title, data, table_file(&step.id, table::BY_LOCUS))
     });
     he_over_years(ctx, &by_group, extras);
     Some(DiversitySection { step: step.id.clone(), by_group: t, by_locus })
@@ -474,7 +476,8 @@ pub(crate) fn hwe_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<HweS
         ]);
     }
     let key = (!by_locus.is_empty()).then(|| {
-        extras.appendix(format!("Hardy–Weinberg tests per locus and group (step \"{}\")", step.id), generic(&by_locus))
+        let title = format!("Hardy–Weinberg tests per locus and group (step \"{}\")", step.id);
+        extras.appendix(title, generic(&by_locus), table_file(&step.id, table::BY_LOCUS))
     });
     Some(HweSection { step: step.id.clone(), summary, by_locus: key })
 }
@@ -506,7 +509,11 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
     let pairwise_key = pairwise.filter(|p| !p.is_empty()).map(|p| {
         let mut data = generic(&p);
         data.drop_empty_columns(&[]);
-        extras.appendix(format!("Pairwise differentiation (step \"{}\")", step.id), data)
+        extras.appendix(
+            format!("Pairwise differentiation (step \"{}\")", step.id),
+            data,
+            table_file(&step.id, table::PAIRWISE),
+        )
     });
     Some(DifferentiationSection {
         step: step.id.clone(),
@@ -629,7 +636,8 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
                 uses::NE_TEMPORAL => temporal_table(&estimates),
                 _ => hetx_table(&estimates),
             };
-            let more = extras.overflow(&mut t, format!("Ne estimates of step \"{}\" (continued)", step.id));
+            let title = format!("Ne estimates of step \"{}\" (continued)", step.id);
+            let more = extras.overflow(&mut t, title, table_file(&step.id, table::ESTIMATES));
             methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more });
         }
     }
@@ -944,7 +952,8 @@ pub(crate) fn additional_steps(ctx: &Context<'_>, extras: &mut Extras) -> Vec<Ad
                     let mut table = generic(&rows);
                     let keep = BODY_ROWS.min(20);
                     let more = table.split_off(keep).map(|rest| {
-                        extras.appendix(format!("Table \"{name}\" of step \"{}\" (continued)", step.id), rest)
+                        let title = format!("Table \"{name}\" of step \"{}\" (continued)", step.id);
+                        extras.appendix(title, rest, table_file(&step.id, name))
                     });
                     Some(NamedTable { name: name.clone(), table, more })
                 })
