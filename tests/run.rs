@@ -201,28 +201,21 @@ fn slow_case() -> Case {
     case
 }
 
-/// Issue 10: Ctrl-C (SIGINT) during a run exits 130 and leaves no output folder, no temporary
-/// folder beside it and nothing in the temporary directory.
+/// Issue 10: Ctrl-C (SIGINT), SIGTERM (a job scheduler or `kill`) and SIGHUP (a closed
+/// terminal) during a run each exit 130 and leave no output folder, no temporary folder beside
+/// it, the case folder as it was and nothing in the temporary directory.
 #[test]
-fn issue_10_ctrl_c_leaves_nothing_behind() {
-    interrupted_run_leaves_nothing_behind(libc::SIGINT);
-}
-
-/// The same for SIGTERM (a job scheduler or `kill` stopping the run).
-#[test]
-fn issue_10_sigterm_leaves_nothing_behind() {
-    interrupted_run_leaves_nothing_behind(libc::SIGTERM);
-}
-
-fn interrupted_run_leaves_nothing_behind(signal: libc::c_int) {
-    let case = slow_case();
-    let tmpdir = tempfile::tempdir().unwrap();
-    let mut child = crate::support::spawn_run(&case, tmpdir.path());
-    std::thread::sleep(std::time::Duration::from_millis(1500));
-    assert!(child.try_wait().unwrap().is_none(), "the run ended before Ctrl-C; make slow_case slower");
-    let (code, stderr) = crate::support::interrupt(child, signal);
-    assert_eq!(code, Some(130), "stderr: {stderr}");
-    assert_eq!(entries(case.root()), vec!["case"], "no output and no temporary folder");
-    assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
-    assert_eq!(entries(tmpdir.path()), Vec::<String>::new(), "nothing left in TMPDIR");
+fn issue_10_interrupts_leave_nothing_behind() {
+    for signal in [libc::SIGINT, libc::SIGTERM, libc::SIGHUP] {
+        let case = slow_case();
+        let tmpdir = tempfile::tempdir().unwrap();
+        let mut child = crate::support::spawn_run(&case, tmpdir.path());
+        std::thread::sleep(std::time::Duration::from_millis(1500));
+        assert!(child.try_wait().unwrap().is_none(), "the run ended before signal {signal}; make slow_case slower");
+        let (code, stderr) = crate::support::interrupt(child, signal);
+        assert_eq!(code, Some(130), "signal {signal}, stderr: {stderr}");
+        assert_eq!(entries(case.root()), vec!["case"], "signal {signal}: no output and no temporary folder");
+        assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"], "signal {signal}");
+        assert_eq!(entries(tmpdir.path()), Vec::<String>::new(), "signal {signal}: nothing left in TMPDIR");
+    }
 }

@@ -230,10 +230,13 @@ mod properties {
 
     use super::{SHEET, read_with, vcf_file};
 
-    /// A refusal must render with a help line (DESIGN.md: errors say how to fix them).
+    /// A refusal names the file on its first line and has a help line (DESIGN.md: errors
+    /// name the file and say how to fix them).
     fn clean<T>(result: Result<T, crate::data::DataError>) -> Result<(), TestCaseError> {
         if let Err(e) = result {
-            prop_assert!(e.to_string().contains("\n  help: "), "{}", e);
+            let text = e.to_string();
+            prop_assert!(text.lines().next().unwrap_or_default().contains("calls.vcf"), "no file: {}", text);
+            prop_assert!(text.contains("\n  help: "), "{}", text);
         }
         Ok(())
     }
