@@ -243,6 +243,9 @@ impl SampleColumns {
         let in_vcf: HashSet<&str> = names.iter().map(String::as_str).collect();
         let not_in_vcf: Vec<String> =
             sheet.samples.iter().filter(|s| !in_vcf.contains(s.id.as_str())).map(|s| s.id.clone()).collect();
+        let mismatch = |code: &str, message: String| {
+            Finding::warning(code, message, Where { file: Some(options.sheet_file.into()), ..Where::default() })
+        };
         let mut findings = Vec::new();
         if !not_in_sheet.is_empty() {
             let message = format!(
@@ -252,11 +255,7 @@ impl SampleColumns {
                 options.sheet_file,
                 not_in_sheet.join(", ")
             );
-            findings.push(Finding::warning(
-                "sample-not-in-sheet",
-                message,
-                Where { file: Some(options.sheet_file.into()), ..Where::default() },
-            ));
+            findings.push(mismatch("sample-not-in-sheet", message));
         }
         if !not_in_vcf.is_empty() {
             let message = format!(
@@ -266,11 +265,7 @@ impl SampleColumns {
                 options.file,
                 not_in_vcf.join(", ")
             );
-            findings.push(Finding::warning(
-                "sample-not-in-vcf",
-                message,
-                Where { file: Some(options.sheet_file.into()), ..Where::default() },
-            ));
+            findings.push(mismatch("sample-not-in-vcf", message));
         }
         Ok(SampleColumns { matrix_index, names, samples, findings })
     }

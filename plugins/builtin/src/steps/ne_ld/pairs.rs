@@ -155,28 +155,18 @@ impl ChunkCuts {
     /// The row ranges of a panel whose rows have these view loci (ascending), one per chunk
     /// (some possibly empty).
     pub fn row_ranges(&self, view_loci: impl Fn(usize) -> usize, rows: usize) -> Vec<std::ops::Range<usize>> {
-        let below = |cut: usize| partition_point(rows, |row| view_loci(row) < cut);
+        let loci: Vec<usize> = (0..rows).map(view_loci).collect();
         let mut start = 0;
         self.0
             .iter()
             .map(|&cut| {
-                let end = below(cut);
+                let end = loci.partition_point(|&locus| locus < cut);
                 let range = start..end;
                 start = end;
                 range
             })
             .collect()
     }
-}
-
-/// The first index in `0..len` where `is_before` turns false (it must be monotone).
-fn partition_point(len: usize, is_before: impl Fn(usize) -> bool) -> usize {
-    let (mut low, mut high) = (0, len);
-    while low < high {
-        let middle = low + (high - low) / 2;
-        if is_before(middle) { low = middle + 1 } else { high = middle }
-    }
-    low
 }
 
 /// Sums every pair of the panel's loci (skipping same-chromosome pairs when asked), on rayon's
