@@ -78,7 +78,9 @@ pub mod col {
     pub const NE_JACK_HIGH: &str = "ne_jack_high";
     pub const NE_RESAMPLE_LOW: &str = "ne_resample_low";
     pub const NE_RESAMPLE_HIGH: &str = "ne_resample_high";
-    pub const F0: &str = "f0";
+    pub const F_DRIFT: &str = "f_drift";
+    pub const F_DRIFT_LOW: &str = "f_drift_low";
+    pub const F_DRIFT_HIGH: &str = "f_drift_high";
     pub const H_RETAINED_LOW: &str = "h_retained_low";
     pub const H_RETAINED_HIGH: &str = "h_retained_high";
     pub const TREND_DIRECTION: &str = "direction";
@@ -99,7 +101,6 @@ pub mod col {
     pub const CENSUS_SIZE: &str = "census_size";
     pub const NE_NC: &str = "ne_nc";
     pub const H_RETAINED: &str = "h_retained";
-    pub const F_PROJECTED: &str = "f_projected";
     pub const D: &str = "d";
 }
 

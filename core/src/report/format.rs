@@ -183,6 +183,20 @@ pub fn interval(low: Option<f64>, high: Option<f64>, style: NumberStyle) -> Stri
     }
 }
 
+/// A `status` step's `ne_method` (`ld:0.02`, `ld:singletons`, `temporal`, `hetx`) in words.
+pub fn ne_method(method: &str) -> String {
+    match method {
+        "temporal" => "temporal method (Fs)".into(),
+        "hetx" => "heterozygote-excess method".into(),
+        "ld" => "linkage-disequilibrium method".into(),
+        other => match other.strip_prefix("ld:") {
+            Some("singletons") => "linkage-disequilibrium method, alleles seen once left out".into(),
+            Some(pcrit) => format!("linkage-disequilibrium method, alleles rarer than Pcrit = {pcrit} left out"),
+            None => other.to_string(),
+        },
+    }
+}
+
 /// The style a column gets by its contract name (DESIGN.md results contract), for tables the
 /// document shows as they are (appendix and plugin tables).
 pub fn style_for_column(name: &str) -> NumberStyle {

@@ -136,6 +136,8 @@ pub struct NeMethod {
     pub table: TableData,
     /// Appendix key of the rest.
     pub more: Option<String>,
+    /// The sampling plan of a temporal step (`I` or `II`, Waples 1989).
+    pub plan: Option<String>,
 }
 
 /// Trends.
@@ -198,10 +200,12 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
         .collect();
     let count = |level| findings.iter().filter(|(_, f)| f.level == level).count();
     let serious: Vec<&(String, &Finding)> = findings.iter().filter(|(_, f)| f.level >= FindingLevel::Warning).collect();
-    let mut body_findings = findings_table(serious.iter().copied().take(15));
+    let mut body_findings = findings_table(serious.iter().copied());
+    body_findings.rows.truncate(BODY_FINDINGS);
     body_findings.drop_empty_columns(&[]);
-    let findings_all = (findings.len() > body_findings.rows.len())
-        .then(|| extras.appendix("All findings".into(), findings_table(findings.iter()), RESULTS_FILE.into()));
+    let all_findings = findings_table(findings.iter());
+    let findings_all = (all_findings.rows.len() > body_findings.rows.len())
+        .then(|| extras.appendix("All findings".into(), all_findings, RESULTS_FILE.into()));
     DataSection {
         genotypes: doc.data.genotypes.clone(),
         samples_read: doc.data.samples,
@@ -282,10 +286,96 @@ fn exclusions_table(steps: &[StepResult], validate: Option<&StepResult>) -> Tabl
 
 fn findings_table<'f>(findings: impl Iterator<Item = &'f (String, &'f Finding)>) -> TableData {
     let mut t = TableData::new(&[("Level", false), ("Source", false), ("Where", false), ("Finding", false)]);
-    for (source, finding) in findings {
-        t.push(vec![finding.level.to_string(), source.clone(), where_text(&finding.location), finding.message.clone()]);
+    for entry in grouped_findings(findings) {
+        t.push(vec![entry.level.to_string(), entry.source.clone(), entry.places.join("; "), entry.message()]);
     }
     t
+}
+
+/// How many entries (errors and warnings) the findings table in the body shows.
+const BODY_FINDINGS: usize = 15;
+
+/// How many subjects or places one grouped finding names before "and N more".
+const GROUP_LISTED: usize = 20;
+
+/// One entry of the document's findings: a finding, or several of one source, level and code
+/// that give the same reason for different rows.
+#[derive(Debug)]
+struct FindingEntry {
+    level: FindingLevel,
+    source: String,
+    code: String,
+    /// What the finding is about (`Brennmoor 2018–2024`), one per finding merged; empty when
+    /// the message has no subject.
+    subjects: Vec<String>,
+    reason: String,
+    /// The distinct places (`Where`) of the merged findings.
+    places: Vec<String>,
+}
+
+impl FindingEntry {
+    fn message(&self) -> String {
+        if self.subjects.is_empty() {
+            return self.reason.clone();
+        }
+        let shown = self.subjects.iter().take(GROUP_LISTED).cloned().collect::<Vec<_>>().join("; ");
+        let more = self.subjects.len().saturating_sub(GROUP_LISTED);
+        let subjects = if more > 0 { format!("{shown} and {more} more") } else { shown };
+        format!("{subjects}: {}", self.reason)
+    }
+}
+
+/// A message of the form "<subject>: <reason>", split there; a message without such a prefix
+/// is all reason.
+fn subject_and_reason(message: &str) -> (Option<&str>, &str) {
+    /// A subject names rows or cells; anything longer is a sentence of its own.
+    const LONGEST_SUBJECT: usize = 120;
+    match message.split_once(": ") {
+        Some((subject, reason)) if subject.chars().count() <= LONGEST_SUBJECT && !reason.trim().is_empty() => {
+            (Some(subject), reason)
+        }
+        _ => (None, message),
+    }
+}
+
+/// The findings as the document lists them: findings of one source, level and code whose
+/// messages differ only in their subject ("Brennmoor: ne_fs is \"inf\" because …", one per
+/// population) become one entry naming every subject, in the order of the first. The results
+/// file keeps one finding per row.
+fn grouped_findings<'f>(findings: impl Iterator<Item = &'f (String, &'f Finding)>) -> Vec<FindingEntry> {
+    let mut entries: Vec<FindingEntry> = Vec::new();
+    for (source, finding) in findings {
+        let (subject, reason) = subject_and_reason(&finding.message);
+        let place = where_text(&finding.location);
+        let same = entries.iter_mut().find(|e| {
+            e.source == *source
+                && e.level == finding.level
+                && e.code == finding.code
+                && e.reason == reason
+                && subject.is_some()
+                && !e.subjects.is_empty()
+        });
+        match same {
+            Some(entry) => {
+                entry.subjects.extend(subject.map(str::to_string));
+                if !entry.places.contains(&place) && place != format::UNDEFINED {
+                    entry.places.retain(|p| p != format::UNDEFINED);
+                    if entry.places.len() < GROUP_LISTED {
+                        entry.places.push(place);
+                    }
+                }
+            }
+            None => entries.push(FindingEntry {
+                level: finding.level,
+                source: source.clone(),
+                code: finding.code.clone(),
+                subjects: subject.map(str::to_string).into_iter().collect(),
+                reason: reason.to_string(),
+                places: vec![place],
+            }),
+        }
+    }
+    entries
 }
 
 fn where_text(w: &popgauge_abi::Where) -> String {
@@ -638,7 +728,14 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
             };
             let title = format!("Ne estimates of step \"{}\" (continued)", step.id);
             let more = extras.overflow(&mut t, title, table_file(&step.id, table::ESTIMATES));
-            methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more });
+            let plan = ctx
+                .runs
+                .iter()
+                .find(|r| r.id == step.id)
+                .and_then(|r| r.params.get("plan"))
+                .and_then(serde_json::Value::as_str)
+                .map(str::to_string);
+            methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more, plan });
         }
     }
     let chart_source = ne_chart(ctx, extras);
@@ -985,4 +1082,61 @@ pub(crate) fn ne(row: &Row<'_>, column: &str) -> String {
 
 pub(crate) fn ne_interval(row: &Row<'_>, low: &str, high: &str) -> String {
     format::interval(row.num(low), row.num(high), NumberStyle::EffectiveSize)
+}
+
+#[cfg(test)]
+mod tests {
+    use popgauge_abi::{Finding, FindingLevel, Where};
+
+    use super::{findings_table, grouped_findings};
+
+    fn temporal_inf(population: &str) -> (String, Finding) {
+        (
+            "ne-temporal".to_string(),
+            Finding::warning(
+                "infinite-estimate",
+                format!("{population}: ne_fs is \"inf\" because the change does not exceed sampling noise"),
+                Where { population: Some(population.into()), ..Where::default() },
+            ),
+        )
+    }
+
+    #[test]
+    fn findings_with_one_reason_become_one_entry_naming_every_row() {
+        let findings: Vec<(String, Finding)> =
+            ["Brennmoor 2018–2021", "Lake Oster 2018–2024", "Tarrow Glen 2021–2024"].map(temporal_inf).into();
+        let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
+        let table = findings_table(refs.iter());
+        assert_eq!(table.rows.len(), 1, "{:?}", table.rows);
+        assert_eq!(
+            table.rows[0][3],
+            "Brennmoor 2018–2021; Lake Oster 2018–2024; Tarrow Glen 2021–2024: ne_fs is \"inf\" because the change \
+             does not exceed sampling noise"
+        );
+        assert_eq!(table.rows[0][2], "Brennmoor 2018–2021; Lake Oster 2018–2024; Tarrow Glen 2021–2024");
+    }
+
+    #[test]
+    fn findings_with_other_reasons_codes_or_sources_stay_apart() {
+        let mut findings: Vec<(String, Finding)> = vec![temporal_inf("A"), temporal_inf("B")];
+        findings.push(("ne-ld".into(), findings[0].1.clone()));
+        findings.push((
+            "ne-temporal".into(),
+            Finding::warning("infinite-estimate", "C: another reason", Where::default()),
+        ));
+        findings.push(("ne-temporal".into(), Finding::info("infinite-estimate", "D: another reason", Where::default())));
+        findings.push(("ne-temporal".into(), Finding::warning("no-estimate", "E: another reason", Where::default())));
+        let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
+        let entries = grouped_findings(refs.iter());
+        let subjects: Vec<Vec<String>> = entries.iter().map(|e| e.subjects.clone()).collect();
+        assert_eq!(subjects, [vec!["A", "B"], vec!["A"], vec!["C"], vec!["D"], vec!["E"]]);
+    }
+
+    #[test]
+    fn a_sentence_without_a_subject_is_never_merged() {
+        let sentence = |code: &str| Finding::info(code, "Estimates carry uncertainty. Read the intervals.", Where::default());
+        let findings = [("status".to_string(), sentence("decision-caution")), ("status".to_string(), sentence("decision-caution"))];
+        let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
+        assert_eq!(grouped_findings(refs.iter()).len(), 2);
+    }
 }

@@ -77,11 +77,16 @@ pub struct DiversityFacts {
     pub ho: String,
     /// He.
     pub he: String,
-    /// F.
+    /// F = 1 − Ho/He.
     pub f: String,
+    /// FIS (Weir & Cockerham 1984) of the same sample: non-random mating now.
+    pub fis: Option<String>,
+    /// Its 95 % interval, when computed.
+    pub fis_ci: Option<String>,
 }
 
-/// Heterozygosity kept and inbreeding reached over the horizon.
+/// Heterozygosity kept over the horizon and the inbreeding that drift adds meanwhile. Both
+/// are relative to today's population and neither starts from the sample's FIS.
 #[derive(Debug, Clone, Serialize)]
 pub struct DriftFacts {
     /// Ne used.
@@ -92,10 +97,11 @@ pub struct DriftFacts {
     pub h_retained_ci: Option<String>,
     /// Share lost.
     pub h_lost: String,
-    /// F today (latest diversity), when known.
-    pub f_now: Option<String>,
-    /// F at the horizon.
-    pub f_projected: Option<String>,
+    /// Inbreeding accumulated by drift over the horizon, F_drift = 1 − (1 − 1/(2Ne))ᵗ: the
+    /// share lost, as an inbreeding coefficient.
+    pub f_drift: String,
+    /// Its range over the Ne interval, when given.
+    pub f_drift_ci: Option<String>,
 }
 
 /// The projections section.
@@ -134,7 +140,7 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
                 diversity: diversity_row.map(diversity_facts),
                 trend: he_trend(ctx, name),
                 trend_detail: he_trend_detail(ctx, name),
-                drift: status_row.and_then(|r| drift_facts(r, diversity_row)),
+                drift: status_row.and_then(drift_facts),
             }
         })
         .collect();
@@ -176,7 +182,7 @@ fn status_facts(row: &Row<'_>) -> StatusFacts {
         year: row.label(col::YEAR),
         ne: format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
         ne_ci: ci,
-        method: row.label(col::NE_METHOD),
+        method: row.text(col::NE_METHOD).map(format::ne_method),
         category: row.label(col::CATEGORY).unwrap_or_else(|| format::UNDEFINED.into()),
         ne_nc: row.num(col::NE_NC).map(|v| format::fixed(v, 2)),
     }
@@ -190,23 +196,30 @@ fn diversity_facts(row: &Row<'_>) -> DiversityFacts {
         ho: fixed(col::HO),
         he: fixed(col::HE),
         f: fixed(col::F),
+        fis: row.num(col::FIS).map(|v| format::fixed(v, 3)),
+        fis_ci: interval_text(row, col::FIS_LOW, col::FIS_HIGH, NumberStyle::Fixed(3)),
     }
 }
 
-fn drift_facts(status: &Row<'_>, diversity: Option<&Row<'_>>) -> Option<DriftFacts> {
-    let retained = status.num(col::H_RETAINED)?;
-    let ci = match (status.num(col::H_RETAINED_LOW), status.num(col::H_RETAINED_HIGH)) {
+/// "low–high" when at least one bound is given.
+fn interval_text(row: &Row<'_>, low: &str, high: &str, style: NumberStyle) -> Option<String> {
+    match (row.num(low), row.num(high)) {
         (None, None) => None,
-        (low, high) => Some(format::interval(low, high, NumberStyle::Percent)),
-    };
+        (low, high) => Some(format::interval(low, high, style)),
+    }
+}
+
+fn drift_facts(status: &Row<'_>) -> Option<DriftFacts> {
+    let retained = status.num(col::H_RETAINED)?;
+    // F_drift = 1 − H_t/H₀ by construction; the status step states it, older results may not.
+    let f_drift = status.num(col::F_DRIFT).unwrap_or(1.0 - retained);
     Some(DriftFacts {
         ne: format::maybe(status.num(col::NE), NumberStyle::EffectiveSize),
         h_retained: format::percent(retained),
-        h_retained_ci: ci,
+        h_retained_ci: interval_text(status, col::H_RETAINED_LOW, col::H_RETAINED_HIGH, NumberStyle::Percent),
         h_lost: format::percent(1.0 - retained),
-        // The status step's own starting F when it reports one, else the latest diversity F.
-        f_now: status.num(col::F0).or_else(|| diversity.and_then(|d| d.num(col::F))).map(|f| format::fixed(f, 3)),
-        f_projected: status.num(col::F_PROJECTED).map(|f| format::fixed(f, 3)),
+        f_drift: format::fixed(f_drift, 3),
+        f_drift_ci: interval_text(status, col::F_DRIFT_LOW, col::F_DRIFT_HIGH, NumberStyle::Fixed(3)),
     })
 }
 
@@ -303,34 +316,32 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     let step = ctx.results.step(uses::STATUS)?;
     let rows = table_of(step, table::POPULATIONS)?;
     let latest = latest_rows(&rows);
-    let diversity_rows =
-        ctx.results.table(uses::DIVERSITY, table::BY_GROUP).map(|t| latest_rows(&t)).unwrap_or_default();
     let (horizon_years, horizon_generations) = horizon(ctx);
     let mut t = TableData::new(&[
         ("Population", false),
-        ("Ne", true),
-        ("H retained", true),
-        ("over the Ne CI", true),
+        ("Ne (95 % CI)", true),
+        ("H retained (over the Ne CI)", true),
         ("H lost", true),
-        ("F now", true),
-        ("F projected", true),
+        ("F drift (over the Ne CI)", true),
     ]);
     for row in &latest {
         let population = row.text(col::POPULATION).unwrap_or("");
-        let diversity = diversity_rows.iter().find(|r| r.text(col::POPULATION) == Some(population));
-        let drift = drift_facts(row, diversity);
+        let drift = drift_facts(row);
         let undefined = || format::UNDEFINED.to_string();
+        let with_range = |point: String, range: Option<String>| match range {
+            Some(range) => format!("{point} ({range})"),
+            None => point,
+        };
+        let ne = format::maybe(row.num(col::NE), NumberStyle::EffectiveSize);
         t.push(vec![
             population.to_string(),
-            format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
-            drift.as_ref().map_or_else(undefined, |d| d.h_retained.clone()),
-            drift.as_ref().and_then(|d| d.h_retained_ci.clone()).unwrap_or_else(undefined),
+            with_range(ne, interval_text(row, col::NE_LOW, col::NE_HIGH, NumberStyle::EffectiveSize)),
+            drift.as_ref().map_or_else(undefined, |d| with_range(d.h_retained.clone(), d.h_retained_ci.clone())),
             drift.as_ref().map_or_else(undefined, |d| d.h_lost.clone()),
-            drift.as_ref().and_then(|d| d.f_now.clone()).unwrap_or_else(undefined),
-            drift.as_ref().and_then(|d| d.f_projected.clone()).unwrap_or_else(undefined),
+            drift.as_ref().map_or_else(undefined, |d| with_range(d.f_drift.clone(), d.f_drift_ci.clone())),
         ]);
     }
-    t.drop_empty_columns(&["Population", "Ne", "H retained"]);
+    t.drop_empty_columns(&["Population", "Ne (95 % CI)", "H retained (over the Ne CI)"]);
     projection_figure(ctx, &latest, extras);
     let horizon_row = table_of(step, table::HORIZON)
         .and_then(|h| h.iter().next().map(|r| (r.num(col::RETAIN_TARGET), r.num(col::NE_REQUIRED))));
