@@ -14,6 +14,11 @@
 //!   counts genotypes of a [`SampleSet`] by popcount (SDK side only; not part of the C ABI).
 //! - [`Table`] and [`Cell`] hold results exactly as they reach `results.json` and CSV;
 //!   [`format_number`] is the one number formatter.
+//! - [`TableRow`] reads one row of an earlier step's table by column name
+//!   ([`Table::named_rows`]).
+//! - [`representative_ne`] decides which Ne estimate represents a population in a year, from
+//!   the earlier results and a preference list of [`NeSource`]s (one rule for every reader;
+//!   column names of the Ne tables in [`ne_columns`]).
 //! - [`Finding`] is a data-quality or interpretation note with a [`FindingLevel`].
 //! - [`ffi`] is the versioned C ABI of external step libraries (`popgauge_plugin.h` mirrors
 //!   it); [`sdk`] and [`export_step!`] turn a `Step` implementation into such a library.
@@ -49,21 +54,24 @@ mod number;
 mod output;
 mod packed;
 mod params;
+pub mod representative;
 pub mod sdk;
 mod step;
 mod suggest;
+mod table_row;
 
 pub use matrix::{
-    AlleleCode, AlleleCounts, GenotypeMatrix, GenotypeView, Group, LocusIdx, LocusMeta,
-    MatrixError, SampleIdx, SampleMeta,
+    AlleleCode, AlleleCounts, GenotypeMatrix, GenotypeView, Group, LocusIdx, LocusMeta, MatrixError, SampleIdx,
+    SampleMeta,
 };
 pub use number::format_number;
+pub use output::{Cell, Exclusion, Filter, Finding, FindingLevel, StepOutput, Table, TableError, Where};
 pub use packed::{GenotypeCounts, PackedGenotypes, PackedLocus, SampleBits, SampleSet};
-pub use output::{
-    Cell, Exclusion, Filter, Finding, FindingLevel, StepOutput, Table, TableError, Where,
-};
 pub use params::{Descriptor, ParamError, ParamKind, ParamSpec, Params};
-pub use step::{
-    AssessmentInfo, PopulationInfo, Seed, Step, StepContext, StepError, StepResult, StepStatus,
+pub use representative::{
+    CriterionReason, IntervalKind, LdChoice, LdCriterion, NeKind, NeSource, NeSourceError, RepresentativeNe,
+    estimated_groups, ne_columns, ne_steps, representative_ne,
 };
+pub use step::{AssessmentInfo, PopulationInfo, Seed, Step, StepContext, StepError, StepResult, StepStatus};
 pub use suggest::did_you_mean;
+pub use table_row::TableRow;

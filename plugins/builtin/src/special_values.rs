@@ -7,22 +7,22 @@
 //! and then how many more, never one finding per cell. The table in DEVELOPERS.md ("Special
 //! values") lists each column that can be `null` or `"inf"` and the finding that explains it.
 
-use popgauge_abi::{Cell, Finding, FindingLevel, Table, Where};
+use popgauge_abi::{Cell, Finding, FindingLevel, Table, TableRow, Where};
 
 /// How many rows a finding names before it says "and N more".
 pub const LISTED: usize = 20;
 
-/// One row of a table, read by column name.
+/// One row of a table, read by column name: the SDK's [`TableRow`] with the tests and the
+/// printed text a finding needs.
 #[derive(Debug, Clone, Copy)]
 pub struct Row<'t> {
-    table: &'t Table,
-    cells: &'t [Cell],
+    row: TableRow<'t>,
 }
 
 impl<'t> Row<'t> {
     /// The cell of `column`; `None` when the table has no such column.
     pub fn cell(&self, column: &str) -> Option<&'t Cell> {
-        self.table.column(column).and_then(|i| self.cells.get(i))
+        self.row.cell(column)
     }
 
     /// Whether `column` holds `null`.
@@ -53,7 +53,7 @@ impl<'t> Row<'t> {
 
 /// The rows of `table` that `select` picks, each named by `name`.
 pub fn rows_where(table: &Table, select: impl Fn(&Row<'_>) -> bool, name: impl Fn(&Row<'_>) -> String) -> Vec<String> {
-    table.rows.iter().map(|cells| Row { table, cells }).filter(|row| select(row)).map(|row| name(&row)).collect()
+    table.named_rows().map(|row| Row { row }).filter(|row| select(row)).map(|row| name(&row)).collect()
 }
 
 /// "a, b, c and 4 more".
@@ -71,6 +71,46 @@ pub fn explain(
     message: impl FnOnce(usize, &str) -> String,
 ) -> Option<Finding> {
     (!rows.is_empty()).then(|| Finding::new(level, code, message(rows.len(), &listing(rows)), Where::default()))
+}
+
+/// What the lower confidence bound of an infinite estimate is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum LowerBound {
+    /// A finite number.
+    Finite,
+    /// `"inf"` too.
+    Infinite,
+    /// There is no interval.
+    Absent,
+}
+
+impl LowerBound {
+    /// The lower bound as a value gives it (`None`: no interval).
+    pub fn of(low: Option<f64>) -> LowerBound {
+        match low {
+            Some(x) if x.is_finite() => LowerBound::Finite,
+            Some(_) => LowerBound::Infinite,
+            None => LowerBound::Absent,
+        }
+    }
+}
+
+/// The sentence that closes a finding about an infinite point estimate of `quantity` ("Ne",
+/// "Nb"): what its lower confidence bound (named `bound`, e.g. "ne_low") says. Only a finite
+/// lower bound is informative; when it is `"inf"` too the interval is ∞–∞ and the size is not
+/// estimable.
+pub fn infinite_estimate_reading(lower: LowerBound, bound: &str, quantity: &str) -> String {
+    match lower {
+        LowerBound::Finite => {
+            format!("Its lower confidence bound ({bound}) is informative: {quantity} is unlikely to be below it")
+        }
+        LowerBound::Infinite => format!(
+            "Its lower confidence bound ({bound}) is \"inf\" as well, so the interval is ∞–∞ and {quantity} is not \
+             estimable from these data: they set no bound on it, which does not show that the population is large; \
+             more individuals or loci are needed"
+        ),
+        LowerBound::Absent => format!("There is no confidence interval, so nothing bounds {quantity} from below"),
+    }
 }
 
 /// "population year", the usual name of a group row.
@@ -98,8 +138,20 @@ mod tests {
         assert_eq!(rows_where(&table, |r| r.is_inf("ne"), group_name), vec!["South 2019"]);
         assert_eq!(rows_where(&table, |r| r.is_null("ne"), group_name), vec!["East 2020"]);
         assert!(rows_where(&table, |r| r.is_null("no such column"), group_name).is_empty());
-        let first = Row { table: &table, cells: &table.rows[1] };
+        let first = Row { row: TableRow::new(&table, 1).unwrap() };
         assert_eq!(first.columns_where(&["ne", "ne_high", "year"], |r, c| r.is_inf(c)), "ne, ne_high");
+    }
+
+    /// Only a finite lower bound is called informative (common practice: an interval ∞–∞
+    /// bounds nothing).
+    #[test]
+    fn only_a_finite_lower_bound_is_called_informative() {
+        let finite = infinite_estimate_reading(LowerBound::of(Some(120.0)), "ne_low", "Ne");
+        assert!(finite.contains("(ne_low) is informative"), "{finite}");
+        let infinite = infinite_estimate_reading(LowerBound::of(Some(f64::INFINITY)), "ne_low", "Ne");
+        assert!(infinite.contains("not estimable") && !infinite.contains("informative"), "{infinite}");
+        let absent = infinite_estimate_reading(LowerBound::of(None), "ne_low", "Ne");
+        assert!(!absent.contains("informative"), "{absent}");
     }
 
     #[test]

@@ -1,25 +1,32 @@
 //! Wright's (1931) decay of heterozygosity and rise of inbreeding under drift in an ideal
-//! population of effective size Ne (METHODS §1, "Wright's decay"):
+//! population of effective size Ne:
 //!
 //! - heterozygosity retained after *t* generations: H_t/H₀ = (1 − 1/(2Ne))ᵗ;
-//! - inbreeding after *t* generations from a current F₀: F_t = 1 − (1 − F₀)(1 − 1/(2Ne))ᵗ;
+//! - inbreeding accumulated by drift over those *t* generations, relative to today's population
+//!   (today's population as the base, F = 0 now): F_drift(t) = 1 − (1 − 1/(2Ne))ᵗ = 1 − H_t/H₀;
 //! - generations until a fraction *x* of the heterozygosity is lost:
 //!   t = ln(1 − x) / ln(1 − 1/(2Ne)).
+//!
+//! F_drift is not the FIS of a sample. FIS measures non-random mating within today's
+//! population relative to its own Hardy–Weinberg proportions, F_drift the drift from today's
+//! population as a whole; the two combine as 1 − F_IT = (1 − F_IS)(1 − F_ST) (Wright 1951), so a
+//! projection must never start from FIS.
 //!
 //! Units: *t* is in **generations**, not years (divide a horizon in years by the generation time).
 //!
 //! Edge cases, chosen so that callers never see a negative or out-of-range proportion:
 //!
-//! - Ne = +∞ (an `"inf"` estimate): no drift, so H_t/H₀ = 1, F_t = F₀ and no finite number of
-//!   generations loses anything (`+∞`).
+//! - Ne = +∞ (an `"inf"` estimate): no drift, so H_t/H₀ = 1, F_drift = 0 and no finite number
+//!   of generations loses anything (`+∞`).
 //! - 0 < Ne ≤ ½: the per-generation retention 1 − 1/(2Ne) would be ≤ 0 (negative for Ne < ½),
 //!   which has no biological meaning; it is clamped to 0, i.e. all heterozygosity is lost in the
-//!   first generation (H_t/H₀ = 0 and F_t = 1 for t > 0, and exactly 1 generation to lose any
-//!   fraction).
+//!   first generation (H_t/H₀ = 0 and F_drift = 1 for t > 0, and exactly 1 generation to lose
+//!   any fraction).
 //! - Ne ≤ 0, NaN Ne, negative or NaN *t*, or a fraction outside [0, 1) are not sizes, times or
 //!   fractions: the result is NaN, which tables print as `null`.
 //!
 //! Wright S (1931) Evolution in Mendelian populations. *Genetics* 16:97–159.
+//! Wright S (1951) The genetical structure of populations. *Ann Eugen* 15:323–354.
 //! Falconer DS, Mackay TFC (1996) *Introduction to Quantitative Genetics*, 4th ed. Longman.
 
 /// The full reference of the decay formulas, for a step's citations.
@@ -47,10 +54,11 @@ pub fn heterozygosity_retained(ne: f64, generations: f64) -> f64 {
     retention_per_generation(ne).powf(generations)
 }
 
-/// F_t = 1 − (1 − F₀)(1 − 1/(2Ne))ᵗ: the inbreeding coefficient after `generations`
-/// generations at effective size `ne`, starting from `f0` (Wright 1931). Equals `f0` for Ne = ∞.
-pub fn inbreeding_after(ne: f64, generations: f64, f0: f64) -> f64 {
-    1.0 - (1.0 - f0) * heterozygosity_retained(ne, generations)
+/// F_drift = 1 − (1 − 1/(2Ne))ᵗ: the inbreeding that drift accumulates over `generations`
+/// generations at effective size `ne`, relative to today's population (Wright 1931). By
+/// construction it is the share of today's heterozygosity lost, 1 − H_t/H₀; 0 for Ne = ∞.
+pub fn drift_inbreeding(ne: f64, generations: f64) -> f64 {
+    1.0 - heterozygosity_retained(ne, generations)
 }
 
 /// Generations until `fraction` (in [0, 1)) of today's heterozygosity is lost at effective size
@@ -78,8 +86,7 @@ mod tests {
     use super::*;
     use crate::test_support::assert_close;
 
-    /// METHODS §10 item 16 (computed; re-derived in tests/reference/ne_formulas.py):
-    /// Ne = 50, t = 10 → H_t/H₀ = 0.99¹⁰ = 0.904382. Formula: Wright (1931), common practice.
+    /// Ne = 50, t = 10 → H_t/H₀ = 0.99¹⁰ = 0.904382 (hand calculation of Wright's 1931 formula).
     #[test]
     fn heterozygosity_retained_matches_check_value() {
         assert_close(heterozygosity_retained(50.0, 10.0), 0.904_382, 1e-6);
@@ -87,19 +94,22 @@ mod tests {
         assert_close(heterozygosity_retained(f64::INFINITY, 100.0), 1.0, 0.0);
     }
 
-    /// F_t = 1 − (1 − F₀)·H_t/H₀ (Wright 1931; common practice); from F₀ = 0 it is the
-    /// complement of the retained heterozygosity: 1 − 0.904382 = 0.095618 (METHODS §10 item 16).
+    /// F_drift = 1 − (1 − 1/(2Ne))ᵗ (Wright 1931): 1 − 0.99¹⁰ = 0.095618 at Ne = 50, t = 10 and
+    /// 1 − 0.98² = 0.0396 at Ne = 25, t = 2 (hand calculations); it is exactly the share of
+    /// heterozygosity lost, and 0 for an infinite Ne.
     #[test]
-    fn inbreeding_after_is_complement_of_retention() {
-        assert_close(inbreeding_after(50.0, 10.0, 0.0), 1.0 - 0.904_382, 1e-6);
-        // Hand calculation: F0 = 0.1, Ne = 25, t = 2 → 1 − 0.9·0.98² = 0.13564.
-        assert_close(inbreeding_after(25.0, 2.0, 0.1), 0.135_64, 1e-12);
-        // 1 − 0.8·1 rounds to 0.19999999999999996 in binary floating point.
-        assert_close(inbreeding_after(f64::INFINITY, 7.0, 0.2), 0.2, 1e-15);
+    fn drift_inbreeding_is_the_complement_of_retention() {
+        assert_close(drift_inbreeding(50.0, 10.0), 0.095_618, 1e-6);
+        assert_close(drift_inbreeding(25.0, 2.0), 0.0396, 1e-12);
+        for (ne, t) in [(50.0, 10.0), (7.3, 4.5), (1e6, 25.0), (0.4, 2.0)] {
+            // Equal up to the rounding of one subtraction.
+            assert_close(drift_inbreeding(ne, t) + heterozygosity_retained(ne, t), 1.0, 1e-15);
+        }
+        assert_eq!(drift_inbreeding(f64::INFINITY, 7.0), 0.0);
     }
 
-    /// Inverse of the decay: losing 1 − 0.904382 at Ne = 50 takes 10 generations (METHODS §10
-    /// item 16, inverted); losing 10% at Ne = 50 takes ln 0.9/ln 0.99 = 10.483283 (hand calculation).
+    /// Inverse of the decay: losing 1 − 0.904382 at Ne = 50 takes 10 generations (the check
+    /// value above, inverted); losing 10% at Ne = 50 takes ln 0.9/ln 0.99 = 10.483283 (hand calculation).
     #[test]
     fn generations_to_lose_inverts_the_decay() {
         let retained = heterozygosity_retained(50.0, 10.0);
@@ -116,7 +126,7 @@ mod tests {
     fn degenerate_sizes_are_handled() {
         assert_eq!(heterozygosity_retained(0.25, 3.0), 0.0);
         assert_eq!(heterozygosity_retained(0.5, 1.0), 0.0);
-        assert_eq!(inbreeding_after(0.25, 3.0, 0.1), 1.0);
+        assert_eq!(drift_inbreeding(0.25, 3.0), 1.0);
         assert_eq!(generations_to_lose(0.5, 0.4), 1.0);
         assert!(heterozygosity_retained(0.0, 1.0).is_nan());
         assert!(heterozygosity_retained(-5.0, 1.0).is_nan());

@@ -23,7 +23,8 @@
 //! N̂b counts the breeders that produced the sampled cohort (individuals, one reproductive
 //! cycle); the sample must be one cohort of progeny. **`"inf"` is frequent and honest:** when
 //! D̄ ≤ 0 (no excess beyond sampling noise), or a lower D bound ≤ 0, the data cannot tell Nb
-//! from infinity, and only the lower bound is informative. The method is informative only when
+//! from infinity, and only a finite lower bound is informative (`ne_low` `"inf"` too means an
+//! interval ∞–∞: Nb is not estimable from the data). The method is informative only when
 //! Nb is small (a few tens at most) and many loci are typed (Luikart & Cornuet 1999). Groups
 //! without a polymorphic locus have `null` estimates; Nb is never negative.
 //!
@@ -36,7 +37,7 @@ use popgauge_abi::{
 };
 
 use crate::packing::pack;
-use crate::special_values::{explain, group_name, rows_where};
+use crate::special_values::{LowerBound, explain, group_name, infinite_estimate_reading, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error};
 use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
 use crate::stats::intervals::student_t_interval;
@@ -193,7 +194,10 @@ fn collect_findings(groups: &[GroupEstimate]) -> Vec<Finding> {
                 format!("group {name} has no polymorphic locus typed in two or more individuals, so no estimate"),
                 location(),
             )),
-            Some(nb) if nb.is_infinite() => findings.push(infinite_finding(&name, location())),
+            Some(nb) if nb.is_infinite() => {
+                let lower = LowerBound::of(g.breeders_interval().map(|i| i.low));
+                findings.push(infinite_finding(&name, lower, location()));
+            }
             Some(_) => {}
         }
     }
@@ -229,13 +233,14 @@ fn special_value_findings(estimates: &Table) -> Vec<Finding> {
     infinite_upper.into_iter().chain(no_interval).collect()
 }
 
-fn infinite_finding(name: &str, location: Where) -> Finding {
+fn infinite_finding(name: &str, lower: LowerBound, location: Where) -> Finding {
     Finding::info(
         "infinite-estimate",
         format!(
             "group {name}: Nb is \"inf\" because the progeny show no heterozygote excess beyond sampling noise (mean D \
              ≤ 0). This is the usual outcome unless the breeders number at most a few tens: the data cannot \
-             distinguish Nb from infinity, and only the lower confidence bound is informative"
+             distinguish Nb from infinity. {}",
+            infinite_estimate_reading(lower, "ne_low", "Nb")
         ),
         location,
     )
@@ -326,6 +331,32 @@ mod tests {
         );
         let caution = &findings_with(&output, "ne-interpretation")[0].message;
         assert!(caution.contains("one cohort") && caution.contains("qualified geneticist"));
+    }
+
+    /// Only a finite lower bound is called informative (common practice: an interval ∞–∞ bounds
+    /// nothing). Hand calculation: at two loci of 10 A/A + 10 B/B, D = −1 at both, so the
+    /// jackknife interval of D̄ is −1 to −1 and ne_low = ne_high = "inf": not estimable. With the
+    /// second locus 10 A/B + 5 A/A + 5 B/B (D = 0.5/0.512821 − 1 = −0.025, Nei 1978 He) D̄ =
+    /// −0.5125 with SE 0.4875 and t₁ = 12.706, so d_high > 0 and ne_low is finite: informative.
+    #[test]
+    fn the_lower_bound_of_an_infinite_estimate_is_read_correctly() {
+        let deficit = |second: [&str; 3]| {
+            MatrixBuilder::new(&["L1", "L2"])
+                .samples("a", "P", 2020, 5, &["A/A", second[0]])
+                .samples("b", "P", 2020, 5, &["A/A", second[1]])
+                .samples("c", "P", 2020, 10, &["B/B", second[2]])
+                .build()
+        };
+        let output = run_step(&NeHetx, &deficit(["A/A", "A/A", "B/B"]), json!({}));
+        assert_eq!(cell(table(&output, "estimates"), 0, "ne_low"), &Cell::Inf);
+        let message = &findings_with(&output, "infinite-estimate")[0].message;
+        assert!(message.contains("Nb is not estimable") && !message.contains("informative"), "{message}");
+        let output = run_step(&NeHetx, &deficit(["A/A", "B/B", "A/B"]), json!({}));
+        let estimates = table(&output, "estimates");
+        assert_close(number(estimates, 0, "d").unwrap(), -0.5125, 1e-4);
+        assert!(number(estimates, 0, "ne_low").unwrap().is_finite());
+        let message = &findings_with(&output, "infinite-estimate")[0].message;
+        assert!(message.contains("(ne_low) is informative: Nb is unlikely to be below it"), "{message}");
     }
 
     /// DESIGN: the `estimates` table starts with the contract's columns; no parameters.

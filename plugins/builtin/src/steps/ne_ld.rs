@@ -57,7 +57,8 @@
 //! Ne is in individuals per generation. A single-cohort sample estimates the effective number
 //! of breeders (Nb) of its parents; a mixed-age sample roughly Ne (Waples, Antao & Luikart 2014).
 //! When r̄² ≤ E(r²_sample) the estimate, or a bound, is `"inf"`: the data cannot tell Ne from
-//! infinity, and only the lower bound is informative. A group or criterion without any usable
+//! infinity, and only a finite lower bound is informative (with the lower bound `"inf"` too, the
+//! interval is ∞–∞ and Ne is not estimable from the data). A group or criterion without any usable
 //! pair of loci has `null` estimates. Never a negative Ne.
 //!
 //! # Speed
@@ -100,7 +101,7 @@ use self::estimate::{LdEstimate, Mating, estimate};
 use self::packed::{PackedPanel, PackedRequest, sum_pairs_packed};
 use self::pairs::{ChunkCuts, PairSums, sum_pairs};
 use self::panel::{Criterion, PanelRequest, build_panel, chromosome_ids, shuffled_samples};
-use crate::special_values::{Row, explain, rows_where};
+use crate::special_values::{LowerBound, Row, explain, infinite_estimate_reading, rows_where};
 use crate::stats::bootstrap::rng;
 
 pub use self::estimate::{expected_sample_r2, ne_from_drift_r2, ne_from_r2};
@@ -497,15 +498,20 @@ fn resample_subset_finding(params: &Params, subset: usize, loci: usize) -> Findi
 fn group_findings(result: &GroupResult, params: &Params) -> Vec<Finding> {
     let group = &result.group;
     let name = format!("{} {}", group.population, group.year);
-    let mut by_code: BTreeMap<&'static str, Vec<String>> = BTreeMap::new();
+    // One finding per code and, for an infinite estimate, per kind of lower bound.
+    let mut by_code: BTreeMap<(&'static str, LowerBound), Vec<String>> = BTreeMap::new();
     for row in &result.criteria {
         let label = criterion_label(row.criterion);
+        let lower = row.estimate.as_ref().map_or(LowerBound::Absent, lower_bound);
         for code in row_codes(row.estimate.as_ref()) {
-            by_code.entry(code).or_default().push(label.clone());
+            let lower = if code == "infinite-estimate" { lower } else { LowerBound::Absent };
+            by_code.entry((code, lower)).or_default().push(label.clone());
         }
     }
-    let mut findings: Vec<Finding> =
-        by_code.into_iter().map(|(code, labels)| group_finding(code, &name, &labels.join(", "), group)).collect();
+    let mut findings: Vec<Finding> = by_code
+        .into_iter()
+        .map(|((code, lower), labels)| group_finding(code, lower, &name, &labels.join(", "), group))
+        .collect();
     let skipped = result.criteria.first().map_or(0, |r| r.same_chromosome);
     if params.skip_same_chromosome && skipped > 0 {
         findings.push(Finding::info(
@@ -541,7 +547,12 @@ fn row_codes(estimate: Option<&LdEstimate>) -> Vec<&'static str> {
     codes
 }
 
-fn group_finding(code: &'static str, name: &str, criteria: &str, group: &Group) -> Finding {
+/// The lower bound of the most trusted interval a row has (resampling, jackknife, parametric).
+fn lower_bound(e: &LdEstimate) -> LowerBound {
+    LowerBound::of([e.resample, e.jackknife_loci, e.parametric].iter().flatten().next().map(|i| i.low))
+}
+
+fn group_finding(code: &'static str, lower: LowerBound, name: &str, criteria: &str, group: &Group) -> Finding {
     let location = Where::group(&group.population, group.year);
     let message = match code {
         "no-estimate" => format!(
@@ -563,7 +574,8 @@ fn group_finding(code: &'static str, name: &str, criteria: &str, group: &Group) 
         "infinite-estimate" => format!(
             "group {name} ({criteria}): Ne is \"inf\" because the observed r̄² does not exceed the r² expected from \
              sampling alone; the data cannot distinguish Ne from infinity (a large population, or too little data). \
-             The lower confidence bound is informative: Ne is unlikely to be below it"
+             {}",
+            infinite_estimate_reading(lower, "the first present of ne_resample_low, ne_jack_low, ne_param_low", "Ne")
         ),
         _ => format!(
             "group {name} ({criteria}): the upper confidence bound of Ne is \"inf\": the data are consistent with a \

@@ -62,7 +62,7 @@ use crate::packing::pack;
 use serde::Deserialize;
 use serde_json::json;
 
-use crate::special_values::{Row, explain, rows_where};
+use crate::special_values::{LowerBound, Row, explain, infinite_estimate_reading, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error, sum_terms};
 use crate::stats::intervals::{chi_square_interval, student_t_interval};
 
@@ -623,13 +623,14 @@ fn comparison_findings(c: &Comparison) -> Vec<Finding> {
     if stats.loci < FEW_LOCI {
         warn("few-loci", format!("{name}: fewer than {FEW_LOCI} loci typed in both samples"));
     }
-    if c.estimate.as_ref().is_some_and(|e| e.ne_fs.is_infinite()) {
+    if let Some(e) = c.estimate.as_ref().filter(|e| e.ne_fs.is_infinite()) {
         warn(
             "infinite-estimate",
             format!(
                 "{name}: ne_fs is \"inf\" because the allele-frequency change does not exceed what sampling alone \
                  produces; the data cannot distinguish Ne from infinity (a large population, samples too close in time, \
-                 or too little data). The lower confidence bound is informative: Ne is unlikely to be below it"
+                 or too little data). {}",
+                infinite_estimate_reading(LowerBound::of(e.fs_interval.map(|i| i.low)), "ne_low", "Ne")
             ),
         );
     }

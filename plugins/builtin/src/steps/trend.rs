@@ -5,12 +5,15 @@
 //!
 //! - `he`, `ho`, `ar`, `f`: the columns of the `diversity` step's `by_group` table (the last
 //!   `diversity` step in the recipe);
-//! - `ne:<step id>`: the `ne` column of an `ne-ld` or `ne-hetx` step's `estimates`, or `ne_fs`
-//!   of an `ne-temporal` step. For `ne-ld` the rows at Pcrit = `ld_pcrit` (default 0.02) are
-//!   used, or, when the step did not estimate at that Pcrit, those at the Pcrit of its first
-//!   row (its first requested Pcrit); an info finding says which. A temporal estimate is placed
-//!   at its `year_end`; of several ending in the same year, the one with the latest
-//!   `year_start` is used.
+//! - `ne:<step id>`: per population and year, the estimate of that step the SDK's
+//!   [`popgauge_abi::representative_ne`] chooses, the rule `status` and the document follow:
+//!   `ne` of an `ne-ld` or `ne-hetx` row, `ne_fs` of an `ne-temporal` row placed at its
+//!   `year_end` (of several ending in the same year, the one with the latest `year_start`: the
+//!   intervals of successive points then share no sample). For `ne-ld` the rare-allele
+//!   criterion follows each sample's harmonic-mean S by default (`ld_pcrit` null), as Waples &
+//!   Do (2010) recommend: no singletons at S ≤ 25, Pcrit 0.02 above; a number in `ld_pcrit`
+//!   fixes the Pcrit instead. The `ne_method` column of `series` and an `ld-criterion` finding
+//!   name the criterion of every point.
 //!
 //! `null` values are not points. **Ne is analysed on the 1/Ne scale**, proportional to the
 //! rate of inbreeding ΔF = 1/(2Ne) per generation: an infinite estimate becomes 1/Ne = 0 and
@@ -18,7 +21,7 @@
 //! are therefore those of 1/Ne (a positive slope means Ne falls), while `direction` speaks of
 //! Ne itself. Other metrics are analysed as they are.
 //!
-//! # Tests (METHODS §8; formulas in [`crate::stats::trend`])
+//! # Tests (formulas and sources in [`crate::stats::trend`])
 //! Mann–Kendall S, Var S, τ and a two-sided p (exact null distribution for at most 10 untied
 //! points, otherwise the tie-corrected normal approximation with continuity correction),
 //! Sen's slope with Gilbert's (1987) 95% interval, and the least-squares slope with a 95%
@@ -39,7 +42,8 @@
 //!   mk_s, mk_var, mk_tau, mk_z, mk_p, mk_method (`exact`/`normal`), sen_slope, sen_low,
 //!   sen_high, ols_slope, ols_se, ols_low, ols_high, direction.
 //! - `series`: population, metric, year, value (as the source gives it; an infinite Ne is
-//!   `"inf"`), analysed (the value on the tested scale).
+//!   `"inf"`), analysed (the value on the tested scale), ne_method (the Ne source with its
+//!   criterion, e.g. `ld:singletons`; `null` for the diversity metrics).
 //! - `paired`: population, metric, year_start, year_end, loci (typed in both years), zeros
 //!   (loci without change, dropped from the test), w_plus, w_minus, p_method, p_value,
 //!   mean_change, change_low, change_high, replicates.
@@ -48,7 +52,9 @@
 //! `too-few-points` (info) per series too short for a test; `low-power` (info) for a series of
 //! exactly 4 points, whose smallest two-sided p is 0.083; `missing-source` (warning) when a
 //! metric's source step is absent, failed or lacks the table or column, and `no-values` (info)
-//! when it gives only nulls; `ld-pcrit` (info) naming the Pcrit followed; `ne-trend-scale`
+//! when it gives only nulls; `ld-criterion` (info) naming the criterion and S of every LD
+//! point, `ld-criterion-missing` (warning) for points whose rule criterion was not estimated;
+//! `ne-trend-scale`
 //! (info) on the 1/Ne scale; `trend-caution` (info) on the limits of short series.
 //!
 //! # Citations
@@ -63,19 +69,19 @@ mod tests;
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    Descriptor, Finding, FindingLevel, ParamKind, Step, StepContext, StepError, StepOutput, StepResult, Table, Where,
-    did_you_mean, format_number,
+    CriterionReason, Descriptor, Finding, FindingLevel, LdChoice, LdCriterion, ParamKind, Step, StepContext, StepError,
+    StepOutput, StepResult, Table, Where, did_you_mean, format_number,
 };
 use serde::Deserialize;
-use serde_json::json;
+use serde_json::{Value, json};
 
-use crate::special_values::{Row, explain, rows_where};
+use crate::special_values::{Row, explain, listing, rows_where};
 use crate::stats::bootstrap::{bootstrap_loci, percentile_interval, rng};
 use crate::stats::trend::{
     LeastSquares, MIN_POINTS_LEAST_SQUARES, MIN_POINTS_MANN_KENDALL, MannKendall, SenSlope, SignedRank, least_squares,
     mann_kendall, sen_slope, wilcoxon_signed_rank,
 };
-use sources::{NE_STEP_USES, PointsByPopulation, SourceProblem};
+use sources::{NE_STEP_USES, NePoints, PointsByPopulation, SourceProblem};
 
 /// Confidence level of every interval of this step.
 pub const CONFIDENCE_LEVEL: f64 = 0.95;
@@ -100,8 +106,8 @@ pub const CITATIONS: [&str; 6] = [
 pub struct Params {
     /// Metrics to test: `he`, `ho`, `ar`, `f`, `ne` (every earlier Ne step) or `ne:<step id>`.
     pub metrics: Vec<String>,
-    /// The Pcrit whose `ne-ld` rows are followed.
-    pub ld_pcrit: f64,
+    /// The Pcrit whose `ne-ld` rows are followed; `None` follows each sample's size.
+    pub ld_pcrit: Option<f64>,
     /// Significance level for `direction`.
     pub alpha: f64,
     /// Bootstrap resamples of loci for the two-point change interval.
@@ -112,7 +118,7 @@ pub struct Params {
 pub fn descriptor() -> Descriptor {
     Descriptor::new(
         "trend",
-        "0.1.0",
+        "0.2.0",
         "Trends over sampling years per population: Mann–Kendall test, Sen's slope, least-squares slope; \
          paired test over loci for two sampling years",
     )
@@ -125,8 +131,9 @@ pub fn descriptor() -> Descriptor {
     .param(
         "ld_pcrit",
         ParamKind::Number { min: 0.0, max: 0.5 },
-        json!(0.02),
-        "Pcrit of the ne-ld rows to follow (the step's first Pcrit when it has no rows at this one)",
+        Value::Null,
+        "Pcrit of the ne-ld rows to follow; null = per sample, no singletons at harmonic-mean S ≤ 25, else Pcrit 0.02 \
+         (Waples & Do 2010)",
     )
     .param(
         "alpha",
@@ -155,7 +162,7 @@ impl Step for Trend {
         let params: Params = ctx.params_as()?;
         let metrics = resolve_metrics(&params.metrics, ctx.earlier)?;
         let mut findings = Vec::new();
-        let series = collect_series(ctx, &metrics, params.ld_pcrit, &mut findings);
+        let series = collect_series(ctx, &metrics, ld_choice(params.ld_pcrit), &mut findings);
         let tested: Vec<TestedSeries> = series.iter().map(|s| s.test(params.alpha)).collect();
         let paired = paired_changes(ctx, &metrics, &params, &mut findings);
         findings.extend(point_count_findings(&tested));
@@ -286,6 +293,8 @@ struct Series {
     metric: String,
     scale: Scale,
     values: BTreeMap<i32, f64>,
+    /// The Ne source with its criterion per year (`ld:0.02`); empty for diversity metrics.
+    methods: BTreeMap<i32, String>,
 }
 
 impl Series {
@@ -334,19 +343,27 @@ struct TestedSeries<'s> {
 fn collect_series(
     ctx: &StepContext<'_>,
     metrics: &[Metric],
-    ld_pcrit: f64,
+    ld_choice: LdChoice,
     findings: &mut Vec<Finding>,
 ) -> Vec<Series> {
     let mut series: Vec<(usize, Series)> = Vec::new();
     for (order, metric) in metrics.iter().enumerate() {
-        let Some(points) = metric_points(ctx, metric, ld_pcrit, findings) else { continue };
-        for (population, values) in points {
+        let Some(points) = metric_points(ctx, metric, ld_choice, findings) else { continue };
+        for (population, (values, methods)) in points {
             let scale = metric.scale();
-            series.push((order, Series { population, metric: metric.name(), scale, values }));
+            series.push((order, Series { population, metric: metric.name(), scale, values, methods }));
         }
     }
     series.sort_by(|a, b| a.1.population.cmp(&b.1.population).then(a.0.cmp(&b.0)));
     series.into_iter().map(|(_, s)| s).collect()
+}
+
+/// Values (and Ne methods) by year.
+type ValuesAndMethods = (BTreeMap<i32, f64>, BTreeMap<i32, String>);
+
+/// `ld_pcrit` as an `ne-ld` criterion choice.
+fn ld_choice(ld_pcrit: Option<f64>) -> LdChoice {
+    ld_pcrit.map_or(LdChoice::BySampleSize, |p| LdChoice::Fixed(LdCriterion::Pcrit(p)))
 }
 
 /// The values of one metric by population, or `None` (with a finding) when its source is
@@ -354,20 +371,23 @@ fn collect_series(
 fn metric_points(
     ctx: &StepContext<'_>,
     metric: &Metric,
-    ld_pcrit: f64,
+    ld_choice: LdChoice,
     findings: &mut Vec<Finding>,
-) -> Option<PointsByPopulation> {
+) -> Option<BTreeMap<String, ValuesAndMethods>> {
     let read = match metric {
         Metric::Diversity(column) => match ctx.earlier_by_uses("diversity") {
-            Some(result) => sources::diversity_points(result, column),
+            Some(result) => sources::diversity_points(result, column).map(without_methods),
             None => Err(SourceProblem(
                 "no diversity step runs before trend; add one earlier in the recipe or remove the metric from `metrics`"
                     .into(),
             )),
         },
-        Metric::Ne { step_id, uses } => {
+        Metric::Ne { step_id, .. } => {
             let result = ctx.earlier.iter().find(|r| &r.id == step_id)?;
-            ne_points(result, uses, ld_pcrit, findings)
+            sources::ne_points(result, ld_choice).map(|points| {
+                findings.extend(criterion_findings(result, &points));
+                with_methods(points)
+            })
         }
     };
     match read {
@@ -394,27 +414,71 @@ fn metric_points(
     }
 }
 
-fn ne_points(
-    result: &StepResult,
-    uses: &str,
-    ld_pcrit: f64,
-    findings: &mut Vec<Finding>,
-) -> Result<PointsByPopulation, SourceProblem> {
-    match uses {
-        "ne-ld" => {
-            let Some(pcrit) = sources::ld_pcrit_used(result, ld_pcrit)? else {
-                return Ok(PointsByPopulation::new());
-            };
-            findings.push(Finding::info(
-                "ld-pcrit",
-                format!("trend of ne:{} follows the ne-ld estimates at Pcrit {pcrit}", result.id),
-                Where::default(),
-            ));
-            sources::ld_points(result, &pcrit)
+fn without_methods(points: PointsByPopulation) -> BTreeMap<String, ValuesAndMethods> {
+    points.into_iter().map(|(population, values)| (population, (values, BTreeMap::new()))).collect()
+}
+
+fn with_methods(points: NePoints) -> BTreeMap<String, ValuesAndMethods> {
+    let split = |years: BTreeMap<i32, popgauge_abi::RepresentativeNe>| {
+        let values = years.iter().map(|(&y, e)| (y, e.ne)).collect();
+        let methods = years.iter().map(|(&y, e)| (y, e.method())).collect();
+        (values, methods)
+    };
+    points.into_iter().map(|(population, years)| (population, split(years))).collect()
+}
+
+/// `ld-criterion` (info) naming the criterion and S of every point of an `ne-ld` metric, and
+/// `ld-criterion-missing` (warning) for the points whose rule criterion the step lacks.
+fn criterion_findings(result: &StepResult, points: &NePoints) -> Vec<Finding> {
+    let mut used = Vec::new();
+    let mut missing = Vec::new();
+    for (population, years) in points {
+        for (year, e) in years {
+            let (Some(criterion), Some(reason)) = (e.criterion, e.criterion_reason) else { continue };
+            let s = e
+                .rule_samples
+                .or(e.samples)
+                .map_or_else(|| "unknown".into(), |s| format_number((s * 10.0).round() / 10.0));
+            used.push(format!("{population} {year} (S = {s}, {})", criterion.label()));
+            match reason {
+                CriterionReason::RuleCriterionMissing(wanted) => missing.push(format!(
+                    "{population} {year} (S = {s}: {} wanted, {} used)",
+                    wanted.label(),
+                    criterion.label()
+                )),
+                CriterionReason::SampleSizeUnknown => {
+                    missing.push(format!("{population} {year} (no s: {} used)", criterion.label()))
+                }
+                CriterionReason::Preferred | CriterionReason::SampleSizeRule => {}
+            }
         }
-        "ne-temporal" => sources::temporal_points(result),
-        _ => sources::hetx_points(result),
     }
+    let mut findings = Vec::new();
+    if !used.is_empty() {
+        findings.push(Finding::info(
+            "ld-criterion",
+            format!(
+                "trend of ne:{}: the rare-allele criterion of each LD point (by default no singletons at harmonic-mean \
+                 S ≤ 25 and Pcrit 0.02 above, Waples & Do 2010; `ld_pcrit` fixes one): {}",
+                result.id,
+                listing(&used)
+            ),
+            Where::default(),
+        ));
+    }
+    if !missing.is_empty() {
+        findings.push(Finding::warning(
+            "ld-criterion-missing",
+            format!(
+                "trend of ne:{}: the ne-ld step did not estimate the criterion the sample size asks for, so the \
+                 group's first criterion is used; add it to the ne-ld step (pcrit, or exclude_singletons = true): {}",
+                result.id,
+                listing(&missing)
+            ),
+            Where::default(),
+        ));
+    }
+    findings
 }
 
 /// A two-point comparison over loci.
@@ -497,7 +561,8 @@ fn mean_change_with_interval(
 }
 
 /// `too-few-points` for each series too short for the Mann–Kendall test or the least-squares
-/// slope (METHODS §8: n ≥ 4 and n ≥ 3), and `low-power` for a series of exactly 4 points.
+/// slope (n ≥ 4 and n ≥ 3, see [`crate::stats::trend`]), and `low-power` for a series of exactly
+/// 4 points.
 fn point_count_findings(tested: &[TestedSeries<'_>]) -> Vec<Finding> {
     let mut findings = Vec::new();
     for t in tested {

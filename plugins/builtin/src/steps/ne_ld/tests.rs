@@ -276,6 +276,10 @@ fn uncorrelated_loci_give_inf_with_findings() {
     }
     let infinite = &findings_with(&output, "infinite-estimate")[0].message;
     assert!(infinite.contains("cannot distinguish Ne from infinity") && infinite.contains("lower confidence bound"));
+    // r̄² = 0 puts even the upper χ² bound of r² below E(r²_sample): the interval is ∞–∞, which
+    // bounds nothing, so the finding says "not estimable", never "informative".
+    assert_eq!(cell(estimates, 0, "ne_param_low"), &Cell::Inf);
+    assert!(infinite.contains("not estimable") && !infinite.contains("informative"), "{infinite}");
     assert!(output.findings.iter().all(|f| !f.message.contains("NaN")));
 }
 
@@ -521,8 +525,13 @@ fn packed_serves_every_group(matrix: &GenotypeMatrix, individual_blocks: usize) 
     let chromosomes = chromosome_ids(&view);
     let criteria = [Criterion::Pcrit(0.05), Criterion::NoSingletons];
     view.groups().iter().all(|group| {
-        let request =
-            PackedRequest { group, loci: &loci, criteria: &criteria, groups: individual_blocks, chromosomes: &chromosomes };
+        let request = PackedRequest {
+            group,
+            loci: &loci,
+            criteria: &criteria,
+            groups: individual_blocks,
+            chromosomes: &chromosomes,
+        };
         PackedPanel::build(&view, &request, &group.samples).is_some()
     })
 }
@@ -605,7 +614,8 @@ fn jackknife_over_individuals_can_run_on_a_subset_of_loci() {
     assert!(finding.contains("subset of 10 loci") && finding.contains("with 30 loci"), "{finding}");
     assert!(findings_with(&full, "resample-subset").is_empty());
     assert_eq!(subset, run_step(&NeLd, &matrix, capped));
-    let at_cap = run_step(&NeLd, &matrix, json!({"pcrit": [0.02], "exclude_singletons": false, "resample_max_loci": 30}));
+    let at_cap =
+        run_step(&NeLd, &matrix, json!({"pcrit": [0.02], "exclude_singletons": false, "resample_max_loci": 30}));
     assert_eq!(full, at_cap);
 }
 

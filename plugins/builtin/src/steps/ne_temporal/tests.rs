@@ -208,6 +208,9 @@ fn comparisons_and_infinite_estimates() {
     let infinite = findings_with(&output, "infinite-estimate");
     assert_eq!(infinite.len(), 3);
     assert!(infinite[0].message.contains("cannot distinguish Ne from infinity"));
+    // Identical samples: ne_low is "inf" too, an interval ∞–∞ that bounds nothing.
+    assert_eq!(cell(estimates, 0, "ne_low"), &Cell::Inf);
+    assert!(infinite[0].message.contains("not estimable") && !infinite[0].message.contains("informative"));
     // DESIGN: the "inf" of ne_fc and ne_fk is explained too, in one finding for all comparisons.
     let moments = findings_with(&output, "infinite-estimate-fc-fk");
     assert_eq!(moments.len(), 1);

@@ -1,46 +1,50 @@
 //! Placing an Ne and its confidence interval against the thresholds.
 //!
 //! With ascending thresholds t₁ < … < t_k there are k + 1 bands: below t₁, [t₁, t₂), …,
-//! [t_k, ∞). A value equal to a threshold meets it (Ne ≥ 50 "keeps inbreeding to about 1% per
-//! generation"). The category is:
+//! [t_k, ∞). A value equal to a threshold meets it (Franklin's 1980 rule asks for an Ne of at
+//! least 50). The **category** is the band of the point estimate alone:
 //!
 //! - `unknown` without a point estimate;
-//! - `straddles t` when the interval reaches both sides of a threshold t: low < t ≤ high
-//!   (`straddles t₁ and t₂` when it crosses several);
+//! - `not estimable` when the lower bound of the 95% interval is `"inf"` (an interval ∞–∞ says
+//!   nothing about the size);
 //! - otherwise the band of the point estimate, by its label.
 //!
-//! Without an interval the point decides alone (the step adds a finding saying so).
+//! What the interval adds is reported beside it, never folded into the category: the interval
+//! **reaches** a threshold t when low < t ≤ high, that is when Ne values on both sides of t
+//! are compatible with the data. A point estimate of 30 with the interval 11–∞ is `below 50`,
+//! and its interval reaches 50 and 500: the data do not exclude an Ne above either.
 
 use popgauge_abi::format_number;
 
-/// Where an estimate stands.
+/// Where a point estimate stands.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Category {
     /// No estimate.
     Unknown,
-    /// The point lies in band `i` (0 = below the lowest threshold) and the interval, if any,
-    /// does not cross a threshold.
+    /// The interval is ∞–∞.
+    NotEstimable,
+    /// The point lies in band `i` (0 = below the lowest threshold).
     Band(usize),
-    /// The interval crosses these thresholds (indices, ascending).
-    Straddles(Vec<usize>),
 }
 
-/// Places `ne` (with its interval, when known) against ascending `thresholds`.
-pub fn categorise(ne: Option<f64>, interval: Option<(f64, f64)>, thresholds: &[f64]) -> Category {
-    let Some(ne) = ne else { return Category::Unknown };
-    if let Some((low, high)) = interval {
-        let crossed: Vec<usize> =
-            (0..thresholds.len()).filter(|&i| low < thresholds[i] && thresholds[i] <= high).collect();
-        if !crossed.is_empty() {
-            return Category::Straddles(crossed);
-        }
+/// The category of `ne` (see the module doc); `estimable` is false for an interval ∞–∞.
+pub fn categorise(ne: Option<f64>, estimable: bool, thresholds: &[f64]) -> Category {
+    match ne {
+        None => Category::Unknown,
+        Some(_) if !estimable => Category::NotEstimable,
+        Some(ne) => Category::Band(band_of(ne, thresholds)),
     }
-    Category::Band(band_of(ne, thresholds))
 }
 
 /// The band index of a value: the number of thresholds it meets.
 pub fn band_of(value: f64, thresholds: &[f64]) -> usize {
     thresholds.iter().filter(|&&t| value >= t).count()
+}
+
+/// The indices of the thresholds the interval reaches: low < t ≤ high.
+pub fn thresholds_reached(interval: (f64, f64), thresholds: &[f64]) -> Vec<usize> {
+    let (low, high) = interval;
+    (0..thresholds.len()).filter(|&i| low < thresholds[i] && thresholds[i] <= high).collect()
 }
 
 /// The default band labels: `below t₁`, `t₁–t₂`, …, `above t_k`.
@@ -55,14 +59,46 @@ pub fn default_labels(thresholds: &[f64]) -> Vec<String> {
 
 impl Category {
     /// The text of the `category` column.
-    pub fn label(&self, thresholds: &[f64], labels: &[String]) -> String {
+    pub fn label(&self, labels: &[String]) -> String {
         match self {
             Category::Unknown => "unknown".into(),
+            Category::NotEstimable => "not estimable".into(),
             Category::Band(i) => labels.get(*i).cloned().unwrap_or_default(),
-            Category::Straddles(crossed) => {
-                let names: Vec<String> = crossed.iter().map(|&i| format_number(thresholds[i])).collect();
-                format!("straddles {}", names.join(" and "))
-            }
         }
     }
+}
+
+/// The `interval_reaches` cell: the thresholds reached, joined with " and ", or `none`.
+pub fn reached_text(reached: &[usize], thresholds: &[f64]) -> String {
+    if reached.is_empty() {
+        return "none".into();
+    }
+    let names: Vec<String> = reached.iter().map(|&i| format_number(thresholds[i])).collect();
+    names.join(" and ")
+}
+
+/// The `interval_note` sentence: what the interval excludes, with the interval as printed.
+pub fn interval_note(interval: (f64, f64), ne: f64, setting: (&[f64], &[String])) -> String {
+    let (thresholds, labels) = setting;
+    let shown = format!("the 95% interval {}–{}", short(interval.0), short(interval.1));
+    let reached = thresholds_reached(interval, thresholds);
+    if reached.is_empty() {
+        let band = labels.get(band_of(ne, thresholds)).cloned().unwrap_or_default();
+        return format!("{shown} lies within {band}");
+    }
+    let names: Vec<String> = reached.iter().map(|&i| format_number(thresholds[i])).collect();
+    format!("{shown} does not exclude {}: Ne may lie on either side", names.join(" or "))
+}
+
+/// A bound as the note prints it: whole numbers from 100, one decimal from 10, two below.
+fn short(value: f64) -> String {
+    let digits = if value >= 100.0 {
+        0
+    } else if value >= 10.0 {
+        1
+    } else {
+        2
+    };
+    let scale = 10f64.powi(digits);
+    format_number((value * scale).round() / scale)
 }

@@ -1,17 +1,17 @@
-//! Reading the series `trend` tests from earlier steps' tables (results contract, DESIGN.md):
-//! `diversity`/`by_group` and `by_locus`, `ne-ld`/`estimates`, `ne-temporal`/`estimates` and
-//! `ne-hetx`/`estimates`. A table or column that is missing, or a step that failed, is a
+//! Reading the series `trend` tests from earlier steps' tables (results contract):
+//! `diversity`/`by_group` and `by_locus`, and the `estimates` of `ne-ld`, `ne-temporal` and
+//! `ne-hetx` through the SDK's [`representative_ne`]. A table or column that is missing, or a step that failed, is a
 //! [`SourceProblem`] the step reports as a finding; a `null` value is simply no point.
 
 use std::collections::BTreeMap;
 
-use popgauge_abi::{Cell, StepResult, StepStatus, Table};
+use popgauge_abi::{
+    Cell, LdChoice, LdCriterion, NeSource, RepresentativeNe, StepResult, StepStatus, Table, estimated_groups,
+    ne_columns, ne_steps, representative_ne,
+};
 
 /// `uses` names of the steps whose `ne` estimates `trend` can follow.
 pub const NE_STEP_USES: [&str; 3] = ["ne-ld", "ne-temporal", "ne-hetx"];
-
-/// Two Pcrit values closer than this are the same Pcrit.
-const PCRIT_TOLERANCE: f64 = 1e-9;
 
 /// Why a source gave no series, for the reader.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -19,6 +19,9 @@ pub struct SourceProblem(pub String);
 
 /// Values by population, then year.
 pub type PointsByPopulation = BTreeMap<String, BTreeMap<i32, f64>>;
+
+/// Representative Ne estimates by population, then year.
+pub type NePoints = BTreeMap<String, BTreeMap<i32, RepresentativeNe>>;
 
 /// The table `name` of an earlier result that ran.
 pub fn table<'r>(result: &'r StepResult, name: &str) -> Result<&'r Table, SourceProblem> {
@@ -41,15 +44,6 @@ fn column(result: &StepResult, table_name: &str, table: &Table, column: &str) ->
     })
 }
 
-/// A year cell as an integer (years are integers in every contract table).
-pub fn year_of(cell: &Cell) -> Option<i32> {
-    match cell {
-        Cell::Int(i) => i32::try_from(*i).ok(),
-        Cell::Num(x) if x.fract() == 0.0 => Some(*x as i32),
-        _ => None,
-    }
-}
-
 /// `value_column` of `table_name` by (population, year-column); the first row of a repeated
 /// (population, year) wins; rows failing `keep` are skipped.
 fn points(
@@ -66,7 +60,7 @@ fn points(
     let mut by_population = PointsByPopulation::new();
     for row in table.rows.iter().filter(|row| keep(row)) {
         let (Some(name), Some(year), Some(value)) =
-            (row[population].as_str(), year_of(&row[year]), row[value].as_f64())
+            (row[population].as_str(), row[year].as_year(), row[value].as_f64())
         else {
             continue;
         };
@@ -80,66 +74,59 @@ pub fn diversity_points(result: &StepResult, value_column: &str) -> Result<Point
     points(result, "by_group", "year", value_column, |_| true)
 }
 
-/// `ne` of an `ne-hetx` step by population and year.
-pub fn hetx_points(result: &StepResult) -> Result<PointsByPopulation, SourceProblem> {
-    points(result, "estimates", "year", "ne", |_| true)
-}
-
-/// The Pcrit of `ne-ld` rows `trend` follows: `wanted` when some row has it, otherwise the
-/// Pcrit of the table's first row (the step's first requested Pcrit).
-pub fn ld_pcrit_used(result: &StepResult, wanted: f64) -> Result<Option<Cell>, SourceProblem> {
-    let table = table(result, "estimates")?;
-    let pcrit = column(result, "estimates", table, "pcrit")?;
-    let matches = |cell: &Cell| cell.as_f64().is_some_and(|p| (p - wanted).abs() < PCRIT_TOLERANCE);
-    Ok(table
-        .rows
-        .iter()
-        .map(|row| &row[pcrit])
-        .find(|cell| matches(cell))
-        .or_else(|| table.rows.first().map(|row| &row[pcrit]))
-        .cloned())
-}
-
-/// `ne` of an `ne-ld` step at one Pcrit (see [`ld_pcrit_used`]) by population and year.
-pub fn ld_points(result: &StepResult, pcrit: &Cell) -> Result<PointsByPopulation, SourceProblem> {
-    let table = table(result, "estimates")?;
-    let pcrit_column = column(result, "estimates", table, "pcrit")?;
-    points(result, "estimates", "year", "ne", |row| same_pcrit(&row[pcrit_column], pcrit))
-}
-
-fn same_pcrit(a: &Cell, b: &Cell) -> bool {
-    match (a.as_f64(), b.as_f64()) {
-        (Some(x), Some(y)) => (x - y).abs() < PCRIT_TOLERANCE,
-        _ => a == b,
-    }
-}
-
-/// `ne_fs` of an `ne-temporal` step, placed at `year_end`; of several rows ending in the same
-/// year, the one with the latest `year_start` (the shortest, most recent interval) is used.
-pub fn temporal_points(result: &StepResult) -> Result<PointsByPopulation, SourceProblem> {
-    let name = "estimates";
-    let table = table(result, name)?;
-    let population = column(result, name, table, "population")?;
-    let start = column(result, name, table, "year_start")?;
-    let end = column(result, name, table, "year_end")?;
-    let value = column(result, name, table, "ne_fs")?;
-    let mut best: BTreeMap<(String, i32), (i32, f64)> = BTreeMap::new();
-    for row in &table.rows {
-        let (Some(name), Some(start), Some(end), Some(value)) =
-            (row[population].as_str(), year_of(&row[start]), year_of(&row[end]), row[value].as_f64())
-        else {
-            continue;
-        };
-        let slot = best.entry((name.to_string(), end)).or_insert((start, value));
-        if start > slot.0 {
-            *slot = (start, value);
+/// The representative estimates of one Ne step by population and year: for each (population,
+/// year) the step estimated (`year_end` for `ne-temporal`), the row [`representative_ne`]
+/// chooses from that step alone, with `choice` deciding the `ne-ld` criterion. Status and the
+/// document choose by the same function, so a trend point and a status row agree.
+pub fn ne_points(result: &StepResult, choice: LdChoice) -> Result<NePoints, SourceProblem> {
+    let source = NeSource::for_uses(&result.uses, choice)
+        .ok_or_else(|| SourceProblem(format!("step \"{}\" ({}) is not an Ne step", result.id, result.uses)))?;
+    check_ne_columns(result, source)?;
+    let mut by_population = NePoints::new();
+    for (population, year) in estimated_groups(result) {
+        if let Some(chosen) = representative_ne(std::slice::from_ref(result), &population, year, &[source]) {
+            by_population.entry(population).or_default().insert(year, chosen);
         }
     }
-    let mut by_population = PointsByPopulation::new();
-    for ((name, end), (_, value)) in best {
-        by_population.entry(name).or_default().insert(end, value);
-    }
     Ok(by_population)
+}
+
+/// A `SourceProblem` when `estimates` lacks a column the source reads, or when a named `ne-ld`
+/// criterion has no row.
+fn check_ne_columns(result: &StepResult, source: NeSource) -> Result<(), SourceProblem> {
+    let name = ne_steps::ESTIMATES;
+    let table = table(result, name)?;
+    let needed: &[&str] = match source {
+        NeSource::Ld(_) => &[ne_columns::POPULATION, ne_columns::YEAR, ne_columns::PCRIT, ne_columns::NE],
+        NeSource::Temporal => {
+            &[ne_columns::POPULATION, ne_columns::YEAR_START, ne_columns::YEAR_END, ne_columns::NE_FS]
+        }
+        NeSource::Hetx => &[ne_columns::POPULATION, ne_columns::YEAR, ne_columns::NE],
+    };
+    for needed in needed {
+        column(result, name, table, needed)?;
+    }
+    if let NeSource::Ld(LdChoice::Fixed(criterion)) = source {
+        let criteria: Vec<String> = table
+            .named_rows()
+            .filter_map(|r| r.cell(ne_columns::PCRIT).and_then(LdCriterion::of_cell))
+            .map(|c| c.spelling())
+            .fold(Vec::new(), |mut seen, c| {
+                if !seen.contains(&c) {
+                    seen.push(c);
+                }
+                seen
+            });
+        if !table.named_rows().any(|r| r.cell(ne_columns::PCRIT).is_some_and(|c| criterion.matches(c))) {
+            return Err(SourceProblem(format!(
+                "step \"{}\" (ne-ld) has no rows at {} (`ld_pcrit`); its criteria are {}",
+                result.id,
+                criterion.label(),
+                if criteria.is_empty() { "none".into() } else { criteria.join(", ") }
+            )));
+        }
+    }
+    Ok(())
 }
 
 /// Per-locus values of `diversity`/`by_locus`: population → year → locus → value.
@@ -156,7 +143,7 @@ pub fn locus_values(result: &StepResult, value_column: &str) -> Result<LocusValu
     let mut values = LocusValues::new();
     for row in &table.rows {
         let (Some(name), Some(year), Some(locus), Some(value)) =
-            (row[population].as_str(), year_of(&row[year]), row[locus].as_str(), row[value].as_f64())
+            (row[population].as_str(), row[year].as_year(), row[locus].as_str(), row[value].as_f64())
         else {
             continue;
         };

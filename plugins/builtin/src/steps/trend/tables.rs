@@ -58,7 +58,7 @@ pub(super) fn tests_table(tested: &[TestedSeries<'_>]) -> Result<Table, StepErro
 }
 
 pub(super) fn series_table(series: &[Series]) -> Result<Table, StepError> {
-    let mut table = Table::new(&["population", "metric", "year", "value", "analysed"]);
+    let mut table = Table::new(&["population", "metric", "year", "value", "analysed", "ne_method"]);
     for s in series {
         for (&year, &value) in &s.values {
             table.push_row(vec![
@@ -67,6 +67,7 @@ pub(super) fn series_table(series: &[Series]) -> Result<Table, StepError> {
                 Cell::Int(year.into()),
                 Cell::number(value),
                 Cell::maybe(s.scale.transform(value)),
+                s.methods.get(&year).map_or(Cell::Null, Cell::text),
             ])?;
         }
     }

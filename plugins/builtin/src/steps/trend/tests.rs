@@ -77,7 +77,7 @@ fn row_of(t: &Table, population: &str, metric: &str) -> usize {
 const ITEM_9: [(i32, f64); 8] =
     [(2010, 0.62), (2011, 0.60), (2012, 0.61), (2013, 0.57), (2014, 0.58), (2015, 0.55), (2016, 0.56), (2017, 0.53)];
 
-/// METHODS §10 item 9 through the step: S = −22, exact p = 0.0055059524 (scipy 1.17.1
+/// An eight-year He series through the step: S = −22, exact p = 0.0055059524 (scipy 1.17.1
 /// `kendalltau`), τ = −0.7857142857, Sen −0.0120833333 (−0.0166666667, −0.0066666667)
 /// (scipy `theilslopes`), OLS −0.0119047619 (−0.0162580340, −0.0075514898) (scipy
 /// `linregress`); values from tests/reference/trend_reference.py.
@@ -109,30 +109,26 @@ fn item_9_series_through_the_step() {
     assert!(findings_with(&output, "no-values")[0].message.starts_with("trend of ar:"));
 }
 
-/// An `ne-ld` result with rows at Pcrit 0.05 (ignored) and 0.02 (followed).
+/// An `ne-ld` result with rows at Pcrit 0.05 (ignored) and 0.02 (followed: S = 40 > 25).
 fn ld_result(with_002: bool) -> StepResult {
-    let columns = ["population", "year", "pcrit", "ne", "ne_jack_low", "ne_jack_high"];
+    let columns = ["population", "year", "pcrit", "s", "ne", "ne_jack_low", "ne_jack_high"];
     let mut rows = Vec::new();
     let ne = [(2010, f64::INFINITY), (2012, 400.0), (2014, 200.0), (2016, 100.0), (2018, 50.0)];
+    let row = |year: i32, pcrit: Cell, value: f64| {
+        vec![Cell::text("North"), Cell::Int(year.into()), pcrit, num(40.0), num(value), Cell::Null, Cell::Null]
+    };
     for &(year, value) in &ne {
-        rows.push(vec![
-            Cell::text("North"),
-            Cell::Int(year.into()),
-            num(0.05),
-            num(1000.0 - f64::from(year - 2010)),
-            Cell::Null,
-            Cell::Null,
-        ]);
+        rows.push(row(year, num(0.05), 1000.0 - f64::from(year - 2010)));
         if with_002 {
-            rows.push(vec![Cell::text("North"), Cell::Int(year.into()), num(0.02), num(value), Cell::Null, Cell::Null]);
+            rows.push(row(year, num(0.02), value));
         }
     }
     earlier("ld", "ne-ld", vec![("estimates", rows_table(&columns, rows))])
 }
 
-/// Ne on the 1/Ne scale (METHODS §8): Ne = ∞, 400, 200, 100, 50 in 2010–2018 gives 1/Ne = 0,
-/// 0.0025, 0.005, 0.01, 0.02, strictly rising, so S = 10 and the exact p is 2/120 = 0.016667
-/// (METHODS §10 item 8 table: P(S ≥ 10) = 0.0083 for n = 5); Ne is "decreasing". Hand
+/// Ne on the 1/Ne scale: Ne = ∞, 400, 200, 100, 50 in 2010–2018 gives 1/Ne = 0, 0.0025,
+/// 0.005, 0.01, 0.02, strictly rising, so S = 10 and the exact p is 2/120 = 0.016667 (the one
+/// ordering of 5! = 120 with S = 10, each tail; Kendall 1975); Ne is "decreasing". Hand
 /// calculation: OLS slope Σ(t − t̄)(y − ȳ)/Σ(t − t̄)² = 0.095/40 = 0.002375 per year; Sen's slope
 /// is the median of the ten pairwise slopes, (0.001875 + 0.0025)/2 = 0.0021875.
 #[test]
@@ -150,8 +146,10 @@ fn ne_is_tested_on_the_inverse_scale() {
     assert_eq!(cell_at(series, 0, "value"), &Cell::Inf);
     assert_eq!(number(series, 0, "analysed"), Some(0.0));
     assert_close(number(series, 4, "analysed").unwrap(), 0.02, 1e-15);
-    let pcrit = findings_with(&output, "ld-pcrit");
-    assert!(pcrit[0].message.contains("Pcrit 0.02"), "{}", pcrit[0].message);
+    assert_eq!(text(series, 0, "ne_method"), Some("ld:0.02"));
+    let criterion = findings_with(&output, "ld-criterion");
+    assert!(criterion[0].message.contains("North 2010 (S = 40, Pcrit 0.02)"), "{}", criterion[0].message);
+    assert!(findings_with(&output, "ld-criterion-missing").is_empty());
     assert_eq!(findings_with(&output, "ne-trend-scale").len(), 1);
 }
 
@@ -159,15 +157,54 @@ fn cell_at<'t>(t: &'t Table, row: usize, column: &str) -> &'t Cell {
     &t.rows[row][t.column(column).unwrap()]
 }
 
-/// Without rows at Pcrit 0.02 the first row's Pcrit (0.05) is followed: Ne 1000, 998, …, 992
-/// falls, so 1/Ne rises and S = 10 again (hand calculation); the finding names 0.05.
+/// Without rows at Pcrit 0.02 (which S = 40 asks for; Waples & Do 2010) the group's first row
+/// (0.05) is followed with a warning: Ne 1000, 998, …, 992 falls, so 1/Ne rises and S = 10 again
+/// (hand calculation). A Pcrit named in `ld_pcrit` that the step lacks is a missing source.
 #[test]
 fn ld_falls_back_to_the_first_pcrit() {
     let output = run_trend(&[ld_result(false)], json!({"metrics": ["ne:ld"]})).unwrap();
     let tests = table(&output, "tests");
     assert_eq!(number(tests, 0, "mk_s"), Some(10.0));
     assert_eq!(number(table(&output, "series"), 0, "value"), Some(1000.0));
-    assert!(findings_with(&output, "ld-pcrit")[0].message.contains("Pcrit 0.05"));
+    assert!(findings_with(&output, "ld-criterion")[0].message.contains("Pcrit 0.05"));
+    let missing = findings_with(&output, "ld-criterion-missing");
+    assert!(
+        missing[0].message.contains("North 2010 (S = 40: Pcrit 0.02 wanted, Pcrit 0.05 used)"),
+        "{}",
+        missing[0].message
+    );
+    let output = run_trend(&[ld_result(false)], json!({"metrics": ["ne:ld"], "ld_pcrit": 0.01})).unwrap();
+    let source = findings_with(&output, "missing-source");
+    assert!(
+        source[0].message.contains("has no rows at Pcrit 0.01 (`ld_pcrit`); its criteria are 0.05"),
+        "{}",
+        source[0].message
+    );
+}
+
+/// Waples & Do (2010, Evol Appl 3:244–262): each sample's LD point follows its own harmonic-mean
+/// S, no singletons at S ≤ 25 and Pcrit 0.02 above; `ne_method` and the `ld-criterion` finding
+/// say which, and `ld_pcrit` fixes the Pcrit for every point.
+#[test]
+fn ld_points_follow_each_sample_size() {
+    let columns = ["population", "year", "pcrit", "s", "ne"];
+    let mut rows = Vec::new();
+    for (year, s) in [(2010, 20.0), (2014, 48.0)] {
+        for (pcrit, ne) in [(num(0.02), 150.0), (Cell::text("singletons"), 80.0)] {
+            rows.push(vec![Cell::text("North"), Cell::Int(year), pcrit, num(s), num(ne)]);
+        }
+    }
+    let ld = earlier("ld", "ne-ld", vec![("estimates", rows_table(&columns, rows))]);
+    let output = run_trend(std::slice::from_ref(&ld), json!({"metrics": ["ne"]})).unwrap();
+    let series = table(&output, "series");
+    let points: Vec<(Option<f64>, Option<&str>)> =
+        (0..2).map(|r| (number(series, r, "value"), text(series, r, "ne_method"))).collect();
+    assert_eq!(points, vec![(Some(80.0), Some("ld:singletons")), (Some(150.0), Some("ld:0.02"))]);
+    let criterion = &findings_with(&output, "ld-criterion")[0].message;
+    assert!(criterion.ends_with("North 2010 (S = 20, no singletons), North 2014 (S = 48, Pcrit 0.02)"), "{criterion}");
+    let fixed = run_trend(&[ld], json!({"metrics": ["ne"], "ld_pcrit": 0.02})).unwrap();
+    let series = table(&fixed, "series");
+    assert_eq!((number(series, 0, "value"), text(series, 0, "ne_method")), (Some(150.0), Some("ld:0.02")));
 }
 
 /// Temporal estimates sit at `year_end`; of two ending in 2018 the later-starting one (150)
@@ -199,8 +236,8 @@ fn temporal_rows_and_too_few_points() {
     assert!(few[0].message.contains("3 sampling year(s)") && !few[0].message.contains("least-squares"));
 }
 
-/// Two points: every test column is null, both minimums are named (METHODS §8: n ≥ 4 for
-/// Mann–Kendall, n ≥ 3 for least squares).
+/// Two points: every test column is null, both minimums are named (n ≥ 4 for Mann–Kendall,
+/// n ≥ 3 for least squares; common practice).
 #[test]
 fn two_points_give_no_tests() {
     let output =
@@ -216,7 +253,8 @@ fn two_points_give_no_tests() {
 }
 
 /// Four points get a test and a `low-power` finding (smallest exact two-sided p for n = 4 is
-/// 2/24 = 0.083, METHODS §10 item 8), so the direction cannot be anything but "no trend".
+/// 2/24 = 0.083: one ordering of 4! = 24 per tail; Kendall 1975), so the direction cannot be
+/// anything but "no trend".
 #[test]
 fn four_points_have_low_power() {
     let rows = (0..4)
@@ -234,7 +272,7 @@ fn four_points_have_low_power() {
     assert!(low_power[0].message.contains("smallest two-sided Mann–Kendall p is 0.083"), "{}", low_power[0].message);
 }
 
-/// The per-locus He of METHODS §10 item 10 in two sampling years: W⁺ = 1, W⁻ = 44, one zero,
+/// Per-locus He of ten loci in two sampling years: W⁺ = 1, W⁻ = 44, one zero,
 /// tie-corrected normal p = 0.0126156672 (scipy 1.17.1 `wilcoxon`, tests/reference/
 /// trend_reference.py); mean change −0.036 (hand calculation: −0.36/10) with a bootstrap
 /// interval around it that excludes 0 (the standard error of the mean is about 0.008).
