@@ -97,6 +97,8 @@ pub mod col {
     pub const OLS_LOW: &str = "ols_low";
     pub const OLS_HIGH: &str = "ols_high";
     pub const NE_METHOD: &str = "ne_method";
+    pub const NE_YEAR: &str = "ne_year";
+    pub const INTERVAL_NOTE: &str = "interval_note";
     pub const CATEGORY: &str = "category";
     pub const CENSUS_SIZE: &str = "census_size";
     pub const NE_NC: &str = "ne_nc";

@@ -197,6 +197,39 @@ pub fn ne_method(method: &str) -> String {
     }
 }
 
+/// A `status` step's `ne_method` as a short table label: `LD, Pcrit 0.02`, `LD, no
+/// singletons`, `temporal`, `het. excess`.
+pub fn ne_method_short(method: &str) -> String {
+    match method {
+        "temporal" => "temporal".into(),
+        "hetx" => "het. excess".into(),
+        "ld" => "LD".into(),
+        other => match other.strip_prefix("ld:") {
+            Some("singletons") => "LD, no singletons".into(),
+            Some(pcrit) => format!("LD, Pcrit {pcrit}"),
+            None => other.to_string(),
+        },
+    }
+}
+
+/// The `status` step's `prefer` list in words, for the rule stated beside the status table.
+pub fn ne_preference(prefer: &[&str]) -> String {
+    let words: Vec<String> = prefer
+        .iter()
+        .map(|p| match *p {
+            "ld" => "the linkage-disequilibrium method (alleles seen once left out when the harmonic-mean sample \
+                     size S is 25 or less, alleles rarer than Pcrit = 0.02 left out above; Waples & Do 2010)"
+                .to_string(),
+            other => ne_method(other),
+        })
+        .collect();
+    match words.as_slice() {
+        [] => String::new(),
+        [one] => one.clone(),
+        [first @ .., last] => format!("{}, then {last}", first.join(", then ")),
+    }
+}
+
 /// The style a column gets by its contract name (DESIGN.md results contract), for tables the
 /// document shows as they are (appendix and plugin tables).
 pub fn style_for_column(name: &str) -> NumberStyle {
@@ -211,7 +244,6 @@ pub fn style_for_column(name: &str) -> NumberStyle {
         "n_kept",
         "alleles",
         "points",
-        "s",
         "comparisons",
         "typed",
         "bad_cells",
@@ -230,9 +262,9 @@ pub fn style_for_column(name: &str) -> NumberStyle {
         NumberStyle::EffectiveSize
     } else if name.contains("slope") || name.starts_with("ols_") {
         NumberStyle::Significant(3)
-    } else if name == "pcrit" || name == "generations" {
+    } else if name == "pcrit" || name == "generations" || name == "s" {
         NumberStyle::Short(3)
-    } else if name == "h_retained" || name.starts_with("share") {
+    } else if name.starts_with("h_retained") || name.starts_with("share") {
         NumberStyle::Percent
     } else if is(&[
         "ho",
@@ -257,7 +289,13 @@ pub fn style_for_column(name: &str) -> NumberStyle {
         "fs",
         "d",
         "mk_tau",
-        "f_projected",
+        "f_drift",
+        "f_drift_low",
+        "f_drift_high",
+        "jost_d_low",
+        "jost_d_high",
+        "gst_pp_low",
+        "gst_pp_high",
         "ne_nc",
         "null_allele",
     ]) {

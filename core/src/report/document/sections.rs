@@ -5,7 +5,7 @@ use std::collections::{BTreeMap, BTreeSet};
 
 use serde::Serialize;
 
-use popgauge_abi::{Finding, FindingLevel, StepResult};
+use popgauge_abi::{Finding, FindingLevel, LdChoice, NeSource, StepResult, estimated_groups, representative_ne};
 
 use super::super::contract::{Results, Row, Rows, col, table, table_of, uses};
 use super::super::figures::{Figure, IntervalPoint, Series};
@@ -813,16 +813,11 @@ fn hetx_table(rows: &Rows<'_>) -> TableData {
     t
 }
 
-/// The Pcrit the chart and the over-years series use: 0.02 when estimated, else the first.
-fn chosen_pcrit(rows: &Rows<'_>) -> Option<f64> {
-    let values: Vec<f64> = rows.iter().filter_map(|r| r.num(col::PCRIT)).collect();
-    values.iter().copied().find(|p| (p - 0.02).abs() < 1e-12).or_else(|| values.first().copied())
-}
-
 /// Ne per population with its interval, against the thresholds: the status step's chosen
-/// estimate when present, otherwise the latest LD estimate, otherwise the temporal one.
+/// estimate when present, otherwise the estimate that represents the population's latest
+/// estimated year by the SDK's default preference (the rule `status` applies).
 fn ne_chart(ctx: &Context<'_>, extras: &mut Extras) -> Option<String> {
-    let (points, source) = status_points(ctx).or_else(|| ld_points(ctx)).or_else(|| temporal_points(ctx))?;
+    let (points, source) = status_points(ctx).or_else(|| representative_points(ctx))?;
     if points.is_empty() {
         return None;
     }
@@ -864,75 +859,47 @@ fn status_points(ctx: &Context<'_>) -> Option<Points> {
     Some((points, format!("the estimate chosen by step \"{}\"", step.id)))
 }
 
-fn ld_points(ctx: &Context<'_>) -> Option<Points> {
-    let step = ctx.results.step(uses::NE_LD)?;
-    let rows = table_of(step, table::ESTIMATES)?;
-    let pcrit = chosen_pcrit(&rows);
-    let at_pcrit: Vec<Row<'_>> = rows.iter().filter(|r| r.num(col::PCRIT) == pcrit).collect();
-    let mut points = Vec::new();
-    for population in ctx.populations {
-        let Some(row) = at_pcrit
-            .iter()
-            .filter(|r| r.text(col::POPULATION) == Some(population.as_str()))
-            .max_by_key(|r| r.int(col::YEAR))
-        else {
-            continue;
-        };
-        let Some(value) = row.num(col::NE) else { continue };
-        // The recommended interval first (resampling individuals), then the loci jackknife,
-        // then the parametric one.
-        let (low, high) = [
-            (col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH),
-            (col::NE_JACK_LOW, col::NE_JACK_HIGH),
-            (col::NE_PARAM_LOW, col::NE_PARAM_HIGH),
-        ]
-        .into_iter()
-        .map(|(l, h)| (row.num(l), row.num(h)))
-        .find(|(l, h)| l.is_some() || h.is_some())
-        .unwrap_or((None, None));
-        points.push(IntervalPoint {
-            label: format!("{population} {}", row.label(col::YEAR).unwrap_or_default()),
-            style: ctx.style_of(population),
-            value,
-            low,
-            high,
-        });
+/// Without a status step: per population, the latest year any Ne step estimated, and the
+/// estimate that represents it by the default preference.
+fn representative_points(ctx: &Context<'_>) -> Option<Points> {
+    let steps = &ctx.results.doc().steps;
+    let preference = NeSource::default_preference();
+    let groups: Vec<(String, i32)> = [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX]
+        .iter()
+        .flat_map(|u| ctx.results.steps(u))
+        .flat_map(estimated_groups)
+        .collect();
+    if groups.is_empty() {
+        return None;
     }
-    let pcrit_text = pcrit.map_or_else(String::new, |p| format!(", Pcrit = {}", format::significant(p, 2)));
-    Some((points, format!("LD estimate of the latest sample, step \"{}\"{pcrit_text}", step.id)))
-}
-
-fn temporal_points(ctx: &Context<'_>) -> Option<Points> {
-    let step = ctx.results.step(uses::NE_TEMPORAL)?;
-    let rows = table_of(step, table::ESTIMATES)?;
     let points = ctx
         .populations
         .iter()
         .filter_map(|population| {
-            let row = rows
-                .iter()
-                .filter(|r| r.text(col::POPULATION) == Some(population.as_str()))
-                .max_by_key(|r| (r.int(col::YEAR_END), std::cmp::Reverse(r.int(col::YEAR_START))))?;
+            let year = groups.iter().filter(|(p, _)| p == population).map(|(_, y)| *y).max()?;
+            let chosen = representative_ne(steps, population, year, &preference)?;
             Some(IntervalPoint {
-                label: population.clone(),
+                label: format!("{population} {year}"),
                 style: ctx.style_of(population),
-                value: row.num(col::NE_FS)?,
-                low: row.num(col::NE_LOW),
-                high: row.num(col::NE_HIGH),
+                value: chosen.ne,
+                low: chosen.low,
+                high: chosen.high,
             })
         })
         .collect();
-    Some((points, format!("temporal estimate over the longest interval, step \"{}\"", step.id)))
+    Some((points, "the estimate of each population's latest sample, by the default choice of source".to_string()))
 }
 
-/// LD Ne over sampling years per population (log axis), when there are at least two years.
+/// LD Ne over sampling years per population (log axis), when there are at least two years;
+/// each year's value is the LD estimate that represents it (its criterion follows that
+/// sample's size, as in `status` and `trend`).
 fn ne_over_years(ctx: &Context<'_>, extras: &mut Extras) {
     let Some(step) = ctx.results.step(uses::NE_LD) else { return };
-    let Some(rows) = table_of(step, table::ESTIMATES) else { return };
-    let pcrit = chosen_pcrit(&rows);
+    let ld_only = [NeSource::Ld(LdChoice::BySampleSize)];
     let slopes = trend_slopes(ctx, &format!("ne:{}", step.id));
-    let values = rows.iter().filter(|r| r.num(col::PCRIT) == pcrit).filter_map(|r| {
-        Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::NE).filter(|v| v.is_finite())?))
+    let values = estimated_groups(step).into_iter().filter_map(|(population, year)| {
+        let chosen = representative_ne(std::slice::from_ref(step), &population, year, &ld_only)?;
+        Some((population, f64::from(year), Some(chosen.ne).filter(|v| v.is_finite())?))
     });
     let series = series_by_population(ctx, values, &slopes);
     if series.iter().any(|s| s.points.len() >= 2) {

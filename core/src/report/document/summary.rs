@@ -29,6 +29,8 @@ pub struct Summary {
     pub table: TableData,
     /// Shares of populations above each threshold (the status step's `indicator`).
     pub indicator: Option<TableData>,
+    /// How the status step chose each population's Ne (its `prefer` order), in words.
+    pub ne_rule: Option<String>,
 }
 
 /// What the summary says about one population.
@@ -58,10 +60,16 @@ pub struct StatusFacts {
     pub ne: String,
     /// Its 95 % interval, when given.
     pub ne_ci: Option<String>,
-    /// Which estimate the status step chose.
+    /// Which estimate the status step chose, in words.
     pub method: Option<String>,
-    /// The step's category.
+    /// The same, short, for the table.
+    pub method_short: Option<String>,
+    /// Harmonic-mean sample size of an LD estimate.
+    pub s: Option<String>,
+    /// The band of the point estimate.
     pub category: String,
+    /// What the interval does and does not exclude, in a sentence.
+    pub interval_note: Option<String>,
     /// Ne/Nc.
     pub ne_nc: Option<String>,
 }
@@ -157,6 +165,7 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
         horizon_generations,
         table: status_table(&populations),
         indicator: status.and_then(|s| table_of(s, table::INDICATOR)).filter(|t| !t.is_empty()).map(|t| readable(&t)),
+        ne_rule: status.and_then(|_| ne_rule(ctx)),
         populations,
     }
 }
@@ -174,16 +183,16 @@ fn horizon(ctx: &Context<'_>) -> (Option<String>, Option<String>) {
 }
 
 fn status_facts(row: &Row<'_>) -> StatusFacts {
-    let ci = match (row.num(col::NE_LOW), row.num(col::NE_HIGH)) {
-        (None, None) => None,
-        (low, high) => Some(format::interval(low, high, NumberStyle::EffectiveSize)),
-    };
+    let method = row.text(col::NE_METHOD);
     StatusFacts {
-        year: row.label(col::YEAR),
+        year: row.label(col::NE_YEAR).or_else(|| row.label(col::YEAR)),
         ne: format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
-        ne_ci: ci,
-        method: row.text(col::NE_METHOD).map(format::ne_method),
+        ne_ci: interval_text(row, col::NE_LOW, col::NE_HIGH, NumberStyle::EffectiveSize),
+        method: method.map(format::ne_method),
+        method_short: method.map(format::ne_method_short),
+        s: row.num(col::S).map(|s| format::short(s, 3)),
         category: row.label(col::CATEGORY).unwrap_or_else(|| format::UNDEFINED.into()),
+        interval_note: row.text(col::INTERVAL_NOTE).map(str::to_string),
         ne_nc: row.num(col::NE_NC).map(|v| format::fixed(v, 2)),
     }
 }
@@ -280,28 +289,37 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
     let mut t = TableData::new(&[
         ("Population", false),
         ("Ne (95 % CI)", true),
+        ("Estimate", false),
+        ("S", true),
         ("Category", false),
-        ("Year", true),
+        ("Ne/Nc", true),
         ("Ho", true),
         ("He", true),
         ("F", true),
         ("He trend", false),
     ]);
     for p in populations {
-        let ne = p.status.as_ref().map_or_else(
-            || format::UNDEFINED.to_string(),
-            |s| match &s.ne_ci {
-                Some(ci) => format!("{} ({ci})", s.ne),
-                None => s.ne.clone(),
-            },
-        );
         let undefined = || format::UNDEFINED.to_string();
+        let status = p.status.as_ref();
+        let ne = status.map_or_else(undefined, |s| match &s.ne_ci {
+            Some(ci) => format!("{} ({ci})", s.ne),
+            None => s.ne.clone(),
+        });
+        let estimate = status.and_then(|s| {
+            let method = s.method_short.clone()?;
+            Some(match &s.year {
+                Some(year) => format!("{method}, {year}"),
+                None => method,
+            })
+        });
         let d = p.diversity.as_ref();
         t.push(vec![
             p.name.clone(),
             ne,
-            p.status.as_ref().map_or_else(undefined, |s| s.category.clone()),
-            d.map_or_else(undefined, |d| d.year.clone()),
+            estimate.unwrap_or_else(undefined),
+            status.and_then(|s| s.s.clone()).unwrap_or_else(undefined),
+            status.map_or_else(undefined, |s| s.category.clone()),
+            status.and_then(|s| s.ne_nc.clone()).unwrap_or_else(undefined),
             d.map_or_else(undefined, |d| d.ho.clone()),
             d.map_or_else(undefined, |d| d.he.clone()),
             d.map_or_else(undefined, |d| d.f.clone()),
@@ -310,6 +328,13 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
     }
     t.drop_empty_columns(&["Population", "Ho", "He", "F"]);
     t
+}
+
+/// The rule by which the status step chose each population's Ne, in a sentence.
+fn ne_rule(ctx: &Context<'_>) -> Option<String> {
+    let prefer = ctx.param(uses::STATUS, "prefer")?.as_array()?;
+    let words: Vec<&str> = prefer.iter().filter_map(serde_json::Value::as_str).collect();
+    (!words.is_empty()).then(|| format::ne_preference(&words))
 }
 
 pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<ProjectionSection> {

@@ -26,7 +26,7 @@
 //!
 //! # Category and interval (thresholds from `[report] thresholds`, default 50/500)
 //! See [`category`]. `category` is the band of the **point estimate**: by the labels in
-//! `labels` (one per band, lowest first; by default `below 50`, `50–500`, `above 500`; a value
+//! `labels` (one per band, lowest first; by default `below 50`, `50–500`, `500 or more`; a value
 //! equal to a threshold meets it), `unknown` without an estimate, `not estimable` when the
 //! interval is ∞–∞. Beside it, the interval **reaches** a threshold T when low < T ≤ high (Ne
 //! values on both sides of T are compatible with the data): `interval_reaches` lists those
@@ -193,7 +193,7 @@ pub fn descriptor() -> Descriptor {
         "labels",
         ParamKind::TextList { choices: Vec::new() },
         Value::Null,
-        "one label per threshold band, lowest first; null = \"below 50\", \"50–500\", \"above 500\" for [50, 500]",
+        "one label per threshold band, lowest first; null = \"below 50\", \"50–500\", \"500 or more\" for [50, 500]",
     )
     .param(
         "year",

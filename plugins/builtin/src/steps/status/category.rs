@@ -47,13 +47,14 @@ pub fn thresholds_reached(interval: (f64, f64), thresholds: &[f64]) -> Vec<usize
     (0..thresholds.len()).filter(|&i| low < thresholds[i] && thresholds[i] <= high).collect()
 }
 
-/// The default band labels: `below t₁`, `t₁–t₂`, …, `above t_k`.
+/// The default band labels: `below t₁`, `t₁–t₂`, …, `t_k or more` (a value equal to a threshold
+/// meets it, so the top band starts at t_k itself).
 pub fn default_labels(thresholds: &[f64]) -> Vec<String> {
     let text: Vec<String> = thresholds.iter().map(|&t| format_number(t)).collect();
     let Some(first) = text.first() else { return vec!["any size".into()] };
     let mut labels = vec![format!("below {first}")];
     labels.extend(text.windows(2).map(|pair| format!("{}–{}", pair[0], pair[1])));
-    labels.push(format!("above {}", text[text.len() - 1]));
+    labels.push(format!("{} or more", text[text.len() - 1]));
     labels
 }
 

@@ -179,8 +179,8 @@ fn categories_against_50_500() {
     assert_eq!(label(Some(49.9), &th), "below 50");
     assert_eq!(label(Some(50.0), &th), "50–500");
     assert_eq!(label(Some(499.0), &th), "50–500");
-    assert_eq!(label(Some(500.0), &th), "above 500");
-    assert_eq!(label(Some(f64::INFINITY), &th), "above 500");
+    assert_eq!(label(Some(500.0), &th), "500 or more");
+    assert_eq!(label(Some(f64::INFINITY), &th), "500 or more");
     assert_eq!(label(None, &th), "unknown");
     assert_eq!(categorise(Some(f64::INFINITY), false, &th).label(&default_labels(&th)), "not estimable");
 }
@@ -189,10 +189,10 @@ fn categories_against_50_500() {
 #[test]
 fn categories_against_100_1000() {
     let th = [100.0, 1000.0];
-    assert_eq!(default_labels(&th), vec!["below 100", "100–1000", "above 1000"]);
+    assert_eq!(default_labels(&th), vec!["below 100", "100–1000", "1000 or more"]);
     assert_eq!(label(Some(99.0), &th), "below 100");
     assert_eq!(label(Some(100.0), &th), "100–1000");
-    assert_eq!(label(Some(1000.0), &th), "above 1000");
+    assert_eq!(label(Some(1000.0), &th), "1000 or more");
     // 60 is "50–500" with 50/500 but "below 100" here.
     assert_eq!(label(Some(60.0), &th), "below 100");
 }
@@ -242,7 +242,7 @@ fn a_low_point_with_an_open_interval_keeps_its_band() {
 /// 0.900879, at 80: 0.854926, at 200: 0.939340; f_drift = 0.099121, at 200 (f_drift_low)
 /// 0.060660, at 80 (f_drift_high) 0.145074; 10% lost after ln 0.9/ln(1 − 1/240) = 25.2338
 /// generations = 100.935 years. FIS 0.05 (0.01–0.09) is read as diversity gives it. South:
-/// temporal 600 (300–∞) → "above 500", interval reaching 500; West: "unknown".
+/// temporal 600 (300–∞) → "500 or more", interval reaching 500; West: "unknown".
 #[test]
 fn populations_table_through_the_step() {
     let output = default_run();
@@ -272,7 +272,7 @@ fn populations_table_through_the_step() {
     assert_close(number(pops, north, "generations_to_lose_10").unwrap(), 25.2338, 1e-4);
     assert_close(number(pops, north, "years_to_lose_10").unwrap(), 100.935, 1e-3);
     let south = row_with(pops, "population", "South");
-    assert_eq!(text(pops, south, "category"), Some("above 500"));
+    assert_eq!(text(pops, south, "category"), Some("500 or more"));
     assert_eq!(text(pops, south, "interval_reaches"), Some("500"));
     assert_eq!(text(pops, south, "ne_method"), Some("temporal"));
     assert_eq!(number(pops, south, "ne_year"), Some(2020.0));
@@ -363,7 +363,7 @@ fn indicator_counts_point_and_lower_bound() {
 }
 
 /// At exactly 500 a population is not "> 500" (GBF indicator A.4; Hoban et al. 2020), by
-/// point or by lower bound, though its category band (met at equality) is "above 500"; 500.5
+/// point or by lower bound, though its category band (met at equality) is "500 or more"; 500.5
 /// counts.
 #[test]
 fn indicator_threshold_is_strict_at_exactly_500() {
@@ -377,7 +377,7 @@ fn indicator_threshold_is_strict_at_exactly_500() {
         (Some(0.0), Some(0.0))
     );
     let pops = table(&output, "populations");
-    assert_eq!(text(pops, row_with(pops, "population", "South"), "category"), Some("above 500"));
+    assert_eq!(text(pops, row_with(pops, "population", "South"), "category"), Some("500 or more"));
     let estimates = results[2].tables.get_mut("estimates").unwrap();
     estimates.rows[1] = vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(500.5), n(500.5), n(800.0)];
     let output = run_status(&results, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
@@ -534,7 +534,7 @@ fn infinite_ne_keeps_everything() {
     assert_eq!(number(pops, north, "h_retained"), Some(1.0));
     assert_eq!(number(pops, north, "f_drift"), Some(0.0));
     assert_eq!(crate::test_support::cell(pops, north, "generations_to_lose_10"), &Cell::Inf);
-    assert_eq!(text(pops, north, "category"), Some("above 500"));
+    assert_eq!(text(pops, north, "category"), Some("500 or more"));
     let infinite = findings_with(&output, "infinite-ne");
     assert!(
         infinite[0].message.ends_with(": North 2020 (ne, ne_high, ne_nc, generations_to_lose_10, years_to_lose_10)"),
@@ -600,7 +600,7 @@ fn bad_settings_are_refused_with_help() {
         "{}",
         err.message
     );
-    assert!(err.message.contains("\"below 50\", \"50–500\", \"above 500\""), "{}", err.message);
+    assert!(err.message.contains("\"below 50\", \"50–500\", \"500 or more\""), "{}", err.message);
     let err = run_status(&earlier_results(), &assessment(&[500.0, 50.0], Some(4.0)), json!({})).unwrap_err();
     assert!(err.message.contains("[report] thresholds = [500, 50] must be positive and ascending"), "{}", err.message);
 }
