@@ -39,8 +39,24 @@ pub fn bootstrap_loci(
     rng: &mut ChaCha8Rng,
     mut statistic: impl FnMut(&[usize]) -> Option<f64>,
 ) -> Vec<f64> {
+    let [values] = bootstrap_loci_each(n_loci, replicates, rng, |sampled| [statistic(sampled)]);
+    values
+}
+
+/// Bootstrap replicates of K statistics computed from the same draws: each replicate draws
+/// `n_loci` indices with replacement once and passes them to `statistics`, which returns the K
+/// values of that replicate. Entry k of the result holds statistic k's defined (finite)
+/// replicate values, in draw order; a replicate undefined for one statistic is skipped for that
+/// statistic only. The draws are those of [`bootstrap_loci`], so statistic k here equals
+/// `bootstrap_loci` of statistic k alone with the same stream.
+pub fn bootstrap_loci_each<const K: usize>(
+    n_loci: usize,
+    replicates: usize,
+    rng: &mut ChaCha8Rng,
+    mut statistics: impl FnMut(&[usize]) -> [Option<f64>; K],
+) -> [Vec<f64>; K] {
     let mut indices = vec![0usize; n_loci];
-    let mut values = Vec::with_capacity(replicates);
+    let mut values: [Vec<f64>; K] = std::array::from_fn(|_| Vec::with_capacity(replicates));
     if n_loci == 0 {
         return values;
     }
@@ -48,8 +64,8 @@ pub fn bootstrap_loci(
         for slot in indices.iter_mut() {
             *slot = rng.random_range(0..n_loci);
         }
-        if let Some(v) = statistic(&indices).filter(|v| v.is_finite()) {
-            values.push(v);
+        for (kept, value) in values.iter_mut().zip(statistics(&indices)) {
+            kept.extend(value.filter(|v| v.is_finite()));
         }
     }
     values
@@ -144,6 +160,21 @@ mod tests {
         assert!(a.iter().all(|m| (0.0..=9.0).contains(m)));
     }
 
+    /// Several statistics share one set of draws: each equals the single-statistic bootstrap of
+    /// the same stream value for value, and a replicate undefined for one statistic is dropped
+    /// from that statistic only (common practice: one resampling serves several estimators).
+    #[test]
+    fn several_statistics_share_the_draws() {
+        let mean_of = |idx: &[usize]| Some(idx.iter().sum::<usize>() as f64 / idx.len() as f64);
+        let first_even = |idx: &[usize]| idx[0].is_multiple_of(2).then_some(idx[0] as f64);
+        let [means, firsts] =
+            bootstrap_loci_each(10, 50, &mut rng(Seed(1), "fis"), |idx| [mean_of(idx), first_even(idx)]);
+        assert_eq!(means, bootstrap_loci(10, 50, &mut rng(Seed(1), "fis"), mean_of));
+        assert_eq!(firsts, bootstrap_loci(10, 50, &mut rng(Seed(1), "fis"), first_even));
+        assert_eq!(means.len(), 50);
+        assert!(!firsts.is_empty() && firsts.len() < 50, "{}", firsts.len());
+    }
+
     /// The jackknife SE of a mean equals the usual SE s/√L (a textbook identity; Efron &
     /// Tibshirani 1993, §11.2). Data 1..5: s = 1.5811, SE = 0.70711.
     #[test]
@@ -160,10 +191,15 @@ mod tests {
     /// other loci, to rounding (common practice: a ratio of sums, as in ne-temporal's F̃).
     #[test]
     fn linear_leave_one_out_matches_recomputation() {
-        let terms: Vec<[f64; 2]> = (1..=40).map(|l| [f64::from(l).sin().abs(), 1.0 + f64::from(l).cos().abs()]).collect();
+        let terms: Vec<[f64; 2]> =
+            (1..=40).map(|l| [f64::from(l).sin().abs(), 1.0 + f64::from(l).cos().abs()]).collect();
         let loo = jackknife_loci(&terms, |sums, _| Some(sums[0] / sums[1]));
         for (left_out, value) in loo.iter().enumerate() {
-            let (num, den) = terms.iter().enumerate().filter(|(l, _)| *l != left_out).fold((0.0, 0.0), |(n, d), (_, t)| (n + t[0], d + t[1]));
+            let (num, den) = terms
+                .iter()
+                .enumerate()
+                .filter(|(l, _)| *l != left_out)
+                .fold((0.0, 0.0), |(n, d), (_, t)| (n + t[0], d + t[1]));
             assert!((value.unwrap() - num / den).abs() < 1e-12, "{left_out}");
         }
     }

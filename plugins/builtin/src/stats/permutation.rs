@@ -1,15 +1,27 @@
-//! Permutation tests: an in-place shuffle drawn from the step's seeded stream, the tally of
-//! replicates at least as extreme as the observed statistic, and the Mantel (1967) test of
-//! association between two distance matrices.
+//! Permutation tests: an in-place shuffle drawn from the step's seeded stream, the complete
+//! enumeration of all orders of a few labels, the tally of arrangements at least as extreme as
+//! the observed statistic, and the Mantel (1967) test of association between two distance
+//! matrices.
 //!
 //! # Convention
-//! With B defined replicates T*, of which `as_extreme` satisfy T* ≥ T (one-sided, large values
-//! extreme), the p-value is p = (1 + as_extreme)/(B + 1): the observed arrangement counts as one
-//! of the equally likely arrangements under the null, so p is never 0 (METHODS §2.1). A
-//! replicate whose statistic is undefined (`None`, or not finite) is skipped and not counted
-//! in B. T* counts as "at least as extreme" when T* ≥ T − [`TIE_TOLERANCE`]·max(1, |T|), so
-//! arrangements whose statistic equals the observed one up to rounding count as ties, whatever
-//! order the floating-point sums took.
+//! *Random* test: with B defined replicates T*, of which `as_extreme` satisfy T* ≥ T
+//! (one-sided, large values extreme), the p-value is p = (1 + as_extreme)/(B + 1): the observed
+//! arrangement counts as one of the equally likely arrangements under the null, so p is never 0
+//! and never below 1/(B + 1) (METHODS §2.1).
+//!
+//! *Exact* test: when n labels are permuted freely and their n! distinct orders are no more than
+//! the replicates asked for, every order is evaluated once instead ([`label_permutation_test`];
+//! the permutation distribution is then known exactly, not estimated; Good 2005,
+//! *Permutation, Parametric and Bootstrap Tests of Hypotheses*, 3rd ed., Springer). With B defined orders (the observed one
+//! among them), p = as_extreme/B, the share of orders whose statistic is at least as extreme,
+//! the observed order included; the smallest attainable p is 1/B (1/24 for four labels).
+//! Drawing 9,999 random orders of four labels would only estimate these 24 values and report a
+//! precision the test cannot have.
+//!
+//! Either way a replicate whose statistic is undefined (`None`, or not finite) is skipped and
+//! not counted in B. T* counts as "at least as extreme" when
+//! T* ≥ T − [`TIE_TOLERANCE`]·max(1, |T|), so arrangements whose statistic equals the observed
+//! one up to rounding count as ties, whatever order the floating-point sums took.
 //!
 //! # Allocation
 //! [`permutation_test`] shuffles the caller's label slice in place and hands it to the
@@ -19,7 +31,8 @@
 //!
 //! # Citations
 //! Mantel N (1967) The detection of disease clustering and a generalized regression approach.
-//! *Cancer Res* 27:209–220. Fisher–Yates shuffle as in Knuth DE (1997) *The Art of Computer
+//! *Cancer Res* 27:209–220. Heap BR (1963) Permutations by interchanges. *The Computer Journal*
+//! 6:293–294. Fisher–Yates shuffle as in Knuth DE (1997) *The Art of Computer
 //! Programming* vol. 2, 3rd ed., §3.4.2 Algorithm P.
 
 use rand::RngExt;
@@ -32,21 +45,58 @@ approach. Cancer Research 27:209–220.";
 /// Relative tolerance under which a replicate's statistic ties with the observed one.
 pub const TIE_TOLERANCE: f64 = 1e-10;
 
+/// How the arrangements of a permutation test were chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Enumeration {
+    /// Every distinct order once, the observed one included.
+    Exact,
+    /// Orders drawn at random from the seeded stream.
+    Random,
+}
+
+impl Enumeration {
+    /// The word in the tables: `exact` or `random`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Enumeration::Exact => "exact",
+            Enumeration::Random => "random",
+        }
+    }
+}
+
 /// The outcome of a permutation test.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct PermutationOutcome {
     /// The observed statistic T.
     pub observed: f64,
-    /// Replicates with a defined statistic (B).
+    /// Arrangements evaluated with a defined statistic (B): random replicates, or every order
+    /// (the observed one included) of an exact test.
     pub replicates: usize,
-    /// Replicates with T* ≥ T (ties included).
+    /// Arrangements with T* ≥ T (ties included).
     pub as_extreme: usize,
+    /// Whether every order was evaluated or a random sample of them.
+    pub enumeration: Enumeration,
 }
 
 impl PermutationOutcome {
-    /// p = (1 + as_extreme)/(B + 1).
+    fn new(observed: f64, enumeration: Enumeration) -> PermutationOutcome {
+        PermutationOutcome { observed, replicates: 0, as_extreme: 0, enumeration }
+    }
+
+    /// Random: p = (1 + as_extreme)/(B + 1); exact: p = as_extreme/B (module doc).
     pub fn p_value(&self) -> f64 {
-        (1.0 + self.as_extreme as f64) / (self.replicates as f64 + 1.0)
+        match self.enumeration {
+            Enumeration::Random => (1.0 + self.as_extreme as f64) / (self.replicates as f64 + 1.0),
+            Enumeration::Exact => self.as_extreme as f64 / self.replicates as f64,
+        }
+    }
+
+    /// The smallest p the test can give: 1/(B + 1) for a random test, 1/B for an exact one.
+    pub fn smallest_p_value(&self) -> f64 {
+        match self.enumeration {
+            Enumeration::Random => 1.0 / (self.replicates as f64 + 1.0),
+            Enumeration::Exact => 1.0 / self.replicates as f64,
+        }
     }
 
     /// Counts one replicate's statistic; an undefined or non-finite one is skipped.
@@ -87,12 +137,70 @@ pub fn permutation_test<T>(
     if !observed.is_finite() || replicates == 0 {
         return None;
     }
-    let mut outcome = PermutationOutcome { observed, replicates: 0, as_extreme: 0 };
+    let mut outcome = PermutationOutcome::new(observed, Enumeration::Random);
     for _ in 0..replicates {
         shuffle(labels, rng);
         outcome.tally(statistic(labels));
     }
     Some(outcome)
+}
+
+/// The number of distinct orders of `labels` labels, `labels`!; `None` when it exceeds `usize`.
+pub fn orders(labels: usize) -> Option<usize> {
+    (2..=labels).try_fold(1usize, |product, k| product.checked_mul(k))
+}
+
+/// Evaluates `statistic` on every order of `labels` exactly once (Heap's algorithm: each order
+/// differs from the previous one by one swap; Heap 1963, *The Computer Journal* 6:293–294, in
+/// the iterative form of Sedgewick 1977, *ACM Computing Surveys* 9:137–164), starting with the
+/// order given, which is the observed one. p = as_extreme/B over the defined orders (module
+/// doc). Leaves `labels` in some order of its items. `None` when `observed` is not finite.
+pub fn exhaustive_permutation_test<T>(
+    labels: &mut [T],
+    observed: f64,
+    mut statistic: impl FnMut(&[T]) -> Option<f64>,
+) -> Option<PermutationOutcome> {
+    if !observed.is_finite() {
+        return None;
+    }
+    let mut outcome = PermutationOutcome::new(observed, Enumeration::Exact);
+    outcome.tally(statistic(labels));
+    // counters[i] counts the swaps made at level i since level i was last reset.
+    let mut counters = vec![0usize; labels.len()];
+    let mut level = 1;
+    while level < labels.len() {
+        if counters[level] < level {
+            let other = if level % 2 == 0 { 0 } else { counters[level] };
+            labels.swap(other, level);
+            outcome.tally(statistic(labels));
+            counters[level] += 1;
+            level = 1;
+        } else {
+            counters[level] = 0;
+            level += 1;
+        }
+    }
+    Some(outcome)
+}
+
+/// A test that permutes `labels` freely: exact over all n! orders when n! is not more than
+/// `replicates` ([`exhaustive_permutation_test`]), otherwise `replicates` random orders
+/// ([`permutation_test`]). The starting order of `labels` is the observed one. `None` when
+/// `observed` is not finite or `replicates` is 0.
+pub fn label_permutation_test<T>(
+    labels: &mut [T],
+    observed: f64,
+    replicates: usize,
+    rng: &mut ChaCha8Rng,
+    statistic: impl FnMut(&[T]) -> Option<f64>,
+) -> Option<PermutationOutcome> {
+    if replicates == 0 {
+        return None;
+    }
+    match orders(labels.len()) {
+        Some(all) if all <= replicates => exhaustive_permutation_test(labels, observed, statistic),
+        _ => permutation_test(labels, observed, replicates, rng, statistic),
+    }
 }
 
 /// A statistic that evaluates many arrangements in one pass over its data (each pass over
@@ -120,7 +228,7 @@ pub fn permutation_test_in_batches<T, S: BatchedStatistic<T>>(
     if !observed.is_finite() || replicates == 0 {
         return None;
     }
-    let mut outcome = PermutationOutcome { observed, replicates: 0, as_extreme: 0 };
+    let mut outcome = PermutationOutcome::new(observed, Enumeration::Random);
     let mut values = Vec::with_capacity(S::BATCH);
     let mut done = 0;
     while done < replicates {
@@ -172,9 +280,10 @@ impl SymmetricMatrix {
 /// The Mantel test of a positive association between `fixed` and `permuted` (same objects, same
 /// order): the statistic is Pearson's r over the pairs i < j where both entries are present;
 /// each replicate relabels the objects of `permuted` (rows and columns together), so a pair
-/// missing in either matrix drops out of that replicate. One-sided: large r is extreme.
-/// `None` when the matrices differ in size, fewer than three pairs are present, r is undefined
-/// or `replicates` is 0.
+/// missing in either matrix drops out of that replicate. One-sided: large r is extreme. With n
+/// objects and n! ≤ `replicates` every relabelling is evaluated once (exact test), otherwise
+/// `replicates` random ones ([`label_permutation_test`]). `None` when the matrices differ in
+/// size, fewer than three pairs are present, r is undefined or `replicates` is 0.
 pub fn mantel_test(
     fixed: &SymmetricMatrix,
     permuted: &SymmetricMatrix,
@@ -186,7 +295,9 @@ pub fn mantel_test(
     }
     let mut labels: Vec<usize> = (0..fixed.size()).collect();
     let observed = relabelled_correlation(fixed, permuted, &labels)?;
-    permutation_test(&mut labels, observed, replicates, rng, |order| relabelled_correlation(fixed, permuted, order))
+    label_permutation_test(&mut labels, observed, replicates, rng, |order| {
+        relabelled_correlation(fixed, permuted, order)
+    })
 }
 
 /// Pearson's r between `fixed(i, j)` and `permuted(order[i], order[j])` over the pairs i < j
@@ -295,9 +406,9 @@ mod tests {
     /// Mantel (1967): with six objects at irregular positions on a line, a matrix that is a
     /// linear function of their distances has r = 1, and only the identity among the
     /// 6! = 720 arrangements reaches it (no other relabelling preserves those distances), so
-    /// p ≈ 1/720 plus the few arrangements with r close to 1; the bound 0.02 leaves room for
-    /// sampling 9999 random arrangements. The same matrix with its objects relabelled by a
-    /// fixed shuffle shows no association (r < 0.5, p > 0.1).
+    /// p = 1/720 plus the few arrangements with r close to 1 (all 720 are evaluated, since
+    /// 720 ≤ 9999 asked). The same matrix with its objects relabelled by a fixed shuffle shows
+    /// no association (r < 0.5, p > 0.1).
     #[test]
     fn mantel_detects_structure_and_not_its_absence() {
         let positions: [f64; 6] = [0.0, 1.0, 2.5, 4.0, 7.0, 11.0];
@@ -325,6 +436,90 @@ mod tests {
         let random = mantel_test(&distance, &unrelated, 9999, &mut rng(Seed(3), "mantel")).unwrap();
         assert!(random.observed < 0.5, "{random:?}");
         assert!(random.p_value() > 0.1, "{random:?}");
+    }
+
+    /// Complete enumeration (Heap 1963): four labels give each of the 4! = 24 orders exactly
+    /// once, the observed order first, when 24 or more permutations are asked. p = as_extreme/24
+    /// equals the share counted by brute force over the 24 orders (four nested loops, the
+    /// observed order included), so p is a whole number of 24ths, and the smallest attainable p
+    /// is 1/24 (common practice). 23 asked, or eight labels (8! = 40,320) with 999 asked, take
+    /// the random path: p_min = 1/(B + 1).
+    #[test]
+    fn few_labels_are_enumerated_exactly() {
+        let weight = |order: &[usize]| -> Option<f64> {
+            Some(order.iter().enumerate().map(|(i, &l)| ((i + 1) * (l * l + 1)) as f64).sum())
+        };
+        let start = [2usize, 0, 3, 1];
+        let observed = weight(&start).unwrap();
+        let mut seen = std::collections::BTreeSet::new();
+        let mut visited_first = None;
+        let mut labels = start;
+        let outcome = label_permutation_test(&mut labels, observed, 9999, &mut rng(Seed(1), "exact"), |order| {
+            visited_first.get_or_insert_with(|| order.to_vec());
+            seen.insert(order.to_vec());
+            weight(order)
+        })
+        .unwrap();
+        assert_eq!(visited_first, Some(start.to_vec()));
+        assert_eq!(seen.len(), 24);
+        assert_eq!((outcome.enumeration, outcome.replicates), (Enumeration::Exact, 24));
+        let mut as_extreme = 0;
+        for a in 0..4 {
+            for b in (0..4).filter(|&b| b != a) {
+                for c in (0..4).filter(|&c| c != a && c != b) {
+                    let d = 6 - a - b - c;
+                    as_extreme += usize::from(weight(&[a, b, c, d]).unwrap() >= observed);
+                }
+            }
+        }
+        assert_eq!(outcome.as_extreme, as_extreme);
+        assert!(as_extreme > 1 && as_extreme < 24, "{as_extreme}: the observed order is neither extreme");
+        assert_eq!(outcome.p_value(), as_extreme as f64 / 24.0);
+        assert_eq!(outcome.smallest_p_value(), 1.0 / 24.0);
+        assert_eq!(Enumeration::Exact.as_str(), "exact");
+
+        let mut labels = start;
+        let sampled = label_permutation_test(&mut labels, observed, 23, &mut rng(Seed(1), "r"), weight).unwrap();
+        assert_eq!((sampled.enumeration, sampled.replicates), (Enumeration::Random, 23));
+        let mut eight: Vec<usize> = (0..8).collect();
+        let observed = weight(&eight).unwrap();
+        let random = label_permutation_test(&mut eight, observed, 999, &mut rng(Seed(1), "r"), weight).unwrap();
+        assert_eq!((random.enumeration, random.replicates), (Enumeration::Random, 999));
+        assert_eq!(random.smallest_p_value(), 1.0 / 1000.0);
+        assert_eq!(Enumeration::Random.as_str(), "random");
+        assert_eq!((orders(4), orders(8), orders(0)), (Some(24), Some(40_320), Some(1)));
+        assert_eq!(orders(30), None, "30! overflows");
+        assert_eq!(label_permutation_test(&mut labels, observed, 0, &mut rng(Seed(1), "r"), weight), None);
+    }
+
+    /// Mantel (1967) over four objects: 24 relabellings, all evaluated when 9999 are asked, so
+    /// p is a whole number of 24ths and p_min = 1/24; over eight objects with 999 asked the
+    /// relabellings are drawn at random (8! = 40,320 > 999).
+    #[test]
+    fn mantel_test_is_exact_for_four_objects() {
+        let matrices = |n: usize| {
+            let positions: Vec<f64> = (0..n).map(|i| (i * i) as f64 + 0.5 * i as f64).collect();
+            let (mut distance, mut related) = (SymmetricMatrix::missing(n), SymmetricMatrix::missing(n));
+            for i in 0..n {
+                for j in (i + 1)..n {
+                    let d = (positions[i] - positions[j]).abs();
+                    distance.set(i, j, d);
+                    related.set(i, j, (d + (i * j % 3) as f64).ln());
+                }
+            }
+            (distance, related)
+        };
+        let (distance, related) = matrices(4);
+        let four = mantel_test(&distance, &related, 9999, &mut rng(Seed(2), "mantel")).unwrap();
+        assert_eq!((four.enumeration, four.replicates), (Enumeration::Exact, 24));
+        let in_24ths = four.p_value() * 24.0;
+        assert!((in_24ths - in_24ths.round()).abs() < 1e-9, "p = {}", four.p_value());
+        assert_eq!(four.p_value(), four.as_extreme as f64 / 24.0);
+        assert_eq!(four.smallest_p_value(), 1.0 / 24.0);
+        let (distance, related) = matrices(8);
+        let eight = mantel_test(&distance, &related, 999, &mut rng(Seed(2), "mantel")).unwrap();
+        assert_eq!((eight.enumeration, eight.replicates), (Enumeration::Random, 999));
+        assert_eq!(eight.smallest_p_value(), 1.0 / 1000.0);
     }
 
     /// Module doc: a pair missing in either matrix drops out; fewer than three pairs → `None`.

@@ -20,8 +20,13 @@
 //! polymorphic in the comparison) or no locus has n̄ > 1, with an `fst-undefined` finding.
 //!
 //! **Intervals**: 95 % percentile bootstrap over loci (`bootstrap` replicates; METHODS
-//! conventions), for each pair and each comparison set; `null` when `bootstrap` = 0 or fewer
-//! than two replicates are defined.
+//! conventions; Efron & Tibshirani 1993), for each pair and each comparison set, of θ̂, Jost's D
+//! and G″_ST. Each replicate draws the comparison's loci once (from the loci entering θ̂, which
+//! include every locus of the G_ST family) and recomputes all three from those loci, so the
+//! intervals come from the same resampled data and θ̂'s interval is that of a bootstrap of θ̂
+//! alone. A bound is `null` when `bootstrap` = 0 or fewer than two replicates give the statistic
+//! a defined value (a replicate drawing only loci monomorphic in the comparison has no D or
+//! G″_ST); `bootstrap` in `global` counts the replicates with a defined θ̂*.
 //!
 //! **Permutation test** (`fst_p`, pairs only): whole individuals (all loci, untyped cells
 //! included) are shuffled between the two groups keeping the group sizes, on the loci used for
@@ -42,7 +47,7 @@
 //! harmonic mean of per-locus D). `gst` (Nei 1973), `gst_p` (G′_ST, Hedrick 2005) and `gst_pp`
 //! (G″_ST, Meirmans & Hedrick 2011) use the Nei & Chesser (1983) estimators of Ĥ_S and Ĥ_T;
 //! `jost_d` uses Jost's (2008) own estimators. Where Ĥ_S = 1 or kĤ_T = Ĥ_S the measure is
-//! `null` with a `differentiation-undefined` finding.
+//! `null` with a `differentiation-undefined` finding. Their intervals are described under FST.
 //!
 //! # Isolation by distance
 //! For each comparison set with at least three populations that have latitude and longitude
@@ -50,26 +55,37 @@
 //! with the mean Earth radius 6371.0088 km (IUGG; Moritz 1980), the least-squares regression of
 //! θ̂/(1 − θ̂) on ln(distance in km) (Rousset 1997, two-dimensional habitat), and a Mantel
 //! (1967) test of a positive association between the two (Pearson's r, population labels
-//! permuted `mantel_permutations` times, one-sided). Pairs at zero distance, or with θ̂ `null`
-//! or ≥ 1, are left out (with a finding).
+//! permuted, one-sided; [`crate::stats::permutation`]). With *n* populations there are only n!
+//! orders of the labels: when n! ≤ `mantel_permutations` every order is evaluated once and p is
+//! exact (the share of orders, the observed one included, with r at least as large), otherwise
+//! `mantel_permutations` random orders give p = (1 + #{r* ≥ r})/(B + 1). `mantel_p_min` is the
+//! smallest p the test could give (1/n! or 1/(B + 1): 1/24 with four populations), and
+//! `mantel_method` says which way p was found. Pairs at zero distance, or with θ̂ `null` or ≥ 1,
+//! are left out (with a finding). When p > 0.05 an `ibd-not-significant` finding says that the
+//! fitted line is descriptive only.
 //!
 //! # Tables
 //! - `pairwise`: pop_a, pop_b, year (`null` when years are pooled), n_a, n_b (samples), loci
-//!   (loci entering θ̂: typed in both groups with n̄ > 1, monomorphic ones included), fst, fst_low, fst_high, fst_p, permutations (defined
-//!   replicates), jost_d, gst, gst_p (G′_ST), gst_pp (G″_ST).
+//!   (loci entering θ̂: typed in both groups with n̄ > 1, monomorphic ones included), fst,
+//!   fst_low, fst_high, fst_p, permutations (defined replicates), jost_d, jost_d_low,
+//!   jost_d_high, gst, gst_p (G′_ST), gst_pp (G″_ST), gst_pp_low, gst_pp_high.
 //! - `global`: comparison (in words), year, populations, samples, loci, fst, fst_low,
-//!   fst_high, bootstrap (defined replicates), jost_d, gst, gst_p, gst_pp.
+//!   fst_high, bootstrap (defined replicates), jost_d, jost_d_low, jost_d_high, gst, gst_p,
+//!   gst_pp, gst_pp_low, gst_pp_high.
 //! - `ibd` (when tested): year, pop_a, pop_b, distance_km, fst, fst_linearised.
 //! - `ibd_test` (when tested): year, populations, pairs, slope, intercept, r, mantel_p,
-//!   permutations.
+//!   mantel_p_min, permutations (orders evaluated), mantel_method (`exact` or `random`).
 //!
 //! # Findings
 //! `differentiation-scope` (info: the comparison sets and conventions), `low-sample-size`
 //! (warning, a group of fewer than 10 samples), `no-pairs` (info, a set with fewer than two
 //! groups), `locus-untyped-in-group` (info), `fst-undefined` and `differentiation-undefined`
-//! (warnings, a `null` estimate and why), `permutation-test-disabled` (info), `ibd-not-tested`
-//! (info), `bad-coordinates` and `ibd-pair-excluded` (warnings), and `differentiation-caution`
-//! (info: the cautions a reader needs before acting on these numbers).
+//! (warnings, a `null` estimate and why), `fst-interval-undefined` and
+//! `differentiation-interval-undefined` (info, an interval `null` beside a defined estimate),
+//! `permutation-test-disabled` (info), `ibd-not-tested` (info), `bad-coordinates` and
+//! `ibd-pair-excluded` (warnings), `ibd-not-significant` (info: Mantel p > 0.05, the line is
+//! descriptive only), and `differentiation-caution` (info: the cautions a reader needs before
+//! acting on these numbers).
 //!
 //! # Citations
 //! Weir & Cockerham (1984); Goudet et al. (1996); Efron & Tibshirani (1993); Nei (1973); Nei &
@@ -94,7 +110,7 @@ use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
-use crate::stats::bootstrap::rng;
+use crate::stats::bootstrap::{Interval, rng};
 use crate::stats::gst::{HEDRICK_2005, JOST_2008, MEIRMANS_HEDRICK_2011, NEI_1973, NEI_CHESSER_1983};
 use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test_in_batches};
 use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
@@ -121,9 +137,10 @@ pub struct Params {
     pub permutations: u32,
     /// Groups are (population, year) and pairs stay within a year when true.
     pub by_year: bool,
-    /// Bootstrap replicates over loci for the FST intervals (0 = no interval).
+    /// Bootstrap replicates over loci for the FST, D and G″ST intervals (0 = no interval).
     pub bootstrap: u32,
-    /// Permutations of population labels for the Mantel test (0 = no test).
+    /// Random permutations of population labels for the Mantel test (0 = no test); with n
+    /// populations and n! not more than this, all n! orders are evaluated instead.
     pub mantel_permutations: u32,
 }
 
@@ -132,7 +149,7 @@ pub fn descriptor() -> Descriptor {
     let count = ParamKind::Integer { min: 0, max: 1_000_000 };
     Descriptor::new(
         "differentiation",
-        "0.1.0",
+        "0.2.0",
         "Pairwise and global FST (Weir & Cockerham 1984) with permutation p-values and bootstrap intervals, \
          Jost's D, G″ST, and isolation by distance",
     )
@@ -152,13 +169,14 @@ pub fn descriptor() -> Descriptor {
         "bootstrap",
         count.clone(),
         json!(1000),
-        "bootstrap replicates over loci for the 95% FST intervals (0 = no interval)",
+        "bootstrap replicates over loci for the 95% intervals of FST, D and G″ST (0 = no interval)",
     )
     .param(
         "mantel_permutations",
         count,
         json!(9999),
-        "permutations of population labels for the Mantel test of isolation by distance (0 = no test)",
+        "permutations of population labels for the Mantel test (0 = no test); with n populations and n! ≤ this, all \
+         n! orders instead",
     )
 }
 
@@ -315,6 +333,16 @@ fn count_cell(count: usize) -> Cell {
     Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
 }
 
+/// The lower bound of an interval as a table cell (`null` without an interval).
+fn low(interval: Option<Interval>) -> Cell {
+    Cell::maybe(interval.map(|i| i.low))
+}
+
+/// The upper bound of an interval as a table cell (`null` without an interval).
+fn high(interval: Option<Interval>) -> Cell {
+    Cell::maybe(interval.map(|i| i.high))
+}
+
 fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
     let mut table = Table::new(&[
         "pop_a",
@@ -329,9 +357,13 @@ fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
         "fst_p",
         "permutations",
         "jost_d",
+        "jost_d_low",
+        "jost_d_high",
         "gst",
         "gst_p",
         "gst_pp",
+        "gst_pp_low",
+        "gst_pp_high",
     ]);
     for set in estimates {
         for pair in &set.pairs {
@@ -345,14 +377,18 @@ fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
                 count_cell(group_b.samples.len()),
                 count_cell(e.loci.len()),
                 Cell::maybe(e.theta),
-                Cell::maybe(e.interval.map(|i| i.low)),
-                Cell::maybe(e.interval.map(|i| i.high)),
+                low(e.intervals.fst),
+                high(e.intervals.fst),
                 Cell::maybe(pair.permutation.map(|p| p.p_value())),
                 pair.permutation.map_or(Cell::Null, |p| count_cell(p.replicates)),
                 Cell::maybe(e.indices.jost_d),
+                low(e.intervals.jost_d),
+                high(e.intervals.jost_d),
                 Cell::maybe(e.indices.gst),
                 Cell::maybe(e.indices.gst_prime),
                 Cell::maybe(e.indices.gst_double_prime),
+                low(e.intervals.gst_double_prime),
+                high(e.intervals.gst_double_prime),
             ])?;
         }
     }
@@ -371,9 +407,13 @@ fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
         "fst_high",
         "bootstrap",
         "jost_d",
+        "jost_d_low",
+        "jost_d_high",
         "gst",
         "gst_p",
         "gst_pp",
+        "gst_pp_low",
+        "gst_pp_high",
     ]);
     for set in estimates {
         let Some(e) = &set.global else { continue };
@@ -384,13 +424,17 @@ fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
             count_cell(set.set.groups.iter().map(|g| g.samples.len()).sum()),
             count_cell(e.loci.len()),
             Cell::maybe(e.theta),
-            Cell::maybe(e.interval.map(|i| i.low)),
-            Cell::maybe(e.interval.map(|i| i.high)),
+            low(e.intervals.fst),
+            high(e.intervals.fst),
             count_cell(e.bootstrap_replicates),
             Cell::maybe(e.indices.jost_d),
+            low(e.intervals.jost_d),
+            high(e.intervals.jost_d),
             Cell::maybe(e.indices.gst),
             Cell::maybe(e.indices.gst_prime),
             Cell::maybe(e.indices.gst_double_prime),
+            low(e.intervals.gst_double_prime),
+            high(e.intervals.gst_double_prime),
         ])?;
     }
     Ok(table)
@@ -412,8 +456,18 @@ fn ibd_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
 }
 
 fn ibd_test_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
-    let mut table =
-        Table::new(&["year", "populations", "pairs", "slope", "intercept", "r", "mantel_p", "permutations"]);
+    let mut table = Table::new(&[
+        "year",
+        "populations",
+        "pairs",
+        "slope",
+        "intercept",
+        "r",
+        "mantel_p",
+        "mantel_p_min",
+        "permutations",
+        "mantel_method",
+    ]);
     for test in &isolation.tests {
         table.push_row(vec![
             year_cell(test.year),
@@ -423,7 +477,9 @@ fn ibd_test_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
             Cell::maybe(test.intercept),
             Cell::maybe(test.correlation),
             Cell::maybe(test.mantel.map(|m| m.p_value())),
+            Cell::maybe(test.mantel.map(|m| m.smallest_p_value())),
             test.mantel.map_or(Cell::Null, |m| count_cell(m.replicates)),
+            test.mantel.map_or(Cell::Null, |m| Cell::text(m.enumeration.as_str())),
         ])?;
     }
     Ok(table)
@@ -479,7 +535,8 @@ fn scope_finding(estimates: &[SetEstimates<'_>], params: &Params) -> Finding {
     let message = format!(
         "differentiation compares {} (by_year = {}); FST is Weir & Cockerham's θ as a ratio of sums over alleles and \
          loci; jost_d, gst, gst_p (G′ST) and gst_pp (G″ST) are ratios of the averages of HS and HT over loci; \
-         intervals are 95% percentile bootstraps over loci ({} replicates)",
+         the intervals of FST, D and G″ST are 95% percentile bootstraps over loci ({} replicates, the same drawn \
+         loci for the three)",
         sets.join("; "),
         params.by_year,
         params.bootstrap

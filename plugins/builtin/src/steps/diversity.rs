@@ -33,29 +33,42 @@
 //! in the group is undefined and skipped; `fis_replicates` counts the replicates used.
 //!
 //! # Rarefaction
-//! The comparison set is every (population, year) group of the view with at least two samples;
-//! a group of one sample is left out (its `ar`, `par` are `null`, with a finding). At each
-//! locus, *g* = 2 × the smallest *n* over the compared groups, or 2 × `rarefaction_size` when
-//! that is given. A locus at which a compared group has fewer than two typed individuals (or
-//! fewer than `rarefaction_size`) is dropped from `ar` and `par` for every group, with one
-//! warning listing such loci, so every group's `ar` averages the same loci. Private richness
-//! counts alleles absent from every other compared group; with one group compared it is `null`.
-//! `rarefaction_copies` is *g* per locus, and in `by_group` the smallest *g* over the loci
-//! averaged.
+//! Allelic richness `ar` compares every (population, year) group of the view with at least two
+//! samples, so that it is on one scale across populations and years (the `trend` step follows
+//! it over years). At each locus *g* = 2 × the smallest *n* over those groups, or
+//! 2 × `rarefaction_size` when that is given.
+//!
+//! Private allelic richness `par` (Kalinowski 2004) compares the populations sampled in the same
+//! year: the comparison set of a group is the groups of its year with at least two samples, and
+//! *g* is taken from that set (2 × the smallest *n* among them at each locus, or
+//! 2 × `rarefaction_size`). Across years a population would be compared with itself, and an
+//! allele it carries in two sampling years would not count as private to it. A population that
+//! is the only one compared in its year has `par` `null` (`par-alone-in-year`). Because the two
+//! sets differ, so can their *g*: `rarefaction_copies` is the *g* of `ar` and
+//! `par_rarefaction_copies` that of `par` (per locus; in `by_group` the smallest over the loci
+//! averaged).
+//!
+//! A group of one sample is left out of both (its `ar`, `par` are `null`, with a finding). A
+//! locus at which a compared group has fewer than two typed individuals (or fewer than
+//! `rarefaction_size`) is dropped from `ar` for every group and from `par` for every group of
+//! that year, with one warning listing such loci, so every group's `ar` averages the same loci,
+//! and so do the `par` of the populations of one year.
 //!
 //! # Tables
 //! - `by_locus`: population, year, locus, n, alleles, ho, he, f, fis, effective_alleles, ar,
-//!   par, rarefaction_copies.
+//!   par, rarefaction_copies, par_rarefaction_copies.
 //! - `by_group`: population, year, n (samples in the group), loci (loci with n ≥ 2), ho, he, f,
 //!   fis, fis_low, fis_high, fis_replicates, alleles_mean, effective_alleles, ar, par,
-//!   rarefaction_copies.
+//!   rarefaction_copies, par_rarefaction_copies.
 //!
 //! # Findings
 //! `low-sample-size` (warning) for a group of fewer than 10 samples; `few-loci` (warning) for a
 //! group with fewer than 5 usable loci (both METHODS §1); `too-few-typed` (info, one finding
 //! listing every locus and group with n < 2); `monomorphic-in-group` (info, one finding
 //! listing them); `rarefaction-group-excluded` and `rarefaction-loci-dropped` (warnings);
-//! `rarefaction-size`, `fis-interval` and `f-definition` (info) stating the conventions.
+//! `par-alone-in-year` (info, the groups whose `par` is null for want of another population
+//! that year); `rarefaction-size`, `par-comparison` (one per year: the populations compared and
+//! *g*), `fis-interval` and `f-definition` (info) stating the conventions.
 //!
 //! # Citations
 //! Nei (1978); Weir & Cockerham (1984); Hurlbert (1971); El Mousadik & Petit (1996);
@@ -92,7 +105,8 @@ pub const INTERVAL_LEVEL: f64 = 0.95;
 pub struct Params {
     /// Bootstrap replicates over loci for the FIS confidence interval (0 = no interval).
     pub bootstrap: u32,
-    /// Individuals per group for rarefied allelic richness; `None` means the smallest group.
+    /// Individuals per group for rarefied allelic richness; `None` means the smallest group of
+    /// the comparison set (all groups for `ar`, the year's populations for `par`).
     pub rarefaction_size: Option<u32>,
 }
 
@@ -100,7 +114,7 @@ pub struct Params {
 pub fn descriptor() -> Descriptor {
     Descriptor::new(
         "diversity",
-        "0.2.0",
+        "0.3.0",
         "Heterozygosity, F, Weir & Cockerham FIS with a bootstrap interval, and allelic richness per group and locus",
     )
     .param(
@@ -113,7 +127,7 @@ pub fn descriptor() -> Descriptor {
         "rarefaction_size",
         ParamKind::Integer { min: 2, max: 1_000_000 },
         Value::Null,
-        "individuals to rarefy allelic richness to; null = the smallest group typed at each locus",
+        "individuals to rarefy allelic richness (ar, par) to; null = the smallest compared group typed at each locus",
     )
 }
 

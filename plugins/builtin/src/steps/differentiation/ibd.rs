@@ -7,7 +7,7 @@ use popgauge_abi::{Finding, PopulationInfo, Seed, Where};
 
 use super::{Params, SetEstimates};
 use crate::stats::bootstrap::rng;
-use crate::stats::permutation::{PermutationOutcome, SymmetricMatrix, mantel_test, pearson_correlation};
+use crate::stats::permutation::{Enumeration, PermutationOutcome, SymmetricMatrix, mantel_test, pearson_correlation};
 use crate::stats::trend::least_squares;
 
 /// Mean Earth radius R₁ of the Geodetic Reference System 1980 (IUGG; Moritz 1980), in km.
@@ -15,6 +15,9 @@ pub const MEAN_EARTH_RADIUS_KM: f64 = 6371.0088;
 /// Fewest located populations for an isolation-by-distance analysis (METHODS §2.3: a
 /// regression and a Mantel test need at least three pairs).
 pub const MIN_LOCATED_POPULATIONS: usize = 3;
+/// A Mantel p above this level leaves the fitted line descriptive only (the conventional 5 %
+/// level; common practice).
+pub const SIGNIFICANCE_LEVEL: f64 = 0.05;
 
 /// Rousset (1997).
 pub const ROUSSET_1997: &str = "Rousset F (1997) Genetic differentiation and estimation of gene flow from \
@@ -103,6 +106,7 @@ pub(super) fn analyse(
             continue;
         }
         let test = analyse_set(set, &in_set, &located, params, seed, &mut result);
+        result.findings.extend(not_significant(&test));
         result.tests.push(test);
     }
     result
@@ -203,6 +207,39 @@ fn not_tested(year: Option<i32>, located: usize) -> Finding {
         ),
         Where { year, ..Where::default() },
     )
+}
+
+/// An info finding when the Mantel test ran and p is above [`SIGNIFICANCE_LEVEL`]: the document
+/// shows the fitted line, which the data then do not support beyond description.
+fn not_significant(test: &IbdTest) -> Option<Finding> {
+    let mantel = test.mantel.filter(|m| m.p_value() > SIGNIFICANCE_LEVEL)?;
+    let scope = test.year.map_or("years pooled".to_string(), |y| format!("populations sampled in {y}"));
+    let how = match mantel.enumeration {
+        Enumeration::Exact => {
+            format!("exact, over all {} orders of the {} populations", mantel.replicates, test.populations)
+        }
+        Enumeration::Random => format!("{} random permutations", mantel.replicates),
+    };
+    let unattainable = if mantel.smallest_p_value() > SIGNIFICANCE_LEVEL {
+        format!(
+            "; with {} populations no order of the labels can give p ≤ {SIGNIFICANCE_LEVEL}, so the test cannot show \
+             isolation by distance here",
+            test.populations
+        )
+    } else {
+        String::new()
+    };
+    Some(Finding::info(
+        "ibd-not-significant",
+        format!(
+            "isolation by distance ({scope}): the Mantel test gives p = {:.3} ({how}; smallest attainable p = {:.3}), \
+             above {SIGNIFICANCE_LEVEL}: the association of FST/(1 − FST) with ln(distance) is not statistically \
+             supported and the fitted line is descriptive only{unattainable}",
+            mantel.p_value(),
+            mantel.smallest_p_value()
+        ),
+        Where { year: test.year, ..Where::default() },
+    ))
 }
 
 fn excluded_pair(year: Option<i32>, pop_a: &str, pop_b: &str, distance_km: f64, fst: Option<f64>) -> Finding {

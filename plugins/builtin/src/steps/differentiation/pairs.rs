@@ -7,14 +7,16 @@ use rand_chacha::ChaCha8Rng;
 use crate::packing::pack_samples;
 use crate::stats::permutation::BatchedStatistic;
 
-use crate::stats::bootstrap::{Interval, bootstrap_loci, percentile_interval};
-use crate::stats::gst::{DifferentiationIndices, DiversityEstimator, DiversityTotals, LocusSummary, indices};
+use crate::stats::bootstrap::{Interval, bootstrap_loci_each, percentile_interval};
+use crate::stats::gst::{
+    DifferentiationIndices, DiversityEstimator, DiversityTotals, GeneDiversities, LocusSummary, indices,
+};
 use crate::stats::weir_cockerham::{BiallelicSample, VarianceComponents, biallelic_components, locus_components};
 
 /// Level of the bootstrap intervals.
 pub(super) const INTERVAL_LEVEL: f64 = 0.95;
 
-/// FST, its interval and the G_ST family for one comparison.
+/// FST, Jost's D, G″_ST, their intervals and the rest of the G_ST family for one comparison.
 #[derive(Debug, Clone, PartialEq)]
 pub(super) struct ComparisonEstimate {
     /// Loci typed in every compared group with n̄ > 1: those entering θ̂.
@@ -23,8 +25,8 @@ pub(super) struct ComparisonEstimate {
     pub components: Vec<VarianceComponents>,
     /// θ̂ = Σa/Σ(a + b + c); `None` when Σ(a + b + c) = 0 or no locus is usable.
     pub theta: Option<f64>,
-    /// The percentile bootstrap interval of θ̂ over loci.
-    pub interval: Option<Interval>,
+    /// The percentile bootstrap intervals over loci of θ̂, D and G″_ST.
+    pub intervals: Intervals,
     /// Bootstrap replicates with a defined θ̂*.
     pub bootstrap_replicates: usize,
     /// Loci polymorphic in the comparison that enter the G_ST family.
@@ -33,13 +35,33 @@ pub(super) struct ComparisonEstimate {
     pub indices: DifferentiationIndices,
 }
 
+/// Percentile bootstrap intervals of one comparison, all from the same replicates.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub(super) struct Intervals {
+    /// θ̂ (FST).
+    pub fst: Option<Interval>,
+    /// Jost's D.
+    pub jost_d: Option<Interval>,
+    /// G″_ST.
+    pub gst_double_prime: Option<Interval>,
+}
+
+/// Ĥ_S and Ĥ_T of one locus with both estimators; `None` for a locus that does not enter the
+/// G_ST family (monomorphic over the compared groups, or ñ ≤ 1).
+type LocusDiversities = Option<(GeneDiversities, GeneDiversities)>;
+
 /// Estimates one comparison from the allele counts of its groups (`groups[g][locus]`, every
 /// group with one entry per view locus), with `bootstrap` replicates drawn from `rng`.
+///
+/// The loci entering the G_ST family are among those entering θ̂: both need every group typed,
+/// and the harmonic mean ñ > 1 of the G_ST family implies the arithmetic mean n̄ > 1 of θ̂. So
+/// one list of loci serves both, and each bootstrap replicate draws from it once: θ̂*, D* and
+/// G″_ST* are computed from the same drawn loci, and the draws (hence θ̂*) are those of a
+/// bootstrap of θ̂ alone.
 pub(super) fn estimate(groups: &[&[AlleleCounts]], bootstrap: usize, rng: &mut ChaCha8Rng) -> ComparisonEstimate {
     let n_loci = groups.first().map_or(0, |g| g.len());
     let mut samples: Vec<&AlleleCounts> = Vec::with_capacity(groups.len());
-    let (mut loci, mut components) = (Vec::new(), Vec::new());
-    let (mut nei_chesser, mut jost) = (DiversityTotals::default(), DiversityTotals::default());
+    let (mut loci, mut components, mut diversities) = (Vec::new(), Vec::new(), Vec::new());
     for locus in 0..n_loci {
         samples.clear();
         samples.extend(groups.iter().map(|g| &g[locus]));
@@ -49,21 +71,29 @@ pub(super) fn estimate(groups: &[&[AlleleCounts]], bootstrap: usize, rng: &mut C
         if let Some(c) = locus_components(&samples) {
             loci.push(locus);
             components.push(c);
-        }
-        if let Some(summary) = LocusSummary::from_counts(&samples) {
-            nei_chesser.add(summary.diversities(DiversityEstimator::NeiChesser));
-            jost.add(summary.diversities(DiversityEstimator::Jost));
+            diversities.push(LocusSummary::from_counts(&samples).map(|summary| {
+                (summary.diversities(DiversityEstimator::NeiChesser), summary.diversities(DiversityEstimator::Jost))
+            }));
         }
     }
-    let theta = theta_of(&components, None);
-    let mut replicates =
-        bootstrap_loci(components.len(), bootstrap, rng, |sampled| theta_of(&components, Some(sampled)));
+    let k = groups.len();
+    let (nei_chesser, jost) = diversity_totals(&diversities, None);
+    let [mut fst, mut jost_d, mut gst_double_prime] =
+        bootstrap_loci_each(components.len(), bootstrap, rng, |sampled| {
+            let (nei_chesser, jost) = diversity_totals(&diversities, Some(sampled));
+            let indices = combined_indices(&nei_chesser, &jost, k);
+            [theta_of(&components, Some(sampled)), indices.jost_d, indices.gst_double_prime]
+        });
     ComparisonEstimate {
-        theta,
-        interval: percentile_interval(&mut replicates, INTERVAL_LEVEL),
-        bootstrap_replicates: replicates.len(),
+        theta: theta_of(&components, None),
+        intervals: Intervals {
+            fst: percentile_interval(&mut fst, INTERVAL_LEVEL),
+            jost_d: percentile_interval(&mut jost_d, INTERVAL_LEVEL),
+            gst_double_prime: percentile_interval(&mut gst_double_prime, INTERVAL_LEVEL),
+        },
+        bootstrap_replicates: fst.len(),
         polymorphic_loci: nei_chesser.loci(),
-        indices: combined_indices(&nei_chesser, &jost, groups.len()),
+        indices: combined_indices(&nei_chesser, &jost, k),
         loci,
         components,
     }
@@ -76,6 +106,23 @@ fn theta_of(components: &[VarianceComponents], sampled: Option<&[usize]>) -> Opt
         None => components.iter().copied().sum(),
     };
     if components.is_empty() { None } else { sum.theta() }
+}
+
+/// The Nei–Chesser and Jost sums of Ĥ_S and Ĥ_T over all loci (`None`) or over the sampled
+/// loci (with repeats), leaving out loci outside the G_ST family.
+fn diversity_totals(diversities: &[LocusDiversities], sampled: Option<&[usize]>) -> (DiversityTotals, DiversityTotals) {
+    let (mut nei_chesser, mut jost) = (DiversityTotals::default(), DiversityTotals::default());
+    let mut add = |locus: &LocusDiversities| {
+        if let Some((by_nei_chesser, by_jost)) = locus {
+            nei_chesser.add(*by_nei_chesser);
+            jost.add(*by_jost);
+        }
+    };
+    match sampled {
+        Some(indices) => indices.iter().for_each(|&i| add(&diversities[i])),
+        None => diversities.iter().for_each(add),
+    }
+    (nei_chesser, jost)
 }
 
 /// G_ST, G′_ST and G″_ST from the Nei–Chesser averages, D from Jost's (ratio of averages).

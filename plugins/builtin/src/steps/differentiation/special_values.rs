@@ -1,5 +1,5 @@
 //! The findings for `null` cells of `differentiation`'s tables that its other findings do not
-//! explain: an interval missing for a defined FST, a pair left untested although permutations
+//! explain: an interval missing for a defined FST, D or G″ST, a pair left untested although permutations
 //! were asked for, an isolation-by-distance regression or Mantel test without a value, and a
 //! Mantel test switched off (each one finding listing the comparisons).
 
@@ -21,6 +21,18 @@ pub(super) fn findings(tables: &BTreeMap<String, Table>, params: &Params) -> Vec
     let no_interval = |r: &Row<'_>| params.bootstrap > 0 && r.is_finite("fst") && r.is_null("fst_low");
     let mut without_interval = rows_where(table("pairwise"), no_interval, pair);
     without_interval.extend(rows_where(table("global"), no_interval, |r| format!("global ({})", r.text("comparison"))));
+    // The point columns whose interval is missing although the bootstrap ran.
+    let without_own_interval = |r: &Row<'_>| {
+        let on = params.bootstrap > 0;
+        r.columns_where(&["jost_d", "gst_pp"], |r, c| on && r.is_finite(c) && r.is_null(&format!("{c}_low")))
+    };
+    let index_interval_missing = |r: &Row<'_>| !without_own_interval(r).is_empty();
+    let which = without_own_interval;
+    let mut index_without_interval =
+        rows_where(table("pairwise"), index_interval_missing, |r| format!("{} ({})", pair(r), which(r)));
+    index_without_interval.extend(rows_where(table("global"), index_interval_missing, |r| {
+        format!("global ({}) ({})", r.text("comparison"), which(r))
+    }));
     let untested =
         rows_where(table("pairwise"), |r| params.permutations > 0 && r.is_finite("fst") && r.is_null("fst_p"), pair);
     let ibd_scope = |r: &Row<'_>| match r.text("year").as_str() {
@@ -42,6 +54,15 @@ pub(super) fn findings(tables: &BTreeMap<String, Table>, params: &Params) -> Vec
                 params.bootstrap
             )
         }),
+        explain(FindingLevel::Info, "differentiation-interval-undefined", &index_without_interval, |n, list| {
+            format!(
+                "{n} comparison(s) have Jost's D or G″ST but a null interval for it (the columns _low and _high): \
+                 fewer than two bootstrap replicates over loci gave a defined value (a replicate drawing only loci \
+                 monomorphic in the comparison, or with HS averaging 1, is undefined; bootstrap = {}); raise \
+                 `bootstrap` or type more polymorphic loci: {list}",
+                params.bootstrap
+            )
+        }),
         explain(FindingLevel::Info, "permutation-test-skipped", &untested, |n, list| {
             format!(
                 "{n} pair(s) have more than 65,535 individuals between them, too many to permute, so fst_p is null \
@@ -50,15 +71,15 @@ pub(super) fn findings(tables: &BTreeMap<String, Table>, params: &Params) -> Vec
         }),
         explain(FindingLevel::Info, "ibd-test-undefined", &ibd_undefined, |n, list| {
             format!(
-                "{n} isolation-by-distance test(s) have a null slope, intercept, r or mantel_p: the regression and \
-                 the correlation need at least three pairs at positive distances with a defined FST/(1 − FST) and \
+                "{n} isolation-by-distance test(s) have a null slope, intercept, r or mantel_p (and with it \
+                 mantel_p_min, permutations and mantel_method): the regression and the correlation need at least three pairs at positive distances with a defined FST/(1 − FST) and \
                  some spread in distance and in differentiation: {list}"
             )
         }),
         explain(FindingLevel::Info, "mantel-test-disabled", &mantel_off, |n, list| {
             format!(
-                "mantel_permutations = 0: no Mantel test was run, so mantel_p and permutations are null in the {n} \
-                 isolation-by-distance test(s) (set mantel_permutations to 999 or more to test): {list}"
+                "mantel_permutations = 0: no Mantel test was run, so mantel_p, mantel_p_min, permutations and \
+                 mantel_method are null in the {n} isolation-by-distance test(s) (set mantel_permutations to 999 or more to test): {list}"
             )
         }),
     ];

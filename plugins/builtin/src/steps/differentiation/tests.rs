@@ -3,8 +3,8 @@
 //! edge cases of METHODS §2.
 
 use popgauge_abi::{
-    AlleleCode, AssessmentInfo, Cell, GenotypeMatrix, LocusMeta, PopulationInfo, SampleMeta, Seed, Step, StepContext,
-    StepOutput, Table,
+    AlleleCode, AlleleCounts, AssessmentInfo, Cell, GenotypeMatrix, LocusMeta, PopulationInfo, SampleMeta, Seed, Step,
+    StepContext, StepOutput, Table,
 };
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -224,6 +224,165 @@ fn intervals_and_p_values_are_reproducible() {
     assert_ne!(table(&other_seed, "global").rows, global.rows);
 }
 
+/// The seed [`run`] gives the step.
+const SEED: u64 = 20_261_130;
+
+/// The bootstrap of one comparison recomputed by hand: the loci entering θ̂ (every group typed,
+/// n̄ > 1), then `replicates` replicates, each drawing as many loci with replacement from the
+/// named stream of the step's seed (one `random_range(0..L)` per slot, as the step's resampling
+/// over loci draws), and from those drawn loci θ̂* = Σa/Σ(a + b + c) (Weir & Cockerham 1984),
+/// and D* and G″ST* from Ĥ_S and Ĥ_T averaged over the drawn loci that are polymorphic (Jost
+/// 2008; Meirmans & Hedrick 2011; ratio of averages as in the step). Defined values only.
+fn bootstrap_by_hand(counts: &[Vec<AlleleCounts>], stream: &str, replicates: usize) -> [Vec<f64>; 3] {
+    use crate::stats::gst::{DiversityEstimator, GeneDiversities, indices, locus_diversity};
+    use crate::stats::weir_cockerham::{VarianceComponents, locus_components};
+    let k = counts.len();
+    let mut loci = Vec::new();
+    for locus in 0..counts[0].len() {
+        let samples: Vec<&AlleleCounts> = counts.iter().map(|g| &g[locus]).collect();
+        if samples.iter().all(|s| s.typed > 0)
+            && let Some(components) = locus_components(&samples)
+        {
+            let jost = locus_diversity(&samples, DiversityEstimator::Jost);
+            let nei_chesser = locus_diversity(&samples, DiversityEstimator::NeiChesser);
+            loci.push((components, jost, nei_chesser));
+        }
+    }
+    let mean = |drawn: &[GeneDiversities]| {
+        (!drawn.is_empty()).then(|| GeneDiversities {
+            within: drawn.iter().map(|d| d.within).sum::<f64>() / drawn.len() as f64,
+            total: drawn.iter().map(|d| d.total).sum::<f64>() / drawn.len() as f64,
+        })
+    };
+    let mut stream = crate::stats::bootstrap::rng(Seed(SEED), stream);
+    let mut values = [Vec::new(), Vec::new(), Vec::new()];
+    for _ in 0..replicates {
+        let drawn: Vec<usize> = (0..loci.len()).map(|_| stream.random_range(0..loci.len())).collect();
+        let theta = drawn.iter().map(|&l| loci[l].0).sum::<VarianceComponents>().theta();
+        let jost: Vec<GeneDiversities> = drawn.iter().filter_map(|&l| loci[l].1).collect();
+        let nei_chesser: Vec<GeneDiversities> = drawn.iter().filter_map(|&l| loci[l].2).collect();
+        let d = mean(&jost).and_then(|m| indices(m, k).jost_d);
+        let gst_pp = mean(&nei_chesser).and_then(|m| indices(m, k).gst_double_prime);
+        for (kept, value) in values.iter_mut().zip([theta, d, gst_pp]) {
+            kept.extend(value.filter(|v| v.is_finite()));
+        }
+    }
+    values
+}
+
+/// The 2.5th and 97.5th percentiles with linear interpolation between order statistics, as
+/// numpy's default `percentile` (numpy 1.26 documentation, method "linear").
+fn percentiles_by_hand(values: &[f64]) -> (f64, f64) {
+    let mut sorted = values.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let at = |q: f64| {
+        let position = q * (sorted.len() - 1) as f64;
+        let (below, above) = (position.floor() as usize, position.ceil() as usize);
+        sorted[below] + (sorted[above] - sorted[below]) * (position - below as f64)
+    };
+    (at(0.025), at(0.975))
+}
+
+/// Percentile bootstrap over loci (Efron & Tibshirani 1993) of Jost's D and G″ST, from the same
+/// replicates as FST: on the reference data each interval holds its point estimate, and each
+/// equals the recomputation by hand from the same seeded draws ([`bootstrap_by_hand`];
+/// tolerance 1e-12: the step takes the 2.5th percentile at (1 − 0.95)/2, which differs from
+/// 0.025 in the last bit). The FST interval is bit for bit that of a bootstrap of
+/// θ̂ alone over the same stream, as the step computed it before D and G″ST shared the draws.
+#[test]
+fn d_and_gst_pp_intervals_share_the_fst_replicates() {
+    let replicates = 500;
+    let output = run(&reference_matrix(), json!({"permutations": 0, "bootstrap": replicates}));
+    let matrix = reference_matrix();
+    let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
+    let view = matrix.full_view(&samples, &loci);
+    let counts: Vec<Vec<AlleleCounts>> = view
+        .populations()
+        .iter()
+        .map(|g| (0..view.n_loci()).map(|l| view.allele_counts(l, &g.samples)).collect())
+        .collect();
+    let pairwise = table(&output, "pairwise");
+    let global = table(&output, "global");
+    let comparisons = [
+        (
+            pairwise,
+            pair_row(pairwise, "Ash", "Birch", None),
+            vec![counts[0].clone(), counts[1].clone()],
+            "fst-bootstrap/pooled/Ash/Birch",
+        ),
+        (
+            pairwise,
+            pair_row(pairwise, "Birch", "Cedar", None),
+            vec![counts[1].clone(), counts[2].clone()],
+            "fst-bootstrap/pooled/Birch/Cedar",
+        ),
+        (global, 0, counts.clone(), "fst-bootstrap/global/pooled"),
+    ];
+    for (t, row, groups, stream) in comparisons {
+        let [theta, d, gst_pp] = bootstrap_by_hand(&groups, stream, replicates);
+        assert_eq!(theta.len(), replicates);
+        for (column, values) in [("jost_d", &d), ("gst_pp", &gst_pp)] {
+            let point = number(t, row, column).unwrap();
+            let (low, high) =
+                (number(t, row, &format!("{column}_low")).unwrap(), number(t, row, &format!("{column}_high")).unwrap());
+            assert!(low < point && point < high, "{stream} {column}: {low} < {point} < {high}");
+            let (hand_low, hand_high) = percentiles_by_hand(values);
+            assert_close(low, hand_low, 1e-12);
+            assert_close(high, hand_high, 1e-12);
+        }
+        let (hand_low, hand_high) = percentiles_by_hand(&theta);
+        let (low, high) = (number(t, row, "fst_low").unwrap(), number(t, row, "fst_high").unwrap());
+        assert_close(low, hand_low, 1e-12);
+        assert_close(high, hand_high, 1e-12);
+        // The bootstrap of θ̂ alone, as the FST interval was computed before.
+        let pair_counts: Vec<&[AlleleCounts]> = groups.iter().map(Vec::as_slice).collect();
+        let components = pairs::estimate(&pair_counts, 0, &mut ChaCha8Rng::seed_from_u64(1)).components;
+        let mut alone = crate::stats::bootstrap::bootstrap_loci(
+            components.len(),
+            replicates,
+            &mut crate::stats::bootstrap::rng(Seed(SEED), stream),
+            |drawn| {
+                drawn.iter().map(|&l| components[l]).sum::<crate::stats::weir_cockerham::VarianceComponents>().theta()
+            },
+        );
+        assert_eq!(alone, theta, "{stream}: the same θ̂* in the same order");
+        let before = crate::stats::bootstrap::percentile_interval(&mut alone, 0.95).unwrap();
+        assert_eq!((low.to_bits(), high.to_bits()), (before.low.to_bits(), before.high.to_bits()));
+    }
+}
+
+/// DESIGN (no null without a finding): with one bootstrap replicate no interval can be formed,
+/// so jost_d_low … gst_pp_high are null beside defined points, and one
+/// `differentiation-interval-undefined` finding names every comparison and statistic (as
+/// `fst-interval-undefined` does for FST).
+#[test]
+fn undefined_d_and_gst_pp_intervals_are_explained() {
+    let output = run(&reference_matrix(), json!({"permutations": 0, "bootstrap": 1}));
+    for name in ["pairwise", "global"] {
+        let t = table(&output, name);
+        for row in 0..t.rows.len() {
+            assert!(number(t, row, "jost_d").is_some() && number(t, row, "gst_pp").is_some());
+            for column in ["jost_d_low", "jost_d_high", "gst_pp_low", "gst_pp_high"] {
+                assert_eq!(number(t, row, column), None, "{name} {row} {column}");
+            }
+        }
+    }
+    let undefined = findings_with(&output, "differentiation-interval-undefined");
+    assert_eq!(undefined.len(), 1);
+    assert!(undefined[0].message.starts_with("4 comparison(s)"), "{}", undefined[0].message);
+    assert!(
+        undefined[0].message.ends_with(
+            ": Ash–Birch (jost_d, gst_pp), Ash–Cedar (jost_d, gst_pp), Birch–Cedar (jost_d, gst_pp), global (all \
+             populations, sampling years pooled) (jost_d, gst_pp)"
+        ),
+        "{}",
+        undefined[0].message
+    );
+    assert_eq!(findings_with(&output, "fst-interval-undefined").len(), 1);
+    let off = run(&reference_matrix(), json!({"permutations": 0, "bootstrap": 0}));
+    assert!(findings_with(&off, "differentiation-interval-undefined").is_empty(), "bootstrap = 0 is said by the scope");
+}
+
 /// Determinism (STYLE): pairs run in parallel, but each draws from its own stream and the
 /// results keep the pair order, so one thread and three threads give identical output.
 #[test]
@@ -400,8 +559,14 @@ fn haversine_by_hand() {
 /// steadily along it (a cline: p rises by 0.12 per step), so FST grows with distance; 40
 /// individuals each, 12 loci.
 fn cline_matrix() -> GenotypeMatrix {
+    cline_of(6, 0.12)
+}
+
+/// `populations` populations P0, P1, … on a cline, p rising by `rise` per step (see
+/// [`cline_matrix`]).
+fn cline_of(populations: usize, rise: f64) -> GenotypeMatrix {
     let mut rng = ChaCha8Rng::seed_from_u64(13);
-    let names = ["P0", "P1", "P2", "P3", "P4", "P5"];
+    let names: Vec<String> = (0..populations).map(|p| format!("P{p}")).collect();
     let individuals = 40;
     let samples: Vec<SampleMeta> = names
         .iter()
@@ -413,7 +578,7 @@ fn cline_matrix() -> GenotypeMatrix {
     for _ in 0..12 {
         let start = 0.1 + 0.2 * rng.random::<f64>();
         for step in 0..names.len() {
-            let p = start + 0.12 * step as f64;
+            let p = start + rise * step as f64;
             for _ in 0..individuals {
                 codes.extend(draw_genotype(&mut rng, &[p, 1.0 - p]));
             }
@@ -443,9 +608,11 @@ fn sheet(latitudes: &[f64]) -> Vec<PopulationInfo> {
 
 /// Mantel (1967) and Rousset (1997): populations on a cline, located where they were sampled,
 /// show isolation by distance (positive slope of FST/(1 − FST) on ln distance, r > 0.5,
-/// Mantel p < 0.05 with 9999 permutations: only a few of the 720 relabellings correlate as
-/// well). The same genotypes with the coordinates shuffled among populations show none
-/// (p > 0.1). Tables: one `ibd` row per pair (15) and one `ibd_test` row; citations added.
+/// Mantel p < 0.05: only a few of the 6! = 720 relabellings correlate as well, and with 9999
+/// permutations asked all 720 are evaluated exactly). The same genotypes with the coordinates
+/// shuffled among populations show none (p > 0.1), and an `ibd-not-significant` finding says
+/// the fitted line is descriptive only. Tables: one `ibd` row per pair (15) and one `ibd_test`
+/// row; citations added.
 #[test]
 fn isolation_by_distance_on_a_cline_and_shuffled() {
     let matrix = cline_matrix();
@@ -462,7 +629,10 @@ fn isolation_by_distance_on_a_cline_and_shuffled() {
     assert!(number(test, 0, "slope").unwrap() > 0.0);
     assert!(number(test, 0, "r").unwrap() > 0.5, "r = {:?}", number(test, 0, "r"));
     assert!(number(test, 0, "mantel_p").unwrap() < 0.05, "p = {:?}", number(test, 0, "mantel_p"));
-    assert_eq!(number(test, 0, "permutations"), Some(9999.0));
+    assert_eq!(number(test, 0, "permutations"), Some(720.0));
+    assert_eq!(text(test, 0, "mantel_method"), Some("exact"));
+    assert_eq!(number(test, 0, "mantel_p_min"), Some(1.0 / 720.0));
+    assert!(findings_with(&structured, "ibd-not-significant").is_empty());
     assert!(structured.citations.iter().any(|c| c.starts_with("Mantel N (1967)")));
     assert!(structured.citations.iter().any(|c| c.starts_with("Rousset F (1997)")));
 
@@ -470,6 +640,50 @@ fn isolation_by_distance_on_a_cline_and_shuffled() {
     let shuffled = run_with(&matrix, json!({"permutations": 0, "bootstrap": 0}), 5, sheet(&shuffled_latitudes));
     let test = table(&shuffled, "ibd_test");
     assert!(number(test, 0, "mantel_p").unwrap() > 0.1, "p = {:?}", number(test, 0, "mantel_p"));
+    let descriptive = findings_with(&shuffled, "ibd-not-significant");
+    assert_eq!(descriptive.len(), 1);
+    assert_eq!(descriptive[0].level, popgauge_abi::FindingLevel::Info);
+    assert!(descriptive[0].message.contains("the fitted line is descriptive only"), "{}", descriptive[0].message);
+    assert!(descriptive[0].message.contains("exact, over all 720 orders of the 6 populations"));
+}
+
+/// Exact Mantel test with few populations (Mantel 1967; complete enumeration, common practice):
+/// four located populations have 4! = 24 orders, fewer than the 9999 asked, so all 24 are
+/// evaluated once: `permutations` = 24, `mantel_method` = exact, p is a whole number of 24ths
+/// and `mantel_p_min` = 1/24. With three populations (3! = 6 orders) no order can give
+/// p ≤ 0.05 (p_min = 1/6), and the finding says so. With eight populations 8! = 40,320 orders
+/// exceed the 999 asked, so 999 random orders are drawn: p_min = 1/1000.
+#[test]
+fn mantel_test_enumerates_few_populations_exactly() {
+    let params = json!({"permutations": 0, "bootstrap": 0});
+    let four = run_with(&cline_matrix(), params.clone(), 5, sheet(&CLINE_LATITUDES[..4]));
+    let test = table(&four, "ibd_test");
+    assert_eq!(number(test, 0, "populations"), Some(4.0));
+    assert_eq!(number(test, 0, "permutations"), Some(24.0));
+    assert_eq!(text(test, 0, "mantel_method"), Some("exact"));
+    assert_eq!(number(test, 0, "mantel_p_min"), Some(1.0 / 24.0));
+    let in_24ths = number(test, 0, "mantel_p").unwrap() * 24.0;
+    assert!((in_24ths - in_24ths.round()).abs() < 1e-9 && in_24ths >= 1.0, "p·24 = {in_24ths}");
+
+    let three = run_with(&cline_matrix(), params.clone(), 5, sheet(&CLINE_LATITUDES[..3]));
+    let test = table(&three, "ibd_test");
+    assert_eq!((number(test, 0, "permutations"), number(test, 0, "mantel_p_min")), (Some(6.0), Some(1.0 / 6.0)));
+    let descriptive = findings_with(&three, "ibd-not-significant");
+    assert_eq!(descriptive.len(), 1);
+    assert!(descriptive[0].message.contains("no order of the labels can give p ≤ 0.05"), "{}", descriptive[0].message);
+
+    let latitudes: Vec<f64> = (0..8).map(|i| 45.0 + 0.1 * f64::from(i * (i + 1) / 2)).collect();
+    let eight = run_with(
+        &cline_of(8, 0.08),
+        json!({"permutations": 0, "bootstrap": 0, "mantel_permutations": 999}),
+        5,
+        sheet(&latitudes),
+    );
+    let test = table(&eight, "ibd_test");
+    assert_eq!(number(test, 0, "populations"), Some(8.0));
+    assert_eq!(number(test, 0, "permutations"), Some(999.0));
+    assert_eq!(text(test, 0, "mantel_method"), Some("random"));
+    assert_eq!(number(test, 0, "mantel_p_min"), Some(1.0 / 1000.0));
 }
 
 /// METHODS §2.3: fewer than three located populations → no IBD tables, an `ibd-not-tested`

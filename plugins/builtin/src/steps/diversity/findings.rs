@@ -22,6 +22,8 @@ pub(super) fn collect(
     findings.extend(monomorphic_in_group(view, groups));
     findings.extend(rarefaction_exclusions(view, groups, richness));
     findings.push(rarefaction_size(groups, richness));
+    findings.extend(private_comparisons(groups, richness));
+    findings.extend(alone_in_year(groups, richness));
     findings.push(fis_interval(params.bootstrap));
     findings.push(f_definition());
     findings
@@ -122,10 +124,10 @@ fn rarefaction_exclusions(view: &GenotypeView<'_>, groups: &[GroupEstimates], ri
             Where::group(&estimates.group.population, estimates.group.year),
         ));
     }
-    if !richness.dropped.is_empty() {
+    let dropped = &richness.all_groups.dropped;
+    if !dropped.is_empty() {
         let needed = richness.requested.map_or("two".to_string(), |s| s.to_string());
-        let items: Vec<String> = richness
-            .dropped
+        let items: Vec<String> = dropped
             .iter()
             .map(|d| {
                 let short: Vec<String> =
@@ -136,8 +138,9 @@ fn rarefaction_exclusions(view: &GenotypeView<'_>, groups: &[GroupEstimates], ri
         findings.push(Finding::warning(
             "rarefaction-loci-dropped",
             format!(
-                "{} loci are left out of ar and par for every group because a compared group has fewer than {needed} \
-                 typed individuals there: {}. Set `rarefaction_size` lower, or remove the locus, to keep them",
+                "{} loci are left out of ar for every group, and of par for every population sampled in the same \
+                 year as a group named, because a compared group has fewer than {needed} typed individuals there: \
+                 {}. Set `rarefaction_size` lower, or remove the locus, to keep them",
                 items.len(),
                 listing(&items)
             ),
@@ -147,34 +150,95 @@ fn rarefaction_exclusions(view: &GenotypeView<'_>, groups: &[GroupEstimates], ri
     findings
 }
 
-fn rarefaction_size(groups: &[GroupEstimates], richness: &Richness) -> Finding {
-    let copies: Vec<u32> = richness.copies.iter().flatten().copied().collect();
-    let compared = richness.compared_groups();
-    let rule = match richness.requested {
+/// "g = 24 gene copies" or "g = 20 to 24 gene copies", and "12 loci rarefied"; `None` when no
+/// locus was rarefied.
+fn copies_range(copies: &[Option<u32>]) -> Option<(String, String)> {
+    let copies: Vec<u32> = copies.iter().flatten().copied().collect();
+    let loci = match copies.len() {
+        1 => "1 locus rarefied".to_string(),
+        n => format!("{n} loci rarefied"),
+    };
+    match (copies.iter().min(), copies.iter().max()) {
+        (Some(low), Some(high)) if low == high => Some((format!("g = {low} gene copies"), loci)),
+        (Some(low), Some(high)) => Some((format!("g = {low} to {high} gene copies"), loci)),
+        _ => None,
+    }
+}
+
+/// How g is chosen, among `among`.
+fn rarefaction_rule(richness: &Richness, among: &str) -> String {
+    match richness.requested {
         Some(s) => format!("2 × rarefaction_size = {} gene copies at every locus", 2 * s),
-        None => "2 × the smallest number of typed individuals among the compared groups at each locus".into(),
-    };
-    let range = match (copies.iter().min(), copies.iter().max()) {
-        (Some(low), Some(high)) if low == high => format!("g = {low} copies at all {} loci rarefied", copies.len()),
-        (Some(low), Some(high)) => {
-            format!("g ranges from {low} to {high} copies over the {} loci rarefied", copies.len())
-        }
-        _ => "no locus could be rarefied, so ar and par are null".into(),
-    };
-    let private = if compared >= 2 {
-        "par counts the alleles expected in g copies of a group and in no other compared group"
-    } else {
-        "with fewer than two groups compared, par is null"
+        None => format!("2 × the smallest number of typed individuals among {among} at each locus"),
+    }
+}
+
+fn rarefaction_size(groups: &[GroupEstimates], richness: &Richness) -> Finding {
+    let compared = richness.all_groups.members.len();
+    let range = match copies_range(&richness.all_groups.copies) {
+        Some((range, loci)) => format!("{range} ({loci})"),
+        None => "no locus could be rarefied".into(),
     };
     Finding::info(
         "rarefaction-size",
         format!(
-            "ar and par are rarefied to {rule} (Hurlbert 1971; Kalinowski 2004); comparison set: all population–year \
-             groups with at least two samples ({compared} of {} groups); {range}; {private}",
+            "ar is rarefied to {} (Hurlbert 1971; El Mousadik & Petit 1996) over all population–year groups with at \
+             least two samples ({compared} of {} groups), so it is on one scale across populations and years; \
+             {range}. par, the private allelic richness (Kalinowski 2004), compares only the populations sampled in \
+             the same year and is rarefied among them (par_rarefaction_copies): an allele a population carries in \
+             two sampling years is still private to it",
+            rarefaction_rule(richness, "the compared groups"),
             groups.len()
         ),
         Where::default(),
     )
+}
+
+/// One info finding per sampling year with at least two populations compared, naming them and g.
+fn private_comparisons(groups: &[GroupEstimates], richness: &Richness) -> Vec<Finding> {
+    richness
+        .years
+        .iter()
+        .filter(|set| set.compares())
+        .map(|set| {
+            let names: Vec<&str> = set.rarefied.members.iter().map(|&g| groups[g].group.population.as_str()).collect();
+            let rule = rarefaction_rule(richness, "these populations");
+            let at = match copies_range(&set.rarefied.copies) {
+                Some((range, loci)) => format!("at {range} ({loci}; g = {rule})"),
+                None => "but no locus could be rarefied (see rarefaction-loci-dropped), so par is null".to_string(),
+            };
+            Finding::info(
+                "par-comparison",
+                format!(
+                    "private allelic richness in {} compares {} {at}; par of a population is the expected number of \
+                     alleles in g of its gene copies that are absent from g copies of each other population listed",
+                    set.year,
+                    names.join(", ")
+                ),
+                Where { year: Some(set.year), ..Where::default() },
+            )
+        })
+        .collect()
+}
+
+/// The groups compared for allelic richness with no other population of their year compared:
+/// their par is null.
+fn alone_in_year(groups: &[GroupEstimates], richness: &Richness) -> Option<Finding> {
+    let alone: Vec<String> =
+        (0..groups.len()).filter(|&g| richness.alone_in_year(g)).map(|g| group_name(&groups[g])).collect();
+    (!alone.is_empty()).then(|| {
+        Finding::info(
+            "par-alone-in-year",
+            format!(
+                "{} group(s) are the only population with at least two samples in their sampling year, so their par \
+                 is null: private allelic richness compares populations sampled in the same year, and a population \
+                 is not compared with its own other years: {}",
+                alone.len(),
+                listing(&alone)
+            ),
+            Where::default(),
+        )
+    })
 }
 
 fn fis_interval(replicates: u32) -> Finding {

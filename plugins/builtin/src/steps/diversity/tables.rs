@@ -25,12 +25,13 @@ pub(super) fn by_locus(
         "ar",
         "par",
         "rarefaction_copies",
+        "par_rarefaction_copies",
     ]);
     for (g, estimates) in groups.iter().enumerate() {
         for (locus, estimate) in estimates.loci.iter().enumerate() {
             let het = &estimate.heterozygosity;
-            let (ar, par) = richness.at(g, locus);
-            let copies = richness.copies[locus].filter(|_| ar.is_some());
+            let richness_here = richness.richness_at(g, locus);
+            let private_here = richness.private_at(g, locus);
             table.push_row(vec![
                 Cell::text(&estimates.group.population),
                 Cell::Int(estimates.group.year.into()),
@@ -42,9 +43,10 @@ pub(super) fn by_locus(
                 Cell::maybe(het.inbreeding()),
                 Cell::maybe(estimate.components.and_then(|k| k.f_is())),
                 Cell::maybe(estimate.effective_alleles),
-                Cell::maybe(ar),
-                Cell::maybe(par),
-                copies.map_or(Cell::Null, |c| Cell::Int(c.into())),
+                Cell::maybe(richness_here.map(|r| r.0)),
+                Cell::maybe(private_here.map(|p| p.0)),
+                copies_cell(richness_here.map(|r| r.1)),
+                copies_cell(private_here.map(|p| p.1)),
             ])?;
         }
     }
@@ -74,6 +76,7 @@ pub(super) fn by_group(
         "ar",
         "par",
         "rarefaction_copies",
+        "par_rarefaction_copies",
     ]);
     for (g, (estimates, interval)) in groups.iter().zip(intervals).enumerate() {
         let summary = estimates.summarise();
@@ -94,8 +97,13 @@ pub(super) fn by_group(
             Cell::maybe(summary.effective_alleles_mean),
             Cell::maybe(rarefied.richness),
             Cell::maybe(rarefied.private_richness),
-            rarefied.smallest_copies.map_or(Cell::Null, |c| Cell::Int(c.into())),
+            copies_cell(rarefied.smallest_copies),
+            copies_cell(rarefied.smallest_private_copies),
         ])?;
     }
     Ok(table)
+}
+
+fn copies_cell(copies: Option<u32>) -> Cell {
+    copies.map_or(Cell::Null, |c| Cell::Int(c.into()))
 }

@@ -1,4 +1,4 @@
-use popgauge_abi::{AlleleCode, GenotypeMatrix, LocusMeta, SampleMeta, Where};
+use popgauge_abi::{AlleleCode, FindingLevel, GenotypeMatrix, LocusMeta, SampleMeta, Where};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde_json::{Value, json};
@@ -243,6 +243,96 @@ fn rarefaction_to_the_smallest_group_and_to_a_given_size() {
     assert_close(number(by_group, 1, "par").unwrap(), 0.964286, 1e-6);
 }
 
+/// Three lakes sampled in 2021, two of them also in 2019, and a fourth lake alone in 2020; one
+/// locus. Rows of the tables, sorted by population then year: Lake A 2019, Lake A 2021,
+/// Lake B 2019, Lake B 2021, Lake C 2021, Lake D 2020.
+fn lakes_over_three_years() -> GenotypeMatrix {
+    MatrixBuilder::new(&["L1"])
+        .sample("a19-1", "Lake A", 2019, &["3/3"])
+        .sample("a19-2", "Lake A", 2019, &["1/3"])
+        .sample("b19-1", "Lake B", 2019, &["1/1"])
+        .sample("b19-2", "Lake B", 2019, &["1/2"])
+        .sample("d20-1", "Lake D", 2020, &["1/5"])
+        .sample("d20-2", "Lake D", 2020, &["5/5"])
+        .sample("a21-1", "Lake A", 2021, &["1/2"])
+        .sample("a21-2", "Lake A", 2021, &["1/3"])
+        .sample("a21-3", "Lake A", 2021, &["1/1"])
+        .samples("b21-", "Lake B", 2021, 3, &["1/1"])
+        .sample("b21-4", "Lake B", 2021, &["1/2"])
+        .samples("c21-", "Lake C", 2021, 3, &["2/2"])
+        .sample("c21-4", "Lake C", 2021, &["2/4"])
+        .build()
+}
+
+/// Private allelic richness compares the populations of one sampling year (Kalinowski 2004,
+/// Conserv Genet 5:539–543: π_j(g) = Σᵤ (1 − Q_uj)·∏_{j′≠j} Q_uj′ with
+/// Q_uj = C(N_j − N_uj, g)/C(N_j, g) over the populations compared), worked by hand.
+///
+/// 2021, g = 2 × min(3, 4, 4) = 6 copies. A {1:3, 2:1, 3:1}, N = 6 = g: Q = 0 for every allele
+/// it carries. B {1:7, 2:1}, N = 8: Q₁ = 0 (1 other copy < 6), Q₂ = C(7,6)/C(8,6) = 7/28 = 1/4,
+/// Q₃ = Q₄ = 1. C {2:7, 4:1}, N = 8: Q₂ = 0, Q₄ = 7/28 = 1/4, Q₁ = Q₃ = 1.
+///   π_A = 1·Q₁B·Q₁C + 1·Q₂B·Q₂C + 1·Q₃B·Q₃C = 1·0·1 + 1·(1/4)·0 + 1·1·1 = 1
+///   π_B = 1·Q₁A·Q₁C + (3/4)·Q₂A·Q₂C = 0 + 0 = 0
+///   π_C = 1·Q₂A·Q₂B + (3/4)·Q₄A·Q₄B = 0 + (3/4)·1·1 = 0.75
+/// 2019, g = 2 × min(2, 2) = 4 = N of both: A {1:1, 3:3} keeps allele 3 to itself (π = 1),
+/// B {1:3, 2:1} allele 2 (π = 1). 2020: Lake D is alone, so its par is null with a finding.
+/// Compared across years instead, Lake A 2021's allele 3 would meet Lake A 2019's and its par
+/// would be 0.
+///
+/// ar stays rarefied over all six groups, g = 2 × min(2, 2, 2, 3, 4, 4) = 4 copies (Hurlbert
+/// 1971): A 2021 Q₁ = C(3,4)/C(6,4) = 0, Q₂ = Q₃ = C(5,4)/C(6,4) = 5/15, ar = 1 + 2·(2/3) = 7/3;
+/// C 2021 Q₂ = 0, Q₄ = C(7,4)/C(8,4) = 35/70, ar = 1.5; D 2020 N = 4 = g, ar = 2.
+#[test]
+fn private_richness_compares_populations_within_a_year() {
+    let output = run_step(&Diversity, &lakes_over_three_years(), json!({}));
+    for name in ["by_group", "by_locus"] {
+        let t = table(&output, name);
+        let expected_par = [Some(1.0), Some(1.0), Some(1.0), Some(0.0), Some(0.75), None];
+        let expected_par_copies = [Some(4.0), Some(6.0), Some(4.0), Some(6.0), Some(6.0), None];
+        for row in 0..6 {
+            match expected_par[row] {
+                Some(par) => assert_close(number(t, row, "par").unwrap(), par, 1e-12),
+                None => assert_eq!(number(t, row, "par"), None, "{name} row {row}"),
+            }
+            assert_eq!(number(t, row, "par_rarefaction_copies"), expected_par_copies[row], "{name} row {row}");
+            assert_eq!(number(t, row, "rarefaction_copies"), Some(4.0), "{name} row {row}");
+        }
+        assert_close(number(t, 1, "ar").unwrap(), 7.0 / 3.0, 1e-12);
+        assert_close(number(t, 4, "ar").unwrap(), 1.5, 1e-12);
+        assert_close(number(t, 5, "ar").unwrap(), 2.0, 1e-12);
+    }
+    let comparisons = findings_with(&output, "par-comparison");
+    assert_eq!(comparisons.len(), 2, "2019 and 2021; Lake D is alone in 2020");
+    assert_eq!(comparisons[1].location.year, Some(2021));
+    assert!(
+        comparisons[1]
+            .message
+            .starts_with("private allelic richness in 2021 compares Lake A, Lake B, Lake C at g = 6 gene copies"),
+        "{}",
+        comparisons[1].message
+    );
+    assert!(comparisons[0].message.contains("in 2019 compares Lake A, Lake B at g = 4"), "{}", comparisons[0].message);
+    let alone = findings_with(&output, "par-alone-in-year");
+    assert_eq!(alone.len(), 1);
+    assert_eq!(alone[0].level, FindingLevel::Info);
+    assert!(alone[0].message.ends_with("own other years: Lake D 2020"), "{}", alone[0].message);
+}
+
+/// With `rarefaction_size` given, ar and par are rarefied to the same g, and both columns say
+/// so (2 × 2 = 4 copies). Lake A 2021 at g = 4 among the 2021 populations (Kalinowski 2004, by
+/// hand): Q₃A = C(5,4)/C(6,4) = 1/3 and allele 3 is absent from B and C, so
+/// π_A = (1 − 1/3)·1·1 = 2/3 (alleles 1 and 2 are each certain in B or C: Q₁B = 0, Q₂C = 0).
+#[test]
+fn a_given_rarefaction_size_serves_ar_and_par() {
+    let output = run_step(&Diversity, &lakes_over_three_years(), json!({"rarefaction_size": 2}));
+    let by_group = table(&output, "by_group");
+    for row in 0..5 {
+        assert_eq!(number(by_group, row, "rarefaction_copies"), Some(4.0));
+        assert_eq!(number(by_group, row, "par_rarefaction_copies"), Some(4.0));
+    }
+    assert_close(number(by_group, 1, "par").unwrap(), 2.0 / 3.0, 1e-12);
+}
+
 /// Issue edge case "monomorphic locus": Ho = He = 0, F and FIS null (METHODS §1), effective
 /// alleles 1, allelic richness 1 (METHODS §3), private richness 0 (the allele is shared),
 /// and one info finding lists it.
@@ -443,7 +533,7 @@ fn genotype_probabilities_under_inbreeding() {
 #[test]
 fn parameters_are_declared_with_defaults() {
     let d = descriptor();
-    assert_eq!(d.version, "0.2.0");
+    assert_eq!(d.version, "0.3.0");
     assert!(d.check_defaults().is_ok());
     let resolved = d.resolve(&Default::default()).unwrap();
     assert_eq!(resolved["bootstrap"], json!(1000));
