@@ -335,6 +335,42 @@ fn no_locus_kept_is_an_error_finding() {
     assert_eq!(number(table(&output, "samples"), 0, "missing"), None);
 }
 
+/// DESIGN (no null without a finding): when the sample checks leave no sample, loci cannot be
+/// judged; an error finding says so and `missing` is null in the loci table.
+#[test]
+fn no_sample_kept_is_an_error_finding() {
+    let mut builder = MatrixBuilder::new(&["L1"]);
+    for (i, l1) in DISTINCT_L1.iter().enumerate() {
+        builder = builder.sample(&format!("s{i}"), "P", 2020, &[l1]);
+    }
+    let output = run(builder, json!({"min_group_size": 7}));
+    let found = findings_with(&output, "no-samples-kept");
+    assert_eq!((found.len(), found[0].level), (1, FindingLevel::Error));
+    let loci = table(&output, "loci");
+    assert_eq!((number(loci, 0, "missing"), number(loci, 0, "typed")), (None, Some(0.0)));
+    assert_eq!((number(loci, 0, "deficit_groups"), number(loci, 0, "tested_groups")), (None, None));
+}
+
+/// When every locus fails the missingness check on the kept samples, `no-loci-kept` names the
+/// threshold to raise: each locus is untyped in 1 of 6 samples (16.7 %), more than 0.1.
+#[test]
+fn no_locus_left_after_the_missingness_check_is_an_error_finding() {
+    let mut builder = MatrixBuilder::new(&["L1", "L2"]);
+    for (i, l1) in DISTINCT_L1.iter().enumerate() {
+        let cells = match i {
+            0 => ["./.", "1/2"],
+            1 => [*l1, "./."],
+            _ => [*l1, if i % 2 == 0 { "1/1" } else { "1/2" }],
+        };
+        builder = builder.sample(&format!("s{i}"), "P", 2020, &cells);
+    }
+    let output = run(builder, json!({"max_missing_locus": 0.1}));
+    let found = findings_with(&output, "no-loci-kept");
+    assert_eq!((found.len(), found[0].level), (1, FindingLevel::Error));
+    assert!(found[0].message.contains("more than max_missing_locus = 0.1 of the samples kept"), "{}", found[0].message);
+    assert!(output.filter.samples.is_empty());
+}
+
 #[test]
 fn empty_data_are_an_error() {
     let no_samples = MatrixBuilder::new(&["L1"]).build();
