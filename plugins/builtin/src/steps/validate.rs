@@ -26,7 +26,13 @@
 //!    typed in both, typed together at `min_loci_for_duplicates` loci or more and at half the
 //!    kept loci or more, are listed in one `duplicate-genotypes` warning and in the samples'
 //!    `duplicate_of` column. Unless `keep_duplicates` is set, one sample of each identical set
-//!    within a group is kept and the others are excluded (the rule is in [`duplicates`]).
+//!    within a group (population, year) is kept and the others are excluded, each naming the
+//!    kept one in its `reason`: the samples are visited by most loci typed, then input order,
+//!    and one identical to a sample already kept in its group is excluded. An identical set thus
+//!    keeps the sample typed at most loci, the earliest in the input on a tie. A repeated
+//!    animal inflates the linkage disequilibrium of its group's sample and biases LD-based Ne
+//!    downward (common practice); pairs in different groups are both kept, since one animal
+//!    may rightly be in the samples of two years or places (details in `duplicates.rs`).
 //! 9. **Monomorphic after the sample checks**: a kept locus left with one allele in the kept
 //!    samples is excluded too, so later steps never see a monomorphic locus.
 //! 10. **Heterozygote deficit** per kept locus and group of kept samples, by the rule the `hwe`

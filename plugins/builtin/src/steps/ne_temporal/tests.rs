@@ -234,7 +234,7 @@ fn per_locus_formulas_by_hand() {
     assert_eq!(drift_statistics(&[], &[]), None);
 }
 
-/// DESIGN: `plan` is only "I" or "II"; the contract's columns come first.
+/// Waples (1989) defines plans I and II only; the results contract's columns come first.
 #[test]
 fn parameters_and_columns_follow_the_contract() {
     let d = descriptor();

@@ -132,9 +132,9 @@ fn count_cell(count: usize) -> Cell {
 mod tests {
     use super::*;
 
-    /// DESIGN (no null without a finding saying why), hand-made rows: the kept locus without
-    /// an r is listed; the excluded one (its reason is in the table) and the kept one with an
-    /// r are not.
+    /// Common practice (every null in a table comes with a finding saying why), hand-made rows:
+    /// the kept locus without an r is listed; the excluded one (its reason is in the table) and
+    /// the kept one with an r are not.
     #[test]
     fn kept_loci_without_r_are_listed_once() {
         let mut loci = Table::new(&["locus", "status", "null_allele"]);

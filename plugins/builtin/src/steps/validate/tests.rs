@@ -21,8 +21,8 @@ fn status<'o>(output: &'o StepOutput, table_name: &str, key_column: &str, key: &
 /// Six genotypes distinct at L1, so no two samples are duplicates.
 const DISTINCT_L1: [&str; 6] = ["1/1", "1/2", "1/3", "2/2", "2/3", "3/3"];
 
-/// DESIGN: "a locus untyped in more than this share of samples is excluded"; 3 of 10 untyped
-/// (0.3) is more than 0.2, exactly 2 of 10 (0.2) is not.
+/// The parameter's definition, "a locus untyped in more than this share of samples is
+/// excluded": 3 of 10 untyped (0.3) is more than 0.2, exactly 2 of 10 (0.2) is not.
 #[test]
 fn locus_above_missing_threshold_is_excluded() {
     let mut builder = MatrixBuilder::new(&["L1", "L2", "L3"]);
@@ -42,8 +42,8 @@ fn locus_above_missing_threshold_is_excluded() {
     assert_eq!(output.filter.loci, vec![Exclusion { name: "L2".into(), reason: reason.into() }]);
 }
 
-/// METHODS §1: loci monomorphic in the whole data set are dropped; a locus typed nowhere has no
-/// allele at all (only reachable with max_missing_locus = 1).
+/// Common practice: loci monomorphic in the whole data set are dropped; a locus typed nowhere
+/// has no allele at all and is dropped by the same check, whatever max_missing_locus.
 #[test]
 fn monomorphic_and_untyped_loci_are_excluded() {
     let mut builder = MatrixBuilder::new(&["L1", "Mono", "Empty"]);
@@ -63,8 +63,8 @@ fn monomorphic_and_untyped_loci_are_excluded() {
     assert_eq!(names, vec!["Mono", "Empty"]);
 }
 
-/// DESIGN: a sample untyped at more than `max_missing_sample` of the kept loci is excluded;
-/// s6 is untyped at 3 of 4 (0.75 > 0.5), s5 at exactly 2 of 4 (0.5) is kept.
+/// The parameter's definition: a sample untyped at more than `max_missing_sample` of the kept
+/// loci is excluded; s6 is untyped at 3 of 4 (0.75 > 0.5), s5 at exactly 2 of 4 (0.5) is kept.
 #[test]
 fn sample_above_missing_threshold_is_excluded() {
     let builder = MatrixBuilder::new(&["L1", "L2", "L3", "L4"])
@@ -97,8 +97,9 @@ fn groups_of_different_sizes() -> MatrixBuilder {
     builder
 }
 
-/// DESIGN: samples of a group with fewer than `min_group_size` kept samples are excluded with a
-/// warning; the count is taken after the missingness checks (C: 5 samples, 4 left).
+/// The parameter's definition: samples of a group with fewer than `min_group_size` kept
+/// samples are excluded with a warning; the count is taken after the missingness checks (C: 5
+/// samples, 4 left).
 #[test]
 fn small_groups_are_excluded_with_a_warning() {
     let output = run(groups_of_different_sizes(), json!({"max_missing_locus": 0.5}));
@@ -244,7 +245,7 @@ fn duplicate_check_is_skipped_with_few_loci() {
     assert!(findings_with(&output, "duplicate-genotypes")[0].message.starts_with("6 pair(s)"));
 }
 
-/// DESIGN: duplicate ids are a data error; one error-level finding per repeated id.
+/// Common practice: duplicate ids are a data error; one error-level finding per repeated id.
 #[test]
 fn duplicate_ids_are_error_findings() {
     let mut builder = MatrixBuilder::new(&["L1"]);
@@ -335,8 +336,9 @@ fn no_locus_kept_is_an_error_finding() {
     assert_eq!(number(table(&output, "samples"), 0, "missing"), None);
 }
 
-/// DESIGN (no null without a finding): when the sample checks leave no sample, loci cannot be
-/// judged; an error finding says so and `missing` is null in the loci table.
+/// Common practice (every null in a table comes with a finding saying why): when the sample
+/// checks leave no sample, loci cannot be judged; an error finding says so and `missing` is
+/// null in the loci table.
 #[test]
 fn no_sample_kept_is_an_error_finding() {
     let mut builder = MatrixBuilder::new(&["L1"]);
@@ -381,7 +383,7 @@ fn empty_data_are_an_error() {
     assert!(err.message.starts_with("there are no loci to validate"));
 }
 
-/// DESIGN: the fixed parameter names and defaults; unknown names are refused with a suggestion.
+/// The documented parameter names and defaults; unknown names are refused with a suggestion.
 #[test]
 fn parameters_have_designed_defaults() {
     let d = descriptor();
