@@ -319,7 +319,8 @@ impl PanelData {
         sheet
     }
 
-    /// The recipe: every built-in analysis with its defaults on the bgzipped VCF `vcf_file`.
+    /// The recipe: every built-in analysis with its defaults on the bgzipped VCF `vcf_file`, and
+    /// `ne-temporal`'s required sampling plan set to I (the samples are taken non-lethally).
     pub fn recipe(&self, vcf_file: &str) -> String {
         format!(
             r#"# Benchmark case: a fictional species in a fictional landscape, with simulated genotypes
@@ -362,6 +363,9 @@ uses = "ne-ld"
 [[step]]
 id = "temporal"
 uses = "ne-temporal"
+[step.params]
+# The voles were sampled non-lethally and released (Waples' plan I, with census_size).
+plan = "I"
 
 [[step]]
 id = "trend"
@@ -474,6 +478,9 @@ mod tests {
         for uses in ["validate", "diversity", "hwe", "differentiation", "ne-ld", "ne-temporal", "trend", "status"] {
             assert!(recipe.contains(&format!("uses = \"{uses}\"")), "{uses}");
         }
+        // `ne-temporal` has no default plan; the simulated samples are taken non-lethally.
+        assert!(recipe.contains("uses = \"ne-temporal\"\n[step.params]\n"), "{recipe}");
+        assert!(recipe.contains("\nplan = \"I\"\n"), "{recipe}");
     }
 
     #[test]

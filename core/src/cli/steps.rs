@@ -81,8 +81,12 @@ fn describe_plugin(path: &std::path::Path, args: &Args) -> anyhow::Result<ExitCo
 pub fn describe(d: &Descriptor) -> String {
     let mut text = format!("{} {}\n  {}\n", d.uses, d.version, d.summary);
     for p in &d.params {
-        let default = if p.default.is_null() { "chosen from the data".to_string() } else { p.default.to_string() };
-        text.push_str(&format!("  {:<22} {} (default {default})\n  {:<22} {}\n", p.name, kind(&p.kind), "", p.description));
+        let default = match (p.required, p.default.is_null()) {
+            (true, _) => "required, no default".to_string(),
+            (false, true) => "default chosen from the data".to_string(),
+            (false, false) => format!("default {}", p.default),
+        };
+        text.push_str(&format!("  {:<22} {} ({default})\n  {:<22} {}\n", p.name, kind(&p.kind), "", p.description));
     }
     text.push('\n');
     text

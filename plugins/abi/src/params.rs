@@ -4,6 +4,10 @@
 //! description. The engine resolves a recipe's `[step.params]` against that declaration:
 //! unknown names, wrong types and out-of-range values are refused, defaults are filled in, and
 //! the resolved map is what the step receives and what the provenance record stores.
+//!
+//! A parameter may instead be *required* ([`Descriptor::required_param`]): it has no default,
+//! and a recipe that leaves it out is refused with [`ParamError::Missing`]. This is for choices
+//! the data cannot make and a silent default would hide, such as how the samples were taken.
 
 use std::collections::BTreeMap;
 
@@ -86,9 +90,19 @@ pub struct ParamSpec {
     #[serde(flatten)]
     pub kind: ParamKind,
     /// Default value; `null` means "chosen from the data" and must be explained in `description`.
+    /// A required parameter has `null` here and no default.
     pub default: Value,
     /// One line saying what it does.
     pub description: String,
+    /// Whether a recipe must give it (there is no default). Absent in JSON means `false`, so
+    /// descriptors written before this field existed keep their meaning.
+    #[serde(default, skip_serializing_if = "is_false")]
+    pub required: bool,
+}
+
+/// For `skip_serializing_if`, which passes a reference.
+fn is_false(value: &bool) -> bool {
+    !*value
 }
 
 /// What a step is and which parameters it takes.
@@ -140,6 +154,16 @@ pub enum ParamError {
         /// What was given.
         found: String,
     },
+    /// A required parameter the recipe does not give.
+    #[error("missing required parameter `{name}`")]
+    Missing {
+        /// Parameter name.
+        name: String,
+        /// What the descriptor allows.
+        expected: String,
+        /// The parameter's description, which says how to choose.
+        description: String,
+    },
 }
 
 impl ParamError {
@@ -148,7 +172,8 @@ impl ParamError {
         match self {
             ParamError::Unknown { name, .. }
             | ParamError::WrongType { name, .. }
-            | ParamError::OutOfRange { name, .. } => name,
+            | ParamError::OutOfRange { name, .. }
+            | ParamError::Missing { name, .. } => name,
         }
     }
 
@@ -166,6 +191,9 @@ impl ParamError {
             ParamError::WrongType { expected, .. } | ParamError::OutOfRange { expected, .. } => {
                 format!("give {expected}")
             }
+            ParamError::Missing { name, expected, description } => {
+                format!("add `{name} = …` under [step.params] ({expected}; there is no default): {description}")
+            }
         }
     }
 }
@@ -178,14 +206,34 @@ impl Descriptor {
 
     /// Adds a parameter (builder style).
     pub fn param(mut self, name: &str, kind: ParamKind, default: Value, description: &str) -> Descriptor {
-        self.params.push(ParamSpec { name: name.into(), kind, default, description: description.into() });
+        self.params.push(ParamSpec {
+            name: name.into(),
+            kind,
+            default,
+            description: description.into(),
+            required: false,
+        });
+        self
+    }
+
+    /// Adds a parameter without a default that every recipe must give (builder style). The
+    /// description is shown in the refusal, so it should say how to choose the value.
+    pub fn required_param(mut self, name: &str, kind: ParamKind, description: &str) -> Descriptor {
+        self.params.push(ParamSpec {
+            name: name.into(),
+            kind,
+            default: Value::Null,
+            description: description.into(),
+            required: true,
+        });
         self
     }
 
     /// Checks the given parameters and fills in defaults.
     ///
     /// # Errors
-    /// The first [`ParamError`] in name order: an unknown name, a wrong type or a value out of range.
+    /// The first [`ParamError`]: an unknown name (in name order), then, in declaration order, a
+    /// required parameter not given (or given as `null`), a wrong type or a value out of range.
     pub fn resolve(&self, given: &BTreeMap<String, Value>) -> Result<Params, ParamError> {
         for name in given.keys() {
             if !self.params.iter().any(|p| &p.name == name) {
@@ -197,7 +245,9 @@ impl Descriptor {
         let mut resolved = Params::new();
         for spec in &self.params {
             let value = match given.get(&spec.name) {
+                Some(v) if spec.required && v.is_null() => return Err(missing(spec)),
                 Some(v) => check_value(spec, v)?,
+                None if spec.required => return Err(missing(spec)),
                 None => spec.default.clone(),
             };
             resolved.insert(spec.name.clone(), value);
@@ -219,6 +269,14 @@ impl Descriptor {
     }
 }
 
+fn missing(spec: &ParamSpec) -> ParamError {
+    ParamError::Missing {
+        name: spec.name.clone(),
+        expected: spec.kind.describe(),
+        description: spec.description.clone(),
+    }
+}
+
 fn check_value(spec: &ParamSpec, value: &Value) -> Result<Value, ParamError> {
     // `null` means "chosen from the data" and is admissible exactly where it is the default
     // (a resolved record written by popgauge carries it explicitly).
@@ -230,11 +288,8 @@ fn check_value(spec: &ParamSpec, value: &Value) -> Result<Value, ParamError> {
         expected: spec.kind.describe(),
         found: describe_value(value),
     };
-    let out_of_range = || ParamError::OutOfRange {
-        name: spec.name.clone(),
-        expected: spec.kind.describe(),
-        found: value.to_string(),
-    };
+    let out_of_range =
+        || ParamError::OutOfRange { name: spec.name.clone(), expected: spec.kind.describe(), found: value.to_string() };
     match &spec.kind {
         ParamKind::Integer { min, max } => {
             let i = value.as_i64().filter(|_| !value.is_f64()).ok_or_else(wrong_type)?;
@@ -335,7 +390,10 @@ mod tests {
     fn refuses_wrong_types_and_ranges() {
         let d = descriptor();
         let err = d.resolve(&given(&[("min_group_size", json!(2.5))])).unwrap_err();
-        assert_eq!(err.to_string(), "parameter `min_group_size` must be a whole number from 1 to 100000, not the number 2.5");
+        assert_eq!(
+            err.to_string(),
+            "parameter `min_group_size` must be a whole number from 1 to 100000, not the number 2.5"
+        );
         let err = d.resolve(&given(&[("max_missing_locus", json!(1.5))])).unwrap_err();
         assert_eq!(err.to_string(), "parameter `max_missing_locus` is 1.5 but must be a number from 0 to 1");
         let err = d.resolve(&given(&[("plan", json!("III"))])).unwrap_err();
@@ -351,5 +409,61 @@ mod tests {
         let d = descriptor().param("size", ParamKind::Integer { min: 2, max: 10 }, Value::Null, "automatic when null");
         let resolved = d.resolve(&given(&[("size", Value::Null)])).unwrap();
         assert_eq!(resolved["size"], Value::Null);
+    }
+
+    fn with_required_plan() -> Descriptor {
+        Descriptor::new("ne-temporal", "0.1.0", "temporal Ne")
+            .param("level", ParamKind::Number { min: 0.5, max: 0.99 }, json!(0.95), "interval level")
+            .required_param("plan", ParamKind::Choice { choices: vec!["I".into(), "II".into()] }, "how it was sampled")
+    }
+
+    /// Common practice (a choice the data cannot make has no silent default): a required
+    /// parameter left out, or given as null, is refused with its name, its admissible values
+    /// and its description on the help line.
+    #[test]
+    fn a_required_parameter_must_be_given() {
+        let d = with_required_plan();
+        assert!(d.check_defaults().is_ok());
+        for given_params in [given(&[]), given(&[("level", json!(0.9))]), given(&[("plan", Value::Null)])] {
+            let err = d.resolve(&given_params).unwrap_err();
+            assert_eq!(
+                err,
+                ParamError::Missing {
+                    name: "plan".into(),
+                    expected: "one of \"I\", \"II\"".into(),
+                    description: "how it was sampled".into()
+                }
+            );
+            assert_eq!(err.name(), "plan");
+            assert_eq!(err.to_string(), "missing required parameter `plan`");
+            assert_eq!(
+                err.help(),
+                "add `plan = …` under [step.params] (one of \"I\", \"II\"; there is no default): how it was sampled"
+            );
+        }
+        let resolved = d.resolve(&given(&[("plan", json!("I"))])).unwrap();
+        assert_eq!((&resolved["plan"], &resolved["level"]), (&json!("I"), &json!(0.95)));
+        let err = d.resolve(&given(&[("plan", json!("III"))])).unwrap_err();
+        assert!(matches!(err, ParamError::OutOfRange { .. }), "a given value is still checked");
+    }
+
+    /// EVOLUTION.md (an optional JSON field keeps the ABI version): `required` is written only
+    /// when true, and a descriptor without it (as older plugins send) reads as not required.
+    #[test]
+    fn required_is_an_optional_json_field() {
+        let plain = serde_json::to_value(descriptor()).unwrap();
+        assert!(plain["params"].as_array().unwrap().iter().all(|p| p.get("required").is_none()));
+        let old_plugin = json!({
+            "uses": "x", "version": "1.0.0", "summary": "s",
+            "params": [{"name": "n", "type": "integer", "min": 1, "max": 9, "default": 3, "description": "d"}]
+        });
+        let read: Descriptor = serde_json::from_value(old_plugin).unwrap();
+        assert!(!read.params[0].required);
+        let d = with_required_plan();
+        let json = serde_json::to_value(&d).unwrap();
+        assert_eq!(json["params"][1]["required"], json!(true));
+        assert_eq!(json["params"][1]["default"], Value::Null);
+        let back: Descriptor = serde_json::from_value(json).unwrap();
+        assert_eq!(back, d);
     }
 }

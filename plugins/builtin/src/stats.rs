@@ -11,6 +11,7 @@ pub mod fdr;
 pub mod gst;
 pub mod heterozygosity;
 pub mod hwe_exact;
+pub mod hwe_groups;
 pub mod intervals;
 pub mod null_allele;
 pub mod permutation;

@@ -107,7 +107,7 @@ fn steps(by_year: bool) -> Vec<(&'static str, Value)> {
         ("diversity", json!({"bootstrap": 50})),
         ("hwe", json!({"permutations": 200})),
         ("differentiation", json!({"permutations": 99, "bootstrap": 50, "by_year": by_year})),
-        ("ne-temporal", json!({})),
+        ("ne-temporal", json!({"plan": "II"})),
         ("ne-hetx", json!({})),
     ]
 }

@@ -5,7 +5,7 @@
 //! # Method
 //! At each locus, in each group, the *n* individuals typed at both alleles (code 0 = untyped
 //! is left out, never imputed) form a genotype table, tested given its allele counts
-//! ([`crate::stats::hwe_exact`]):
+//! ([`crate::stats::hwe_exact`], through [`crate::stats::hwe_groups`], which `validate` shares):
 //!
 //! - two alleles: the exact test of Wigginton, Cutler & Abecasis (2005) by recurrence;
 //! - three or more: complete enumeration of the tables when they are few (Guo & Thompson
@@ -41,30 +41,24 @@
 //! - `by_group`: population, year, loci_tested, chi2, df, p_value.
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, FindingLevel, Group, PackedGenotypes, ParamKind, SampleSet,
-    Seed, Step, StepContext, StepError, StepOutput, Table,
+    Cell, Descriptor, Finding, FindingLevel, ParamKind, Step, StepContext, StepError, StepOutput, Table,
 };
 
 use crate::packing::pack;
-use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
 use crate::special_values::{explain, group_name, rows_where};
-use crate::stats::fdr::{
-    BENJAMINI_HOCHBERG_1995, FISHER_1932, FisherCombination, benjamini_hochberg, fisher_combination,
-};
-use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
-use crate::stats::hwe_exact::{self, GenotypeTable, HweTest, HweWorkspace, TestSettings, test_rng};
-use crate::stats::null_allele::{BROOKFIELD_1996, brookfield_null_allele_frequency};
+use crate::stats::fdr::{BENJAMINI_HOCHBERG_1995, FISHER_1932, FisherCombination, fisher_combination};
+use crate::stats::heterozygosity::NEI_1978;
+use crate::stats::hwe_exact::{self, TestSettings};
+use crate::stats::hwe_groups::{GroupTests, LocusTest, assign_q_values, test_groups};
+use crate::stats::null_allele::BROOKFIELD_1996;
 
 mod findings;
 mod tables;
 
-/// q below this counts as a significant departure for the null-allele indication.
-pub const SIGNIFICANT_Q: f64 = 0.05;
-/// Brookfield's r at or above this counts towards the null-allele indication (METHODS §4.4).
-pub const NULL_ALLELE_R: f64 = 0.05;
+pub use crate::stats::hwe_groups::{Direction, NULL_ALLELE_R, SIGNIFICANT_Q};
 
 /// Parameters of `hwe`, as resolved from the descriptor (defaults live there).
 #[derive(Debug, Clone, PartialEq, Deserialize)]
@@ -102,7 +96,8 @@ impl Step for Hwe {
         let params: Params = ctx.params_as()?;
         let settings = TestSettings { permutations: params.permutations, ..TestSettings::default() };
         let groups = ctx.view.groups();
-        let mut results = test_groups(&pack(ctx.view), &groups, &settings, ctx.seed);
+        let loci: Vec<usize> = (0..ctx.view.n_loci()).collect();
+        let mut results = test_groups(&pack(ctx.view), &groups, &loci, &settings, ctx.seed);
         let family_size = assign_q_values(&mut results);
         let combined: Vec<Option<FisherCombination>> = results.iter().map(combine_group).collect();
         let mut output = StepOutput::default();
@@ -114,172 +109,6 @@ impl Step for Hwe {
         output.citations = citations();
         Ok(output)
     }
-}
-
-/// Whether heterozygotes are fewer or more than expected.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Direction {
-    /// Ho < He.
-    Deficit,
-    /// Ho > He.
-    Excess,
-    /// Ho = He.
-    None,
-}
-
-impl Direction {
-    /// The spelling in result tables.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            Direction::Deficit => "deficit",
-            Direction::Excess => "excess",
-            Direction::None => "none",
-        }
-    }
-
-    /// Ho against the unbiased He, compared exactly: Ho < He ⟺ H·N(N − 1) < n·(N² − Σcᵤ²).
-    fn of(counts: &AlleleCounts) -> Option<Direction> {
-        if counts.typed < 2 {
-            return None;
-        }
-        let n = u128::from(counts.typed);
-        let copies = 2 * n;
-        let squares: u128 = counts.alleles.iter().map(|&c| u128::from(c) * u128::from(c)).sum();
-        let observed = u128::from(counts.heterozygotes) * copies * (copies - 1);
-        let expected = n * (copies * copies - squares);
-        Some(match observed.cmp(&expected) {
-            std::cmp::Ordering::Less => Direction::Deficit,
-            std::cmp::Ordering::Greater => Direction::Excess,
-            std::cmp::Ordering::Equal => Direction::None,
-        })
-    }
-}
-
-/// Why a locus in a group has no test.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum Untested {
-    /// Fewer than two typed individuals.
-    TooFewTyped,
-    /// One allele only.
-    Monomorphic,
-    /// Too many tables to enumerate and `permutations` = 0.
-    NoDraws,
-}
-
-/// The test of one locus in one group.
-#[derive(Debug, Clone, PartialEq)]
-struct LocusTest {
-    heterozygosity: LocusHeterozygosity,
-    direction: Option<Direction>,
-    outcome: Result<HweTest, Untested>,
-    q_value: Option<f64>,
-}
-
-impl LocusTest {
-    fn p_value(&self) -> Option<f64> {
-        self.outcome.as_ref().ok().map(|t| t.p_value)
-    }
-
-    fn null_allele_r(&self) -> Option<f64> {
-        Some(brookfield_null_allele_frequency(self.heterozygosity.observed?, self.heterozygosity.expected?))
-    }
-
-    /// A significant deficit with Brookfield's r ≥ 0.05 (METHODS §4.4).
-    fn indicates_null_allele(&self) -> bool {
-        self.direction == Some(Direction::Deficit)
-            && self.q_value.is_some_and(|q| q < SIGNIFICANT_Q)
-            && self.null_allele_r().is_some_and(|r| r >= NULL_ALLELE_R)
-    }
-}
-
-/// Tests of every locus of one group, in view locus order.
-type GroupTests = Vec<LocusTest>;
-
-/// Tests every locus in every group, groups in parallel; each test draws only from its own
-/// named stream, so the thread count does not change any result.
-fn test_groups(packed: &PackedGenotypes<'_>, groups: &[Group], settings: &TestSettings, seed: Seed) -> Vec<GroupTests> {
-    groups.par_iter().map(|group| test_group(packed, group, settings, seed)).collect()
-}
-
-fn test_group(packed: &PackedGenotypes<'_>, group: &Group, settings: &TestSettings, seed: Seed) -> GroupTests {
-    let view = packed.view();
-    let members = packed.sample_set(&group.samples);
-    let mut counts = AlleleCounts::default();
-    let mut table = GenotypeTable::new();
-    let mut workspace = HweWorkspace::new();
-    let mut compact: Vec<usize> = Vec::new();
-    (0..view.n_loci())
-        .map(|locus| {
-            packed.allele_counts_into(locus, &members, &mut counts);
-            fill_table(packed, locus, &members, &counts, &mut compact, &mut table);
-            let rng = || test_rng(seed, &group.population, group.year, &view.locus(locus).name);
-            let outcome = match workspace.test(&table, settings, rng) {
-                Some(test) => Ok(test),
-                None if counts.typed < 2 => Err(Untested::TooFewTyped),
-                None if counts.distinct() < 2 => Err(Untested::Monomorphic),
-                None => Err(Untested::NoDraws),
-            };
-            LocusTest {
-                heterozygosity: LocusHeterozygosity::from_counts(&counts),
-                direction: Direction::of(&counts),
-                outcome,
-                q_value: None,
-            }
-        })
-        .collect()
-}
-
-/// The genotype table of `members` at `locus`, alleles relabelled in code order `0..k`: from
-/// the genotype counts at a packed locus, sample by sample otherwise.
-fn fill_table(
-    packed: &PackedGenotypes<'_>,
-    locus: usize,
-    members: &SampleSet,
-    counts: &AlleleCounts,
-    compact: &mut Vec<usize>,
-    table: &mut GenotypeTable,
-) {
-    compact.clear();
-    let mut next = 0;
-    compact.extend(counts.alleles.iter().map(|&c| {
-        let index = next;
-        next += usize::from(c > 0);
-        index
-    }));
-    table.reset(next);
-    if let (Some(biallelic), Some(bits)) = (packed.locus(locus), members.bits()) {
-        let genotypes = biallelic.genotype_counts(bits);
-        let (low, high) = (usize::from(biallelic.low.0), usize::from(biallelic.high.0));
-        for (a, b, n) in [
-            (low, low, genotypes.low_homozygotes),
-            (low, high, genotypes.heterozygotes),
-            (high, high, genotypes.high_homozygotes),
-        ] {
-            if n > 0 {
-                table.add_many(compact[a], compact[b], n);
-            }
-        }
-        return;
-    }
-    let view = packed.view();
-    for &s in members.samples() {
-        if let Some((a, b)) = view.genotype(s, locus) {
-            table.add(compact[a.0 as usize], compact[b.0 as usize]);
-        }
-    }
-}
-
-/// Benjamini–Hochberg q-values over every test of the step; returns the family size m.
-fn assign_q_values(results: &mut [GroupTests]) -> usize {
-    let p_values: Vec<f64> = results.iter().flatten().filter_map(LocusTest::p_value).collect();
-    let q_values = benjamini_hochberg(&p_values);
-    let mut next = q_values.iter();
-    for test in results.iter_mut().flatten() {
-        if test.p_value().is_some() {
-            test.q_value = next.next().copied();
-        }
-    }
-    p_values.len()
 }
 
 fn combine_group(tests: &GroupTests) -> Option<FisherCombination> {

@@ -21,8 +21,10 @@
 //! the per-locus numbers of typed individuals, weighted by Kₗ (METHODS §6), and are used in every
 //! sampling correction.
 //!
-//! **Sampling plans (Waples 1989).** Plan II (default; individuals sampled before reproduction
-//! and removed, or sampling effectively with replacement): Ne = t / {2[F − 1/(2S₀) − 1/(2S_t)]}.
+//! **Sampling plans (Waples 1989).** `plan` has no default: the recipe must say how the
+//! animals were sampled, since the choice changes every estimate and the data cannot tell.
+//! Plan II (individuals sampled before reproduction and removed, or sampling effectively with
+//! replacement): Ne = t / {2[F − 1/(2S₀) − 1/(2S_t)]}.
 //! Plan I (sampled after reproduction, or non-lethally and returned, from N adults):
 //! Ne = t / {2[F − 1/(2S₀) − 1/(2S_t) + 1/N]}, with N the population's `census_size` from the
 //! population sheet; without it there is no plan-I estimate (a `census-size-missing` finding).
@@ -60,7 +62,6 @@ use popgauge_abi::{
 
 use crate::packing::pack;
 use serde::Deserialize;
-use serde_json::json;
 
 use crate::special_values::{LowerBound, Row, explain, infinite_estimate_reading, rows_where};
 use crate::stats::bootstrap::{Interval, jackknife_loci, jackknife_standard_error, sum_terms};
@@ -99,7 +100,7 @@ pub enum Plan {
     II,
 }
 
-/// Parameters of `ne-temporal`, as resolved from the descriptor (defaults live there).
+/// Parameters of `ne-temporal`, as resolved from the descriptor (`plan` is required).
 #[derive(Debug, Clone, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Params {
@@ -107,7 +108,7 @@ pub struct Params {
     pub plan: Plan,
 }
 
-/// The descriptor of `ne-temporal`: its name, version and parameters with defaults.
+/// The descriptor of `ne-temporal`: its name, version and its one, required, parameter.
 pub fn descriptor() -> Descriptor {
     Descriptor::new(
         "ne-temporal",
@@ -115,12 +116,12 @@ pub fn descriptor() -> Descriptor {
         "Effective population size from allele-frequency change between sampling years (Fc, Fk, Fs) with the \
          sampling plans of Waples (1989)",
     )
-    .param(
+    .required_param(
         "plan",
         ParamKind::Choice { choices: vec!["I".into(), "II".into()] },
-        json!("II"),
-        "sampling plan: \"II\" sampled before reproduction (or lethally); \"I\" after reproduction or non-lethally, \
-         using census_size from the population sheet",
+        "the sampling plan of Waples (1989), required because it changes every estimate: \"I\" if the animals \
+         were sampled after reproduction or non-lethally (uses census_size from the population sheet), \"II\" if \
+         they were sampled before reproduction or lethally",
     )
 }
 

@@ -3,9 +3,9 @@
 
 use popgauge_abi::{Finding, GenotypeView, Group, Where};
 
-use super::{GroupTests, NULL_ALLELE_R, SIGNIFICANT_Q, Untested};
 use crate::special_values::listing;
 use crate::stats::hwe_exact::{TestMethod, TestSettings};
+use crate::stats::hwe_groups::{DeficitEvidence, GroupTests, NULL_ALLELE_R, SIGNIFICANT_Q, Untested};
 
 pub(super) fn collect(
     view: &GenotypeView<'_>,
@@ -94,12 +94,11 @@ fn fdr_family(family_size: usize) -> Finding {
 fn null_allele_indications(view: &GenotypeView<'_>, groups: &[Group], results: &[GroupTests]) -> Vec<Finding> {
     (0..view.n_loci())
         .filter_map(|locus| {
-            let tested: Vec<usize> = (0..groups.len()).filter(|&g| results[g][locus].outcome.is_ok()).collect();
-            let flagged: Vec<usize> =
-                tested.iter().copied().filter(|&g| results[g][locus].indicates_null_allele()).collect();
-            if flagged.is_empty() || 2 * flagged.len() < tested.len() {
+            let evidence = DeficitEvidence::at(results, locus);
+            if !evidence.flagged() {
                 return None;
             }
+            let (flagged, tested) = (&evidence.significant, &evidence.tested);
             let names: Vec<String> =
                 flagged.iter().map(|&g| format!("{} {}", groups[g].population, groups[g].year)).collect();
             let name = &view.locus(locus).name;

@@ -1,7 +1,7 @@
 //! Unit tests of `ne-temporal`; the simulation checks of bias and coverage are in
 //! `coverage.rs`.
 
-use popgauge_abi::{GenotypeMatrix, PopulationInfo, Seed};
+use popgauge_abi::{GenotypeMatrix, ParamError, PopulationInfo, Seed};
 use serde_json::json;
 
 use super::*;
@@ -77,7 +77,7 @@ fn item_14_matrix() -> GenotypeMatrix {
 /// (2007) print no worked example that could be consulted here, so these are computed values.
 #[test]
 fn item_14_check_values() {
-    let output = run_with(&item_14_matrix(), json!({}), &assessment(Some(1.0), None));
+    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let estimates = table(&output, "estimates");
     assert_eq!(estimates.rows.len(), 1);
     assert_eq!(number(estimates, 0, "generations"), Some(4.0));
@@ -135,18 +135,18 @@ fn plan_one_without_census_has_no_estimate() {
 /// field); with samples less than one generation apart, a warning and no estimate.
 #[test]
 fn generations_come_from_the_generation_time() {
-    let output = run_with(&item_14_matrix(), json!({}), &assessment(None, None));
+    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(None, None));
     assert_eq!(number(table(&output, "estimates"), 0, "ne_fs"), None);
     assert_eq!(number(table(&output, "estimates"), 0, "generations"), None);
     let error = findings_with(&output, "generation-time-missing");
     assert_eq!(error[0].level, popgauge_abi::FindingLevel::Error);
     assert!(error[0].message.contains("generation_time_years"));
-    let output = run_with(&item_14_matrix(), json!({}), &assessment(Some(5.0), None));
+    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(5.0), None));
     assert_eq!(number(table(&output, "estimates"), 0, "generations"), Some(0.8));
     assert_eq!(number(table(&output, "estimates"), 0, "ne_fs"), None);
     assert_eq!(findings_with(&output, "too-few-generations").len(), 1);
     // With 2-year generations the 4 years are 2 generations: Ne halves (Ne ∝ t).
-    let output = run_with(&item_14_matrix(), json!({}), &assessment(Some(2.0), None));
+    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(2.0), None));
     assert_close(number(table(&output, "estimates"), 0, "ne_fs").unwrap(), 160.3886 / 2.0, 1e-3);
 }
 
@@ -174,7 +174,7 @@ fn missing_data_use_per_locus_sample_sizes() {
         let cells: Vec<&str> = cells.iter().map(String::as_str).collect();
         builder = builder.sample(&meta.id, &meta.population, meta.year, &cells);
     }
-    let output = run_with(&builder.build(), json!({}), &assessment(Some(1.0), None));
+    let output = run_with(&builder.build(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let estimates = table(&output, "estimates");
     assert_close(number(estimates, 0, "s_start").unwrap(), 9.0 / 0.19, 1e-9);
     assert_eq!(number(estimates, 0, "s_end"), Some(50.0));
@@ -194,7 +194,7 @@ fn comparisons_and_infinite_estimates() {
         }
     }
     builder = builder.sample("lone", "Lone", 2004, &["a/b", "c/d"]);
-    let output = run_with(&builder.build(), json!({}), &assessment(Some(1.0), None));
+    let output = run_with(&builder.build(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let estimates = table(&output, "estimates");
     let years: Vec<(f64, f64)> = (0..estimates.rows.len())
         .map(|r| (number(estimates, r, "year_start").unwrap(), number(estimates, r, "year_end").unwrap()))
@@ -237,15 +237,16 @@ fn per_locus_formulas_by_hand() {
     assert_eq!(drift_statistics(&[], &[]), None);
 }
 
-/// DESIGN: `plan` is "II" by default and only "I" or "II"; the contract's columns come first.
+/// Waples (1989) defines plans I and II only; the results contract's columns come first.
 #[test]
 fn parameters_and_columns_follow_the_contract() {
     let d = descriptor();
     assert!(d.check_defaults().is_ok());
-    assert_eq!(d.resolve(&Default::default()).unwrap()["plan"], json!("II"));
+    let plan_two = [("plan".to_string(), json!("II"))].into_iter().collect();
+    assert_eq!(d.resolve(&plan_two).unwrap()["plan"], json!("II"));
     let bad = [("plan".to_string(), json!("III"))].into_iter().collect();
     assert!(d.resolve(&bad).is_err());
-    let output = run_with(&item_14_matrix(), json!({}), &assessment(Some(1.0), None));
+    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let contract = [
         "population",
         "year_start",
@@ -266,4 +267,22 @@ fn parameters_and_columns_follow_the_contract() {
     let caution = &findings_with(&output, "ne-interpretation")[0].message;
     assert!(caution.contains("uncertainty") && caution.contains("qualified geneticist"));
     assert_eq!(output.citations.len(), CITATIONS.len());
+}
+
+/// Waples (1989) plans I and II differ in the sampling term 1/N and in what the samples are, so
+/// no plan is assumed: a recipe without `plan` is refused, and the help line says what each
+/// plan means (I: after reproduction or non-lethal, with the census size; II: before
+/// reproduction or lethal) and where the plans come from.
+#[test]
+fn the_sampling_plan_must_be_chosen() {
+    let err = descriptor().resolve(&Default::default()).unwrap_err();
+    assert!(matches!(err, ParamError::Missing { .. }), "{err:?}");
+    assert_eq!(err.to_string(), "missing required parameter `plan`");
+    assert_eq!(
+        err.help(),
+        "add `plan = …` under [step.params] (one of \"I\", \"II\"; there is no default): the sampling plan of \
+         Waples (1989), required because it changes every estimate: \"I\" if the animals were sampled after \
+         reproduction or non-lethally (uses census_size from the population sheet), \"II\" if they were sampled \
+         before reproduction or lethally"
+    );
 }

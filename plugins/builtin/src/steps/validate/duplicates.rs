@@ -1,12 +1,25 @@
-//! Duplicate multilocus genotypes: pairs of samples identical at every locus typed in both.
+//! Duplicate multilocus genotypes: pairs of samples identical at every locus typed in both, and
+//! which sample of each identical set is kept.
 //!
 //! A genotype is unordered (`1/2` equals `2/1`). A pair counts only when typed together at
 //! `min_compared` loci or more, so two sparsely typed samples do not match by default.
 //! Samples typed at every locus are bucketed by their whole genotype vector (a sorted map, so
 //! the result is deterministic), which finds their pairs in O(n log n · L); only pairs with at
 //! least one incompletely typed sample are compared one by one.
+//!
+//! **Which sample is kept** ([`choose_removals`]). The same animal sampled twice in one group
+//! inflates the linkage disequilibrium of that sample and so biases LD-based Ne downward
+//! (common practice: one of each identical set is kept). Within each group (population, year)
+//! the samples in a pair are visited in order of most loci typed, then input order; a sample
+//! identical to one already kept in its group is excluded, naming that one, and any other is
+//! kept. For a set identical at every locus this keeps exactly one sample: the one typed at
+//! most loci, the earliest in the input on a tie. Identity where both are typed is not
+//! transitive (x may match a and c at the loci x has, while a and c differ elsewhere); the
+//! visiting order then keeps a and c, which differ, and excludes x. Pairs in different groups
+//! are kept: the same animal may rightly appear in the samples of two years or places, and
+//! each group's estimate sees it once.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 use popgauge_abi::{GenotypeView, LocusIdx, SampleIdx};
 
@@ -19,6 +32,43 @@ pub(super) struct DuplicatePair {
     pub second: SampleIdx,
     /// Loci typed in both.
     pub compared: usize,
+}
+
+/// A sample excluded as a duplicate of a kept one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) struct Removal {
+    /// The excluded sample.
+    pub removed: SampleIdx,
+    /// The kept sample it repeats, in the same group.
+    pub kept: SampleIdx,
+    /// Loci typed in both.
+    pub compared: usize,
+}
+
+/// Within each group, one sample of each identical set is kept (see the module doc). `group_of`
+/// and `typed` (loci typed) are indexed by view sample; the result is in view sample order.
+pub(super) fn choose_removals(pairs: &[DuplicatePair], group_of: &[usize], typed: &[usize]) -> Vec<Removal> {
+    let mut partners: BTreeMap<SampleIdx, Vec<(SampleIdx, usize)>> = BTreeMap::new();
+    for pair in pairs.iter().filter(|p| group_of[p.first] == group_of[p.second]) {
+        partners.entry(pair.first).or_default().push((pair.second, pair.compared));
+        partners.entry(pair.second).or_default().push((pair.first, pair.compared));
+    }
+    let mut order: Vec<SampleIdx> = partners.keys().copied().collect();
+    order.sort_by_key(|&s| (std::cmp::Reverse(typed[s]), s));
+    let rank: BTreeMap<SampleIdx, usize> = order.iter().enumerate().map(|(r, &s)| (s, r)).collect();
+    let mut kept: BTreeSet<SampleIdx> = BTreeSet::new();
+    let mut removals = Vec::new();
+    for sample in order {
+        let first_kept = partners[&sample].iter().filter(|(p, _)| kept.contains(p)).min_by_key(|(p, _)| rank[p]);
+        match first_kept {
+            Some(&(keeper, compared)) => removals.push(Removal { removed: sample, kept: keeper, compared }),
+            None => {
+                kept.insert(sample);
+            }
+        }
+    }
+    removals.sort_by_key(|r| r.removed);
+    removals
 }
 
 /// An unordered genotype as (smaller code, larger code); `None` when untyped.
@@ -152,5 +202,33 @@ mod tests {
             .sample("y", "P", 1, &["1/2", "3/3", "./."])
             .sample("z", "P", 1, &["1/2", "3/3", "1/2"]);
         assert_eq!(pairs(builder, 1), vec![(0, 1, 1), (1, 2, 2)]);
+    }
+
+    fn pair(first: usize, second: usize) -> DuplicatePair {
+        DuplicatePair { first, second, compared: 6 }
+    }
+
+    fn removed_and_kept(pairs: &[DuplicatePair], group_of: &[usize], typed: &[usize]) -> Vec<(usize, usize)> {
+        choose_removals(pairs, group_of, typed).into_iter().map(|r| (r.removed, r.kept)).collect()
+    }
+
+    /// Common practice, hand-made sets: of 0, 2 and 5 (identical, equally typed) the earliest
+    /// is kept; of 1 and 3 the one typed at more loci (3); 4 in another group is kept although
+    /// it matches 0.
+    #[test]
+    fn one_of_each_set_is_kept_within_a_group() {
+        let pairs = [pair(0, 2), pair(0, 4), pair(0, 5), pair(1, 3), pair(2, 5)];
+        let group_of = [0, 0, 0, 0, 1, 0];
+        let typed = [6, 5, 6, 6, 6, 6];
+        assert_eq!(removed_and_kept(&pairs, &group_of, &typed), vec![(1, 3), (2, 0), (5, 0)]);
+    }
+
+    /// Hand-made case: x (typed at fewer loci) matches a and c, which differ from each other;
+    /// a and c are both kept and x is excluded as a duplicate of a, the first kept.
+    #[test]
+    fn a_sample_matching_two_different_ones_is_the_one_excluded() {
+        let (a, x, c) = (0, 1, 2);
+        let pairs = [pair(a, x), pair(x, c)];
+        assert_eq!(removed_and_kept(&pairs, &[0, 0, 0], &[6, 4, 6]), vec![(x, a)]);
     }
 }

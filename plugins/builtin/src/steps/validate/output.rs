@@ -4,7 +4,9 @@ use popgauge_abi::{Cell, Exclusion, Filter, Finding, FindingLevel, StepError, St
 
 use super::Screen;
 use crate::special_values::{explain, rows_where};
+use crate::stats::fdr::BENJAMINI_HOCHBERG_1995;
 use crate::stats::heterozygosity::NEI_1978;
+use crate::stats::hwe_exact;
 use crate::stats::null_allele::BROOKFIELD_1996;
 
 impl Screen<'_> {
@@ -16,24 +18,37 @@ impl Screen<'_> {
         output.tables.insert("loci".into(), loci);
         output.tables.insert("samples".into(), self.samples_table()?);
         output.tables.insert("groups".into(), self.groups_table()?);
-        output.citations = vec![BROOKFIELD_1996.into(), NEI_1978.into()];
+        output.citations = vec![BROOKFIELD_1996.into(), NEI_1978.into(), BENJAMINI_HOCHBERG_1995.into()];
+        output.citations.extend(hwe_exact::CITATIONS.iter().map(|c| c.to_string()));
         output.filter = self.filter();
         Ok(output)
     }
 
     fn loci_table(&self) -> Result<Table, StepError> {
-        let mut table =
-            Table::new(&["locus", "missing", "alleles", "status", "reason", "typed", "bad_cells", "null_allele"]);
+        let mut table = Table::new(&[
+            "locus",
+            "missing",
+            "alleles",
+            "status",
+            "reason",
+            "typed",
+            "bad_cells",
+            "null_allele",
+            "deficit_groups",
+            "tested_groups",
+        ]);
         for (l, locus) in self.loci.iter().enumerate() {
             table.push_row(vec![
                 Cell::text(&self.view.locus(l).name),
-                Cell::number(locus.missing),
+                Cell::maybe(locus.missing),
                 count_cell(locus.alleles),
                 status_cell(&locus.exclusion),
                 reason_cell(&locus.exclusion),
                 count_cell(locus.typed),
                 count_cell(locus.bad_cells),
                 Cell::maybe(locus.null_allele),
+                locus.deficit.map_or(Cell::Null, |(significant, _)| count_cell(significant)),
+                locus.deficit.map_or(Cell::Null, |(_, tested)| count_cell(tested)),
             ])?;
         }
         Ok(table)
@@ -117,9 +132,9 @@ fn count_cell(count: usize) -> Cell {
 mod tests {
     use super::*;
 
-    /// DESIGN (no null without a finding saying why), hand-made rows: the kept locus without
-    /// an r is listed; the excluded one (its reason is in the table) and the kept one with an
-    /// r are not.
+    /// Common practice (every null in a table comes with a finding saying why), hand-made rows:
+    /// the kept locus without an r is listed; the excluded one (its reason is in the table) and
+    /// the kept one with an r are not.
     #[test]
     fn kept_loci_without_r_are_listed_once() {
         let mut loci = Table::new(&["locus", "status", "null_allele"]);
