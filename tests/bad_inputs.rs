@@ -200,9 +200,9 @@ fn check_success(expect: &Expect, out: &Path) -> Vec<String> {
     problems
 }
 
-/// Issue 10: every case of the corpus gives its error paragraph or its finding.
+/// Every case of the corpus gives its error paragraph or its finding.
 #[test]
-fn issue_10_bad_input_corpus() {
+fn bad_input_corpus_is_refused_or_reported_as_expected() {
     let corpus = repo_root().join("tests/bad-inputs");
     let cases: Vec<String> = entries(&corpus).into_iter().filter(|name| !name.starts_with('_')).collect();
     assert!(cases.len() >= 30, "the corpus has {} cases", cases.len());

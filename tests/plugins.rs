@@ -255,11 +255,11 @@ fn failures_while_running_are_contained() {
     assert_eq!(step(&doc, "diversity")["tables"]["by_group"]["rows"].as_array().unwrap().len(), 2);
 }
 
-/// Issue 10: SIGTERM while a plugin hangs in its worker process kills the worker (it is not
+/// SIGTERM while a plugin hangs in its worker process kills the worker (it is not
 /// left to its ten-minute time limit) and leaves no output and no temporary folder.
 #[cfg(target_os = "linux")]
 #[test]
-fn issue_10_interrupt_kills_the_plugin_worker() {
+fn an_interrupt_kills_the_plugin_worker() {
     let case = Case::fixture("minimal");
     let sha = install(&case, MISBEHAVE, "libmisbehave.so");
     recipe_with(&case, &plugin_step("stuck", "libmisbehave.so", &sha, "[step.params]\nmode = \"hang\""));

@@ -190,10 +190,17 @@ fn slow_case() -> Case {
     for l in 0..20 {
         text += &format!(",L{l}");
     }
-    for s in 0..200 {
+    // Alleles from a multiplicative hash of (sample, locus), so that no two samples share a
+    // multilocus genotype (validate would keep one of each identical set).
+    let allele = |s: u64, l: u64, k: u64| {
+        let h = (s.wrapping_mul(0x9E37_79B9_7F4A_7C15) ^ l.wrapping_mul(0xC2B2_AE3D_27D4_EB4F) ^ k)
+            .wrapping_mul(0xFF51_AFD7_ED55_8CCD);
+        (h >> 61) + 1
+    };
+    for s in 0..200u64 {
         text += &format!("\ns{s},{},2020", if s % 2 == 0 { "North" } else { "South" });
-        for l in 0..20 {
-            text += &format!(",{}/{}", (s * 7 + l) % 8, (s * 3 + l * 5) % 8);
+        for l in 0..20u64 {
+            text += &format!(",{}/{}", allele(s, l, 1), allele(s, l, 2));
         }
     }
     case.write("genotypes.csv", text + "\n");
@@ -201,11 +208,11 @@ fn slow_case() -> Case {
     case
 }
 
-/// Issue 10: Ctrl-C (SIGINT), SIGTERM (a job scheduler or `kill`) and SIGHUP (a closed
+/// Ctrl-C (SIGINT), SIGTERM (a job scheduler or `kill`) and SIGHUP (a closed
 /// terminal) during a run each exit 130 and leave no output folder, no temporary folder beside
 /// it, the case folder as it was and nothing in the temporary directory.
 #[test]
-fn issue_10_interrupts_leave_nothing_behind() {
+fn interrupts_leave_nothing_behind() {
     for signal in [libc::SIGINT, libc::SIGTERM, libc::SIGHUP] {
         let case = slow_case();
         let tmpdir = tempfile::tempdir().unwrap();

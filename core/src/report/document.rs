@@ -10,6 +10,7 @@
 //! bytes in `sys.inputs.data`, so user text (titles, population names, notes) is never
 //! spliced into Typst source and prints literally.
 
+mod ne_overview;
 mod sections;
 mod summary;
 pub mod table;

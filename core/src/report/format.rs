@@ -230,6 +230,15 @@ pub fn ne_preference(prefer: &[&str]) -> String {
     }
 }
 
+/// "p = 0.042" or "p < 0.001", for sentences.
+pub fn p_phrase(p: f64) -> String {
+    let text = p_value(p);
+    match text.strip_prefix("< ") {
+        Some(bound) => format!("p < {bound}"),
+        None => format!("p = {text}"),
+    }
+}
+
 /// The style a column gets by its contract name (DESIGN.md results contract), for tables the
 /// document shows as they are (appendix and plugin tables).
 pub fn style_for_column(name: &str) -> NumberStyle {

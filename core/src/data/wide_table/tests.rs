@@ -110,7 +110,7 @@ fn every_error_has_a_help_line() {
     assert!(text.lines().nth(1).is_some_and(|l| l.starts_with("  help: ")), "{text}");
 }
 
-/// Issue 10: names past the limit are refused, long cell text is cut short in findings.
+/// Names past the limit are refused, long cell text is cut short in findings.
 #[test]
 fn long_names_are_refused_and_long_cells_cut_short() {
     let long = "x".repeat(65);

@@ -157,9 +157,9 @@ fn plugin_keys_are_refused_on_built_in_steps() {
     );
 }
 
-/// Issue 10: a recipe that is not UTF-8 is refused with its line, and type names are plain.
+/// A recipe that is not UTF-8 is refused with its line, and type names are plain.
 #[test]
-fn issue_10_encoding_and_type_messages() {
+fn encoding_and_type_messages_name_the_place() {
     let err = decode_recipe(b"[assessment]\ntitle = \"caf\xe9\"\n").unwrap_err();
     assert_eq!(err.to_string(), "case.toml:2: the recipe is not valid UTF-8 text\n  help: save case.toml as UTF-8 (most editors offer it under \"Save as… / Encoding\")");
     assert!(decode_recipe(&vec![b' '; MAX_RECIPE_BYTES + 1]).unwrap_err().to_string().contains("at most 1048576 bytes"));

@@ -112,6 +112,8 @@ pub struct DifferentiationSection {
     pub global: Option<String>,
     /// Isolation-by-distance test, as a table.
     pub ibd_test: Option<TableData>,
+    /// What the Mantel test says and does not say, in a sentence.
+    pub ibd_note: Option<String>,
     /// Appendix key of the full pairwise table.
     pub pairwise: Option<String>,
 }
@@ -123,6 +125,8 @@ pub struct NeSection {
     pub methods: Vec<NeMethod>,
     /// What the chart shows (its source), when drawn.
     pub chart_source: Option<String>,
+    /// Every estimate of each population side by side.
+    pub overview: Option<TableData>,
 }
 
 /// One Ne step's estimates.
@@ -610,6 +614,7 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
         matrix,
         matrix_years,
         global,
+        ibd_note: table_of(step, table::IBD_TEST).and_then(|t| mantel_note(&t)),
         ibd_test,
         pairwise: pairwise_key,
     })
@@ -682,6 +687,29 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (O
     (Some(HeatTable { labels: names, cells, max: format::fixed(max, 3) }), years)
 }
 
+/// The Mantel test of the pooled row in words: its p-value, how it was obtained, the smallest
+/// p the number of populations allows, and whether the fitted line is evidence or description.
+fn mantel_note(test: &Rows<'_>) -> Option<String> {
+    let row = test.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| test.iter().next())?;
+    let p = row.num("mantel_p")?;
+    let orders = row.int("permutations");
+    let how = match (row.text("mantel_method"), orders) {
+        (Some("exact"), Some(n)) => format!("from all {n} orders of the populations (exact)"),
+        (_, Some(n)) => format!("from {n} random orders of the populations"),
+        _ => String::new(),
+    };
+    let floor = row
+        .num("mantel_p_min")
+        .map(|m| format!("; the smallest p these populations allow is {}", format::p_value(m)))
+        .unwrap_or_default();
+    let verdict = if p < 0.05 {
+        "Genetic differentiation increases with distance at the 5 % level; the line is the least-squares fit."
+    } else {
+        "The relation is not significant at the 5 % level: the fitted line describes the points and is no evidence of isolation by distance."
+    };
+    Some(format!("Mantel test {} {how}{floor}. {verdict}", format::p_phrase(p)).replace("  ", " "))
+}
+
 /// The isolation-by-distance scatter: the first column naming a distance against the first
 /// naming FST, with the test's slope when it gives one.
 fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Extras) {
@@ -743,7 +771,7 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
     if methods.is_empty() && chart_source.is_none() {
         return None;
     }
-    Some(NeSection { methods, chart_source })
+    Some(NeSection { methods, chart_source, overview: super::ne_overview::ne_overview(ctx) })
 }
 
 fn ld_table(rows: &Rows<'_>) -> TableData {
@@ -1053,7 +1081,7 @@ pub(crate) fn ne_interval(row: &Row<'_>, low: &str, high: &str) -> String {
 
 #[cfg(test)]
 mod tests {
-    use popgauge_abi::{Finding, FindingLevel, Where};
+    use popgauge_abi::{Finding, Where};
 
     use super::{findings_table, grouped_findings};
 

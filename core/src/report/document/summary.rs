@@ -240,10 +240,7 @@ fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
         tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
     let slope = row.num(col::SEN_SLOPE).or_else(|| row.num(col::OLS_SLOPE));
     let direction = |s: f64| if s < 0.0 { "declining" } else { "increasing" };
-    let p_text = |p: f64| match format::p_value(p).strip_prefix("< ") {
-        Some(bound) => format!("p < {bound}"),
-        None => format!("p = {}", format::p_value(p)),
-    };
+    let p_text = format::p_phrase;
     // The step's own verdict when it gives one (`increasing`, `decreasing`, `no trend`).
     if let (Some(verdict), Some(p)) = (row.text(col::TREND_DIRECTION), row.num(col::MK_P)) {
         return Some(match verdict {

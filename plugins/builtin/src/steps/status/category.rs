@@ -79,27 +79,35 @@ pub fn reached_text(reached: &[usize], thresholds: &[f64]) -> String {
 }
 
 /// The `interval_note` sentence: what the interval excludes, with the interval as printed.
-pub fn interval_note(interval: (f64, f64), ne: f64, setting: (&[f64], &[String])) -> String {
-    let (thresholds, labels) = setting;
-    let shown = format!("the 95% interval {}–{}", short(interval.0), short(interval.1));
+pub fn interval_note(interval: (f64, f64), thresholds: &[f64]) -> String {
+    let shown = format!("the 95 % interval {}–{}", short(interval.0), short(interval.1));
     let reached = thresholds_reached(interval, thresholds);
     if reached.is_empty() {
-        let band = labels.get(band_of(ne, thresholds)).cloned().unwrap_or_default();
-        return format!("{shown} lies within {band}");
+        return format!("{shown} {}", band_words(band_of(interval.0, thresholds), thresholds));
     }
     let names: Vec<String> = reached.iter().map(|&i| format_number(thresholds[i])).collect();
     format!("{shown} does not exclude {}: Ne may lie on either side", names.join(" or "))
 }
 
-/// A bound as the note prints it: whole numbers from 100, one decimal from 10, two below.
+/// Where an interval that reaches no threshold lies: "lies below 50", "lies between 50 and
+/// 500", "lies at or above 500".
+fn band_words(band: usize, thresholds: &[f64]) -> String {
+    let name = |i: usize| format_number(thresholds[i]);
+    match band {
+        0 if thresholds.is_empty() => "reaches no threshold".into(),
+        0 => format!("lies below {}", name(0)),
+        b if b == thresholds.len() => format!("lies at or above {}", name(b - 1)),
+        b => format!("lies between {} and {}", name(b - 1), name(b)),
+    }
+}
+
+/// A bound as the note prints it, as the document prints an effective size: `∞`, whole numbers
+/// from 10 up, one decimal below.
 fn short(value: f64) -> String {
-    let digits = if value >= 100.0 {
-        0
-    } else if value >= 10.0 {
-        1
-    } else {
-        2
-    };
+    if value.is_infinite() {
+        return "∞".into();
+    }
+    let digits = if value >= 10.0 { 0 } else { 1 };
     let scale = 10f64.powi(digits);
     format_number((value * scale).round() / scale)
 }

@@ -67,9 +67,7 @@ fn estimate_cells(a: &Assessed, setting: &Setting) -> Vec<Cell> {
         Cell::maybe(e.and_then(|e| e.samples)),
         Cell::text(a.category.label(&setting.labels)),
         reached.map_or(Cell::Null, |r| Cell::text(reached_text(&r, &setting.thresholds))),
-        interval
-            .zip(e)
-            .map_or(Cell::Null, |(i, e)| Cell::text(interval_note(i, e.ne, (&setting.thresholds, &setting.labels)))),
+        interval.filter(|_| e.is_some()).map_or(Cell::Null, |i| Cell::text(interval_note(i, &setting.thresholds))),
     ]
 }
 

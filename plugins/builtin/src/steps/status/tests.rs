@@ -202,7 +202,6 @@ fn categories_against_100_1000() {
 #[test]
 fn the_interval_reaches_thresholds_beside_the_point_band() {
     let th = [50.0, 500.0];
-    let labels = default_labels(&th);
     let reached = |low: f64, high: f64| reached_text(&thresholds_reached((low, high), &th), &th);
     assert_eq!(reached(11.0, f64::INFINITY), "50 and 500");
     assert_eq!(reached(30.0, 50.0), "50");
@@ -210,11 +209,12 @@ fn the_interval_reaches_thresholds_beside_the_point_band() {
     assert_eq!(reached(400.0, 600.0), "500");
     assert_eq!(reached(600.0, f64::INFINITY), "none");
     assert_eq!(
-        interval_note((11.0, f64::INFINITY), 30.0, (&th, &labels)),
-        "the 95% interval 11–inf does not exclude 50 or 500: Ne may lie on either side"
+        interval_note((11.0, f64::INFINITY), &th),
+        "the 95 % interval 11–∞ does not exclude 50 or 500: Ne may lie on either side"
     );
-    assert_eq!(interval_note((80.123, 199.7), 120.0, (&th, &labels)), "the 95% interval 80.1–200 lies within 50–500");
-    assert_eq!(interval_note((3.456, 9.0), 5.0, (&th, &labels)), "the 95% interval 3.46–9 lies within below 50");
+    assert_eq!(interval_note((80.123, 199.7), &th), "the 95 % interval 80–200 lies between 50 and 500");
+    assert_eq!(interval_note((3.456, 9.0), &th), "the 95 % interval 3.5–9 lies below 50");
+    assert_eq!(interval_note((500.0, 900.0), &th), "the 95 % interval 500–900 lies at or above 500");
 }
 
 /// A point estimate of 30 with the interval 11–∞ is "below 50", and its interval reaches 50 and
@@ -231,7 +231,7 @@ fn a_low_point_with_an_open_interval_keeps_its_band() {
     assert_eq!(text(pops, north, "interval_reaches"), Some("50 and 500"));
     assert_eq!(
         text(pops, north, "interval_note"),
-        Some("the 95% interval 11–inf does not exclude 50 or 500: Ne may lie on either side")
+        Some("the 95 % interval 11–∞ does not exclude 50 or 500: Ne may lie on either side")
     );
     assert_eq!(text(pops, north, "ci_method"), Some("jackknife"));
 }

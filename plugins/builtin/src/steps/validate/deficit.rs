@@ -114,8 +114,8 @@ fn summary_finding(flags: &[Flag<'_>], tested_loci: usize, family_size: usize) -
         "deficit-summary",
         format!(
             "{flagged} of {tested_loci} kept loci flagged for a significant heterozygote deficit (at two-allele \
-             loci: {two_allele}; possible null alleles, at loci with more alleles: {}); about {} expected by chance \
-             at the false-discovery rate of {} (Benjamini & Hochberg 1995 q-values over all m = {family_size} locus × group tests; a locus is \
+             loci: {two_allele}; possible null alleles, at loci with more alleles: {}); of these flags, about {} are \
+             expected to be chance findings at the false-discovery rate of {} (Benjamini & Hochberg 1995 q-values over all m = {family_size} locus × group tests; a locus is \
              flagged when the deficit is significant, with Brookfield's r ≥ {}, in at least half of the groups where \
              it was tested)",
             flagged - two_allele,

@@ -618,7 +618,7 @@ fn a_biallelic_locus_is_flagged_as_a_heterozygote_deficit() {
     assert!(
         summary[0].message.starts_with(
             "1 of 2 kept loci flagged for a significant heterozygote deficit (at two-allele loci: 1; possible null \
-             alleles, at loci with more alleles: 0); about 0.05 expected by chance at the false-discovery rate of 5%"
+             alleles, at loci with more alleles: 0); of these flags, about 0.05 are expected to be chance findings at the false-discovery rate of 5%"
         ),
         "{}",
         summary[0].message
