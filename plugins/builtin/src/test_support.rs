@@ -2,6 +2,7 @@
 //! strings such as `"152/156"`, a runner that resolves parameters the way the engine does, and
 //! table accessors.
 
+pub(crate) mod accuracy;
 pub(crate) mod sim;
 
 use std::collections::{BTreeMap, BTreeSet};

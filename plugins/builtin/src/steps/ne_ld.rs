@@ -51,7 +51,7 @@
 //!   none is counted twice: ν = min(2r̄⁴/max(V_L, V_I), n′) (`resample_df`). On simulated
 //!   Wright–Fisher populations (Ne 50 and 200, S 50–100, 20 microsatellites or 500 SNPs) its
 //!   coverage was 96–100% where the loci jackknife gave 70–81% for SNPs and the parametric
-//!   interval 24–79%; the figures are in the repository README ("Accuracy of the Ne steps").
+//!   interval 24–79%; the figures are in docs/accuracy.md.
 //!
 //! # Units and special values
 //! Ne is in individuals per generation. A single-cohort sample estimates the effective number
@@ -77,6 +77,16 @@
 //! variance of a subset's r̄² is on average at least that of the full panel's (the full mean is
 //! the mean of the subset means), so `ne_resample_*` can only err wide.
 //!
+//! # Precision (`ld-precision-low`)
+//! When Ne is large relative to S the drift signal r²′ ≈ 1/(3Ne) is small beside E(r²_sample)
+//! ≈ 1/S and the estimate loses precision (Waples & Do 2010). A row is flagged with a
+//! `ld-precision-low` warning when N̂e > 5 · S (or `"inf"`) and the upper bound of its
+//! recommended interval (`ne_resample_high`, else `ne_jack_high`) is `"inf"` (or it has none).
+//! On simulated populations of Ne 500–2,000 with S 25–60 only 8–78% of the flagged point
+//! estimates were within a factor of two of the true Ne, while `ne_resample_*` contained it in
+//! 91–100% of them; the rule, its sources and the figures are in `ne_ld/precision.rs` and
+//! docs/accuracy.md.
+//!
 //! # Citations
 //! Hill (1981); Weir (1979); Waples (2006); Waples & Do (2008, 2010); Jones, Ovenden & Wang
 //! (2016); Kott (2001); Waples, Larson & Waples (2016); Waples, Antao & Luikart (2014): see
@@ -86,6 +96,7 @@ mod estimate;
 mod packed;
 pub mod pairs;
 mod panel;
+mod precision;
 
 use std::collections::BTreeMap;
 
@@ -239,6 +250,7 @@ fn run_with(ctx: &StepContext<'_>, path: PairPath) -> Result<StepOutput, StepErr
     let estimates = estimates_table(&groups)?;
     output.findings = collect_findings(&ctx.view, &params, &plan, &groups);
     output.findings.extend(missing_interval_finding(&estimates));
+    output.findings.extend(precision::precision_findings(&groups));
     output.tables.insert("estimates".into(), estimates);
     output.citations = CITATIONS.iter().map(|c| c.to_string()).collect();
     Ok(output)
