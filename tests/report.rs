@@ -101,13 +101,22 @@ fn the_demo_document_is_complete_and_matches_the_results() {
             assert!(flat.contains(&value), "{population} {column} = {value} not in the document");
         }
     }
-    // When the recipe has a status step, its Ne values are printed too.
+    // When the recipe has a status step, the summary gives each population the Ne of the
+    // status table (one choice of estimate for the whole document), and the projection keeps
+    // drift inbreeding apart from the sample's FIS (Wright 1951).
     for row in rows(&doc, "status", "populations") {
         if let Some(ne) = row["ne"].as_f64() {
             let shown = if ne >= 10.0 { format!("{ne:.0}") } else { format!("{ne:.1}") };
-            assert!(flat.contains(&shown), "status Ne {shown} not in the document");
+            let population = row["population"].as_str().unwrap();
+            let sentence = squeezed(&format!("{population}: Ne ≈ {shown}"));
+            let printed = flat
+                .match_indices(&sentence)
+                .any(|(at, _)| !flat[at + sentence.len()..].starts_with(|c: char| c.is_ascii_digit() || c == '.'));
+            assert!(printed, "summary: `{sentence}` not in the document");
         }
     }
+    assert!(!flat.contains(&squeezed("F rises from")), "no projection starts from the sample's F");
+    assert!(flat.contains(&squeezed("drift alone raises inbreeding relative to today")), "F_drift is stated");
     // The PDF/A identification is in the XMP metadata (PDF/A-2b: part 2, conformance B).
     let bytes = std::fs::read(&pdf).unwrap();
     let raw = String::from_utf8_lossy(&bytes);

@@ -6,7 +6,11 @@ fn results(case: &Case, out: &str) -> serde_json::Value {
     serde_json::from_str(&case.read(&format!("{out}/results.json"))).expect("results.json parses")
 }
 
-fn table_rows<'a>(results: &'a serde_json::Value, step: &str, table: &str) -> (&'a Vec<serde_json::Value>, &'a Vec<serde_json::Value>) {
+fn table_rows<'a>(
+    results: &'a serde_json::Value,
+    step: &str,
+    table: &str,
+) -> (&'a Vec<serde_json::Value>, &'a Vec<serde_json::Value>) {
     let step = results["steps"].as_array().unwrap().iter().find(|s| s["id"] == step).unwrap();
     let t = &step["tables"][table];
     (t["columns"].as_array().unwrap(), t["rows"].as_array().unwrap())
@@ -22,11 +26,20 @@ fn writes_results_tables_and_provenance() {
     let case = Case::fixture("minimal");
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
-    assert_eq!(run.stdout, "Assessed 8 samples × 3 loci in 2 groups with 2 steps.\nFindings: 0 error(s), 4 warning(s); they are listed in results.json.\nWrote case/out: assessment.pdf, results.json, provenance.json, 5 tables (tables/*.csv) and 0 figure(s) (figures/*.svg).\n");
+    assert_eq!(
+        run.stdout,
+        "Assessed 8 samples × 3 loci in 2 groups with 2 steps.\nFindings: 0 error(s), 4 warning(s); they are listed in results.json.\nWrote case/out: assessment.pdf, results.json, provenance.json, 5 tables (tables/*.csv) and 0 figure(s) (figures/*.svg).\n"
+    );
     let files = entries(&case.path().join("out"));
-    assert_eq!(files, vec!["assessment.json", "assessment.pdf", "assessment.typ", "provenance.json", "results.json", "tables"]);
+    assert_eq!(
+        files,
+        vec!["assessment.json", "assessment.pdf", "assessment.typ", "provenance.json", "results.json", "tables"]
+    );
     let tables = entries(&case.path().join("out/tables"));
-    assert_eq!(tables, vec!["diversity.by_group.csv", "diversity.by_locus.csv", "qc.groups.csv", "qc.loci.csv", "qc.samples.csv"]);
+    assert_eq!(
+        tables,
+        vec!["diversity.by_group.csv", "diversity.by_locus.csv", "qc.groups.csv", "qc.loci.csv", "qc.samples.csv"]
+    );
     let doc = results(&case, "out");
     assert_eq!(doc["schema"], "popgauge.results/1");
     assert_eq!(doc["assessment"]["date"], "2026-11-30");
@@ -122,7 +135,10 @@ fn existing_output_is_refused_and_untouched_without_force() {
     case.write("out/keep.txt", "mine");
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2);
-    assert_eq!(run.stderr, "error: case/out: the output folder already exists; nothing was written\n  help: choose another --out folder, or add --force to replace it\n");
+    assert_eq!(
+        run.stderr,
+        "error: case/out: the output folder already exists; nothing was written\n  help: choose another --out folder, or add --force to replace it\n"
+    );
     assert_eq!(entries(&case.path().join("out")), vec!["keep.txt"]);
     let forced = case.run(&["run", "case", "--force"]);
     assert_eq!(forced.code, 0, "{}", forced.stderr);
@@ -136,7 +152,10 @@ fn a_failed_run_leaves_no_output_folder() {
     case.write("genotypes.csv", "sample,population,year,L1\ns1,North,2020,1/2\ns2,North,twenty,1/1\n");
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2);
-    assert_eq!(run.stderr, "error: genotypes.csv:3: column `year` has \"twenty\": the year is not a whole number\n  help: write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)\n");
+    assert_eq!(
+        run.stderr,
+        "error: genotypes.csv:3: column `year` has \"twenty\": the year is not a whole number\n  help: write the sampling year with four digits, for example 2021 (a date or season belongs in an ignored column)\n"
+    );
     assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
     assert_eq!(entries(case.root()), vec!["case"]);
 }
@@ -146,7 +165,13 @@ fn refuses_to_write_over_the_case_folder() {
     let case = Case::fixture("minimal");
     let run = case.run(&["run", "case", "--out", "case", "--force"]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.starts_with("error: case: the output folder contains the case folder; popgauge never writes over its inputs"), "{}", run.stderr);
+    assert!(
+        run.stderr.starts_with(
+            "error: case: the output folder contains the case folder; popgauge never writes over its inputs"
+        ),
+        "{}",
+        run.stderr
+    );
     assert_eq!(entries(&case.path()), vec!["case.toml", "genotypes.csv", "populations.csv"]);
 }
 
@@ -162,11 +187,17 @@ fn bad_cells_are_findings_and_strict_mode_fails() {
     assert_eq!(finding["code"], "half-missing-genotype");
     assert_eq!(finding["where"]["line"], 3);
     assert_eq!(finding["where"]["column"], "L1");
-    let recipe = case.read("case.toml").replace("populations = \"populations.csv\"", "populations = \"populations.csv\"\nstrict = true");
+    let recipe = case
+        .read("case.toml")
+        .replace("populations = \"populations.csv\"", "populations = \"populations.csv\"\nstrict = true");
     case.write("case.toml", &recipe);
     let strict = case.run(&["run", "case", "--out", "strict"]);
     assert_eq!(strict.code, 2);
-    assert!(strict.stderr.starts_with("error: genotypes.csv:3: column `L1`, cell \"1/.\": one allele missing"), "{}", strict.stderr);
+    assert!(
+        strict.stderr.starts_with("error: genotypes.csv:3: column `L1`, cell \"1/.\": one allele missing"),
+        "{}",
+        strict.stderr
+    );
     assert!(!case.root().join("strict").exists());
 }
 
@@ -175,10 +206,12 @@ fn the_demo_case_runs() {
     let case = Case::demo();
     let run = case.run(&["run", "case", "--out", "demo-out"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
-    let doc: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(case.root().join("demo-out/results.json")).unwrap()).unwrap();
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(case.root().join("demo-out/results.json")).unwrap()).unwrap();
     let (columns, rows) = table_rows(&doc, "diversity", "by_group");
     assert_eq!(rows.len(), 12, "4 populations × 3 years");
-    let populations: std::collections::BTreeSet<String> = rows.iter().map(|r| cell(columns, r, "population").as_str().unwrap().to_string()).collect();
+    let populations: std::collections::BTreeSet<String> =
+        rows.iter().map(|r| cell(columns, r, "population").as_str().unwrap().to_string()).collect();
     assert_eq!(populations.len(), 4);
 }
 
@@ -204,7 +237,10 @@ fn slow_case() -> Case {
         }
     }
     case.write("genotypes.csv", text + "\n");
-    case.write("case.toml", case.read("case.toml") + "\n[[step]]\nid = \"hwe\"\nuses = \"hwe\"\n[step.params]\npermutations = 1000000\n");
+    case.write(
+        "case.toml",
+        case.read("case.toml") + "\n[[step]]\nid = \"hwe\"\nuses = \"hwe\"\n[step.params]\npermutations = 1000000\n",
+    );
     case
 }
 

@@ -220,7 +220,7 @@ pub fn ne_preference(prefer: &[&str]) -> String {
             "ld" => "the linkage-disequilibrium method (alleles seen once left out when the harmonic-mean sample \
                      size S is 25 or less, alleles rarer than Pcrit = 0.02 left out above; Waples & Do 2010)"
                 .to_string(),
-            other => ne_method(other),
+            other => format!("the {}", ne_method(other)),
         })
         .collect();
     match words.as_slice() {

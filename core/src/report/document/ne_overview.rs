@@ -94,35 +94,29 @@ fn ld_cell(step: &StepResult, population: &str) -> Option<String> {
 }
 
 fn temporal_cell(step: &StepResult, population: &str) -> Option<String> {
-    let rows = table_of(step, table::ESTIMATES)?;
-    let lines: Vec<String> = rows
-        .iter()
-        .filter(|r| r.text(col::POPULATION) == Some(population))
-        .filter_map(|r| {
-            let ne = r.num(col::NE_FS)?;
-            Some(format!(
-                "{}–{}: {}",
-                r.label(col::YEAR_START).unwrap_or_default(),
-                r.label(col::YEAR_END).unwrap_or_default(),
-                with_interval(ne, r.num(col::NE_LOW), r.num(col::NE_HIGH))
-            ))
-        })
-        .collect();
-    (!lines.is_empty()).then(|| lines.join("\n"))
+    estimate_lines(step, population, col::NE_FS, |r| {
+        format!("{}–{}", r.label(col::YEAR_START).unwrap_or_default(), r.label(col::YEAR_END).unwrap_or_default())
+    })
 }
 
 fn hetx_cell(step: &StepResult, population: &str) -> Option<String> {
+    estimate_lines(step, population, col::NE, |r| r.label(col::YEAR).unwrap_or_default())
+}
+
+/// One line per row of the population in the step's `estimates`: "<when>: Ne (low–high)".
+fn estimate_lines(
+    step: &StepResult,
+    population: &str,
+    ne_column: &str,
+    when: impl Fn(&Row<'_>) -> String,
+) -> Option<String> {
     let rows = table_of(step, table::ESTIMATES)?;
     let lines: Vec<String> = rows
         .iter()
         .filter(|r| r.text(col::POPULATION) == Some(population))
         .filter_map(|r| {
-            let ne = r.num(col::NE)?;
-            Some(format!(
-                "{}: {}",
-                r.label(col::YEAR).unwrap_or_default(),
-                with_interval(ne, r.num(col::NE_LOW), r.num(col::NE_HIGH))
-            ))
+            let ne = r.num(ne_column)?;
+            Some(format!("{}: {}", when(&r), with_interval(ne, r.num(col::NE_LOW), r.num(col::NE_HIGH))))
         })
         .collect();
     (!lines.is_empty()).then(|| lines.join("\n"))

@@ -142,6 +142,9 @@ pub struct NeMethod {
     pub more: Option<String>,
     /// The sampling plan of a temporal step (`I` or `II`, Waples 1989).
     pub plan: Option<String>,
+    /// The estimates the step found imprecise (Ne large relative to the sample), in a
+    /// sentence printed beside its table.
+    pub precision: Option<String>,
 }
 
 /// Trends.
@@ -334,11 +337,28 @@ impl FindingEntry {
 fn subject_and_reason(message: &str) -> (Option<&str>, &str) {
     /// A subject names rows or cells; anything longer is a sentence of its own.
     const LONGEST_SUBJECT: usize = 120;
-    match message.split_once(": ") {
-        Some((subject, reason)) if subject.chars().count() <= LONGEST_SUBJECT && !reason.trim().is_empty() => {
-            (Some(subject), reason)
+    // The first ": " outside parentheses: a subject may carry details ("group A 2018 (Pcrit
+    // 0.05: Ne = inf; …)").
+    let mut depth = 0_i32;
+    let mut split = None;
+    for (i, c) in message.char_indices() {
+        match c {
+            '(' => depth += 1,
+            ')' => depth -= 1,
+            ':' if depth == 0 && message[i + 1..].starts_with(' ') => {
+                split = Some(i);
+                break;
+            }
+            _ => {}
         }
-        _ => (None, message),
+    }
+    let Some(i) = split else { return (None, message) };
+    let (subject, reason) = (&message[..i], &message[i + 2..]);
+    let plain_subject = subject.split(" (").next().unwrap_or(subject);
+    if plain_subject.chars().count() <= LONGEST_SUBJECT && !reason.trim().is_empty() {
+        (Some(subject), reason)
+    } else {
+        (None, message)
     }
 }
 
@@ -744,6 +764,46 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
 // ---------------------------------------------------------------------------------------------
 // Effective population size
 
+/// Findings of the Ne steps that mark an estimate as imprecise (Ne large relative to S), and
+/// what the document says of the estimates they name.
+const PRECISION_FINDINGS: [(&str, &str); 2] = [
+    (
+        "ld-precision-low",
+        "are more than 5 × S or infinite, and the upper bound of their recommended 95 % interval is infinite: \
+         there the drift signal is small beside the linkage disequilibrium that sampling S individuals produces, \
+         and the method loses precision (Waples & Do 2010). Read their intervals, whose lower bounds are what \
+         the data support; more individuals narrow them.",
+    ),
+    (
+        "temporal-precision-low",
+        "exceed the generations between the samples times their harmonic-mean sample size, or are infinite, \
+         with no finite upper bound: the change of allele frequencies by drift is small beside sampling noise, \
+         and such estimates are often too large. Read their intervals with caution.",
+    ),
+];
+
+/// "The estimates of A 2018, B 2018–2021 … are …": the rows an Ne step flagged as imprecise,
+/// named by the subject of each finding (before its details in parentheses).
+fn precision_note(step: &StepResult) -> Option<String> {
+    let sentences: Vec<String> = PRECISION_FINDINGS
+        .iter()
+        .filter_map(|(code, says)| {
+            let rows: Vec<String> = step
+                .findings
+                .iter()
+                .filter(|f| f.code == *code)
+                .filter_map(|f| subject_and_reason(&f.message).0)
+                .map(|subject| {
+                    let name = subject.split(" (").next().unwrap_or(subject);
+                    name.strip_prefix("group ").unwrap_or(name).to_string()
+                })
+                .collect();
+            (!rows.is_empty()).then(|| format!("The estimates of {} {says}", rows.join(", ")))
+        })
+        .collect();
+    (!sentences.is_empty()).then(|| sentences.join(" "))
+}
+
 pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSection> {
     let mut methods = Vec::new();
     for uses_name in [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX] {
@@ -763,7 +823,8 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
                 .and_then(|r| r.params.get("plan"))
                 .and_then(serde_json::Value::as_str)
                 .map(str::to_string);
-            methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more, plan });
+            let precision = precision_note(step);
+            methods.push(NeMethod { step: step.id.clone(), uses: step.uses.clone(), table: t, more, plan, precision });
         }
     }
     let chart_source = ne_chart(ctx, extras);
@@ -1125,6 +1186,23 @@ mod tests {
         let entries = grouped_findings(refs.iter());
         let subjects: Vec<Vec<String>> = entries.iter().map(|e| e.subjects.clone()).collect();
         assert_eq!(subjects, [vec!["A", "B"], vec!["A"], vec!["C"], vec!["D"], vec!["E"]]);
+    }
+
+    #[test]
+    fn a_subject_with_details_in_parentheses_is_split_after_them() {
+        let flagged = |group: &str| {
+            Finding::warning(
+                "ld-precision-low",
+                format!("group {group} (Pcrit 0.05: Ne = inf; Pcrit 0.02: Ne = 456): the method loses precision"),
+                Where::default(),
+            )
+        };
+        let findings = [("ld".to_string(), flagged("A 2018")), ("ld".to_string(), flagged("B 2024"))];
+        let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
+        let entries = grouped_findings(refs.iter());
+        assert_eq!(entries.len(), 1);
+        assert_eq!(entries[0].reason, "the method loses precision");
+        assert_eq!(entries[0].subjects.len(), 2);
     }
 
     #[test]

@@ -72,6 +72,9 @@ pub struct StatusFacts {
     pub interval_note: Option<String>,
     /// Ne/Nc.
     pub ne_nc: Option<String>,
+    /// The estimating step found the estimate in the range where its method loses precision
+    /// (Ne large relative to the sample).
+    pub low_precision: bool,
 }
 
 /// Latest diversity of one population.
@@ -144,7 +147,7 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
             let diversity_row = diversity_rows.iter().find(|r| r.text(col::POPULATION) == Some(name.as_str()));
             PopulationSummary {
                 name: name.clone(),
-                status: status_row.map(status_facts),
+                status: status_row.map(|r| StatusFacts { low_precision: low_precision(ctx, r), ..status_facts(r) }),
                 diversity: diversity_row.map(diversity_facts),
                 trend: he_trend(ctx, name),
                 trend_detail: he_trend_detail(ctx, name),
@@ -194,7 +197,26 @@ fn status_facts(row: &Row<'_>) -> StatusFacts {
         category: row.label(col::CATEGORY).unwrap_or_else(|| format::UNDEFINED.into()),
         interval_note: row.text(col::INTERVAL_NOTE).map(str::to_string),
         ne_nc: row.num(col::NE_NC).map(|v| format::fixed(v, 2)),
+        low_precision: false,
     }
+}
+
+/// Whether the step behind a status row's estimate flagged it as imprecise: an
+/// `ld-precision-low` (LD) or `temporal-precision-low` (temporal) finding for the population
+/// and the year the estimate refers to.
+fn low_precision(ctx: &Context<'_>, row: &Row<'_>) -> bool {
+    let (uses_name, code) = match row.text(col::NE_METHOD) {
+        Some(m) if m.starts_with("ld") => (uses::NE_LD, "ld-precision-low"),
+        Some("temporal") => (uses::NE_TEMPORAL, "temporal-precision-low"),
+        _ => return false,
+    };
+    let population = row.text(col::POPULATION);
+    let year = row.int(col::NE_YEAR).and_then(|y| i32::try_from(y).ok());
+    ctx.results
+        .steps(uses_name)
+        .iter()
+        .flat_map(|s| &s.findings)
+        .any(|f| f.code == code && f.location.population.as_deref() == population && f.location.year == year)
 }
 
 fn diversity_facts(row: &Row<'_>) -> DiversityFacts {
@@ -298,9 +320,12 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
     for p in populations {
         let undefined = || format::UNDEFINED.to_string();
         let status = p.status.as_ref();
-        let ne = status.map_or_else(undefined, |s| match &s.ne_ci {
-            Some(ci) => format!("{} ({ci})", s.ne),
-            None => s.ne.clone(),
+        let ne = status.map_or_else(undefined, |s| {
+            let mark = if s.low_precision { " †" } else { "" };
+            match &s.ne_ci {
+                Some(ci) => format!("{} ({ci}){mark}", s.ne),
+                None => format!("{}{mark}", s.ne),
+            }
         });
         let estimate = status.and_then(|s| {
             let method = s.method_short.clone()?;

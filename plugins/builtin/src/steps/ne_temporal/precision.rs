@@ -128,7 +128,7 @@ mod tests {
             populations: vec![PopulationInfo { population: "Pop".into(), ..PopulationInfo::default() }],
             ..AssessmentInfo::default()
         };
-        let output = run_with(&builder.build(), json!({}), &assessment);
+        let output = run_with(&builder.build(), json!({"plan": "II"}), &assessment);
         assert_eq!(number(table(&output, "estimates"), 0, "ne_fs"), Some(f64::INFINITY));
         let flagged = findings_with(&output, "temporal-precision-low");
         assert_eq!(flagged.len(), 1);
