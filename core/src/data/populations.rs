@@ -134,7 +134,7 @@ mod tests {
 
         use super::*;
 
-        /// A refusal names the sheet on its first line and has a help line (DESIGN.md: errors
+        /// A refusal names the sheet on its first line and has a help line (errors
         /// name the file and say how to fix them).
         fn clean(result: Result<PopulationSheet, DataError>) -> Result<(), TestCaseError> {
             if let Err(e) = result {

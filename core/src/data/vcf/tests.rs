@@ -230,7 +230,7 @@ mod properties {
 
     use super::{SHEET, read_with, vcf_file};
 
-    /// A refusal names the file on its first line and has a help line (DESIGN.md: errors
+    /// A refusal names the file on its first line and has a help line (errors
     /// name the file and say how to fix them).
     fn clean<T>(result: Result<T, crate::data::DataError>) -> Result<(), TestCaseError> {
         if let Err(e) = result {

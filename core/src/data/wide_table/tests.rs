@@ -130,7 +130,7 @@ mod properties {
 
     use super::*;
 
-    /// A refusal names the file on its first line and has a help line (DESIGN.md: errors
+    /// A refusal names the file on its first line and has a help line (errors
     /// name the file and say how to fix them).
     fn clean(result: Result<WideTable, DataError>) -> Result<(), TestCaseError> {
         if let Err(e) = result {
