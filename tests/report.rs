@@ -115,6 +115,23 @@ fn the_demo_document_is_complete_and_matches_the_results() {
             assert!(printed, "summary: `{sentence}` not in the document");
         }
     }
+    // A He series that falls at every sampling is described as such, not as "no clear trend"
+    // (three points are too few for the Mann–Kendall test: common practice).
+    let series = rows(&doc, "trend", "series");
+    for population in ["Brennmoor", "Lake Oster", "Sellick Ford", "Tarrow Glen"] {
+        let mut he: Vec<(i64, f64)> = series
+            .iter()
+            .filter(|r| r["population"] == population && r["metric"] == "he")
+            .map(|r| (r["year"].as_i64().unwrap(), r["value"].as_f64().unwrap()))
+            .collect();
+        he.sort_by_key(|p| p.0);
+        if he.len() >= 2 && he.windows(2).all(|w| w[1].1 < w[0].1) {
+            let said = squeezed(&format!("{population}: Ne"));
+            let at = flat.find(&said).expect("summary bullet");
+            let bullet = &flat[at..flat[at + said.len()..].find('•').map_or(flat.len(), |e| at + said.len() + e)];
+            assert!(bullet.contains(&squeezed("fell at each sampling")), "{population}: {bullet}");
+        }
+    }
     assert!(!flat.contains(&squeezed("F rises from")), "no projection starts from the sample's F");
     assert!(flat.contains(&squeezed("drift alone raises inbreeding relative to today")), "F_drift is stated");
     // The PDF/A identification is in the XMP metadata (PDF/A-2b: part 2, conformance B).

@@ -1,4 +1,4 @@
-//! Reading `results.json` by the results contract (DESIGN.md): step results by `uses`, tables
+//! Reading `results.json` by the results contract: step results by `uses`, tables
 //! and columns by name. The column names the document relies on are spelled here once.
 //!
 //! A table that is absent, or a column a table lacks, reads as "not there" (`None`), never as
@@ -98,6 +98,7 @@ pub mod col {
     pub const OLS_HIGH: &str = "ols_high";
     pub const NE_METHOD: &str = "ne_method";
     pub const NE_YEAR: &str = "ne_year";
+    pub const VALUE: &str = "value";
     pub const INTERVAL_NOTE: &str = "interval_note";
     pub const CATEGORY: &str = "category";
     pub const CENSUS_SIZE: &str = "census_size";

@@ -38,7 +38,8 @@ pub const BODY_LIMIT: usize = 60;
 /// and names the file that holds every row: thousands of pages help no reader.
 pub const APPENDIX_ROWS: usize = 500;
 
-/// The threshold references the document cites beside the steps' own (METHODS §9).
+/// The threshold references the document cites beside the steps' own: the 50/500 rule and its
+/// revision to 100/1000.
 const FRANKLIN_1980: &str = "Franklin IR (1980) Evolutionary change in small populations. In Soulé ME, Wilcox BA (eds) Conservation Biology: An Evolutionary-Ecological Perspective. Sinauer, Sunderland, 135–149.";
 const SOULE_1980: &str = "Soulé ME (1980) Thresholds for survival: maintaining fitness and evolutionary potential. In Soulé ME, Wilcox BA (eds) Conservation Biology: An Evolutionary-Ecological Perspective. Sinauer, Sunderland, 151–169.";
 const FRANKHAM_2014: &str = "Frankham R, Bradshaw CJA, Brook BW (2014) Genetics in conservation management: revised recommendations for the 50/500 rules, Red List criteria and population viability analyses. Biological Conservation 170:56–63.";
@@ -402,11 +403,11 @@ fn methods(source: &ReportSource<'_>, thresholds_shown: bool) -> Methods {
         source.results.steps.iter().flat_map(|s| s.citations.iter().cloned()).collect();
     if thresholds_shown {
         let values = &source.results.assessment.thresholds;
-        if values.contains(&50.0) || values.contains(&500.0) {
+        // The document sets either standard pair beside the other, so both are cited.
+        let standard = [50.0, 500.0, 100.0, 1000.0];
+        if values.iter().any(|v| standard.contains(v)) {
             references.insert(FRANKLIN_1980.into());
             references.insert(SOULE_1980.into());
-        }
-        if values.contains(&100.0) || values.contains(&1000.0) {
             references.insert(FRANKHAM_2014.into());
         }
     }
@@ -526,7 +527,7 @@ mod tests {
 
     /// A per-locus table of a SNP panel (here 1,200 rows, one per locus and group) is not
     /// printed whole: the appendix keeps its first [`APPENDIX_ROWS`] rows and names the CSV file
-    /// that holds every row (issue 9: 20,000 SNPs × 12 groups would be 240,000 rows).
+    /// that holds every row (a SNP panel of 20,000 SNPs × 12 groups would be 240,000 rows).
     #[test]
     fn long_appendix_tables_print_an_excerpt_and_name_the_full_table() {
         let by_locus: Vec<serde_json::Value> =

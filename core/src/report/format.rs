@@ -239,7 +239,7 @@ pub fn p_phrase(p: f64) -> String {
     }
 }
 
-/// The style a column gets by its contract name (DESIGN.md results contract), for tables the
+/// The style a column gets by its contract name (the results contract), for tables the
 /// document shows as they are (appendix and plugin tables).
 pub fn style_for_column(name: &str) -> NumberStyle {
     let name = name.to_ascii_lowercase();

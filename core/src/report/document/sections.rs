@@ -198,13 +198,17 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
         doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
     let mut exclusions = exclusions_table(&doc.steps, validate);
     let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into(), RESULTS_FILE.into());
-    let findings: Vec<(String, &Finding)> = doc
+    let mut findings: Vec<(String, &Finding)> = doc
         .data
         .findings
         .iter()
         .map(|f| ("input".to_string(), f))
         .chain(doc.steps.iter().flat_map(|s| s.findings.iter().map(move |f| (s.id.clone(), f))))
         .collect();
+    // A reader's finding that a step repeats (validate reports the bad cells it was given) is
+    // one finding for the reader of the document: counted and listed once, under its first source.
+    let mut seen = BTreeSet::new();
+    findings.retain(|(_, f)| seen.insert((f.level, f.code.clone(), f.message.clone(), where_text(&f.location))));
     let count = |level| findings.iter().filter(|(_, f)| f.level == level).count();
     let serious: Vec<&(String, &Finding)> = findings.iter().filter(|(_, f)| f.level >= FindingLevel::Warning).collect();
     let mut body_findings = findings_table(serious.iter().copied());

@@ -276,14 +276,25 @@ fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
         (Some(p), _) => format!("no significant trend ({})", p_text(p)),
         (None, _) => match (row.num(col::OLS_LOW), row.num(col::OLS_HIGH)) {
             (Some(low), Some(high)) if high < 0.0 || low > 0.0 => format!("{} (95 % CI excludes 0)", direction(low)),
-            _ => "no clear trend".into(),
+            _ => {
+                let series = he_series(ctx, population);
+                let steps: Vec<f64> = series.windows(2).map(|w| w[1].1 - w[0].1).collect();
+                if !steps.is_empty() && steps.iter().all(|d| *d < 0.0) {
+                    "fell at each sampling (too few to test)".into()
+                } else if !steps.is_empty() && steps.iter().all(|d| *d > 0.0) {
+                    "rose at each sampling (too few to test)".into()
+                } else {
+                    "no clear trend".into()
+                }
+            }
         },
     })
 }
 
-/// For a population whose He series is too short for a test, the direction of the data in a
-/// sentence (the least-squares slope and the number of years), so a reader sees a fall even
-/// where no test can confirm it.
+/// For a population whose He series is too short for a test, what the data show in a
+/// sentence: how many samples over how many years (and generations), whether He fell or rose
+/// at every sampling, and the least-squares slope, so a reader sees a fall even where no test
+/// can confirm it.
 fn he_trend_detail(ctx: &Context<'_>, population: &str) -> Option<String> {
     let tests = ctx.results.table(uses::TREND, table::TESTS)?;
     let row =
@@ -296,12 +307,39 @@ fn he_trend_detail(ctx: &Context<'_>, population: &str) -> Option<String> {
         return None;
     }
     let slope = row.num(col::OLS_SLOPE).filter(|s| s.is_finite() && *s != 0.0)?;
-    let points = row.int(col::POINTS)?;
-    Some(format!(
-        "no clear trend yet — He {} by {} per year over {points} sampling years, too few to tell a trend from chance",
-        if slope < 0.0 { "fell" } else { "rose" },
-        format::maybe(Some(slope.abs()), NumberStyle::Significant(2)),
-    ))
+    let series = he_series(ctx, population);
+    let (first, last) = (series.first()?.0, series.last()?.0);
+    let span = last - first;
+    let generations = ctx
+        .generation_time
+        .filter(|g| *g > 0.0)
+        .map(|g| format!(", {} generations", format::short(span as f64 / g, 2)))
+        .unwrap_or_default();
+    let when = format!("{} samples over {span} years ({first}–{last}{generations})", series.len());
+    let rate = format::maybe(Some(slope.abs()), NumberStyle::Significant(2));
+    let steps: Vec<f64> = series.windows(2).map(|w| w[1].1 - w[0].1).collect();
+    let direction = if slope < 0.0 { "fell" } else { "rose" };
+    let every = if slope < 0.0 { steps.iter().all(|d| *d < 0.0) } else { steps.iter().all(|d| *d > 0.0) };
+    Some(if every {
+        format!(
+            "{direction} at each sampling — {when}, by {rate} per year; {} points are too few for a trend test",
+            series.len()
+        )
+    } else {
+        format!("no clear trend yet — {direction} by {rate} per year across {when}, too few to tell a trend from chance")
+    })
+}
+
+/// The He of each sampling year of a population, from the trend step's `series`, in year order.
+fn he_series(ctx: &Context<'_>, population: &str) -> Vec<(i64, f64)> {
+    let Some(series) = ctx.results.table(uses::TREND, table::SERIES) else { return Vec::new() };
+    let mut points: Vec<(i64, f64)> = series
+        .iter()
+        .filter(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))
+        .filter_map(|r| Some((r.int(col::YEAR)?, r.num(col::VALUE)?)))
+        .collect();
+    points.sort_by_key(|p| p.0);
+    points
 }
 
 fn status_table(populations: &[PopulationSummary]) -> TableData {
