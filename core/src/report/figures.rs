@@ -423,6 +423,22 @@ where
         if finite.len() <= 12 {
             draw_markers!(chart, finite.iter().map(|&(x, y)| (x, clamp(y))), s.style)?;
         }
+        // An infinite estimate (a log axis clamps it to the top edge) is marked there with "∞",
+        // never left out and never joined to the line.
+        let infinite: Vec<(f64, f64)> = s
+            .points
+            .iter()
+            .filter(|p| p.1 == f64::INFINITY)
+            .map(|&(x, _)| (x, clamp(f64::INFINITY)))
+            .filter(|p| p.1.is_finite())
+            .collect();
+        chart
+            .draw_series(infinite.iter().map(|&at| {
+                EmptyElement::at(at)
+                    + TriangleMarker::new((0, 4), 6, style.filled())
+                    + Text::new("∞", (-5, 10), font(18.0).color(&style))
+            }))
+            .map_err(|e| e.to_string())?;
         if let (Some(slope), Some((x_mean, y_mean))) = (s.slope, mean_point(&finite)) {
             let (first, last) = (finite[0].0, finite[finite.len() - 1].0);
             // Many points, so that a straight line in linear units also draws right on a log axis.
@@ -643,6 +659,25 @@ mod tests {
             let svg = render(name, &figure).unwrap();
             assert!(svg.contains("</svg>"), "{name}");
         }
+    }
+
+    #[test]
+    fn an_infinite_estimate_is_marked_at_the_top_edge_not_dropped() {
+        let figure = |last: f64| Figure::Lines {
+            series: vec![Series {
+                name: "North".into(),
+                style: 0,
+                points: vec![(2018.0, 120.0), (2021.0, 90.0), (2024.0, last)],
+                slope: None,
+            }],
+            x_label: "Sampling year".into(),
+            y_label: "Ne (LD)".into(),
+            log_y: true,
+            y_from_zero: false,
+        };
+        let svg = render("ne-years", &figure(f64::INFINITY)).unwrap();
+        assert!(svg.contains('∞'), "the infinite estimate is marked");
+        assert!(!render("ne-years", &figure(60.0)).unwrap().contains('∞'), "a finite series has no mark");
     }
 
     #[test]

@@ -992,12 +992,12 @@ fn ne_over_years(ctx: &Context<'_>, extras: &mut Extras) {
     let slopes = trend_slopes(ctx, &format!("ne:{}", step.id));
     let values = estimated_groups(step).into_iter().filter_map(|(population, year)| {
         let chosen = representative_ne(std::slice::from_ref(step), &population, year, &ld_only)?;
-        Some((population, f64::from(year), Some(chosen.ne).filter(|v| v.is_finite())?))
+        Some((population, f64::from(year), Some(chosen.ne).filter(|v| !v.is_nan())?))
     });
     let series = series_by_population(ctx, values, &slopes);
     if series.iter().any(|s| s.points.len() >= 2) {
         let alt = format!(
-            "LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; infinite estimates are left out.",
+            "LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; an infinite estimate is marked ∞ at the top edge.",
             step.id
         );
         extras.figure(

@@ -326,7 +326,9 @@ fn he_trend_detail(ctx: &Context<'_>, population: &str) -> Option<String> {
             series.len()
         )
     } else {
-        format!("no clear trend yet — {direction} by {rate} per year across {when}, too few to tell a trend from chance")
+        format!(
+            "no clear trend yet — {direction} by {rate} per year across {when}, too few to tell a trend from chance"
+        )
     })
 }
 
