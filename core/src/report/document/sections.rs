@@ -813,13 +813,23 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
     for uses_name in [uses::NE_LD, uses::NE_TEMPORAL, uses::NE_HETX] {
         for step in ctx.results.steps(uses_name) {
             let Some(estimates) = table_of(step, table::ESTIMATES) else { continue };
-            let mut t = match uses_name {
-                uses::NE_LD => ld_table(&estimates),
-                uses::NE_TEMPORAL => temporal_table(&estimates),
-                _ => hetx_table(&estimates),
+            let (mut t, more) = match uses_name {
+                // The body shows the rule for rare alleles that fits each sample's size; the
+                // estimates at every rule go to the appendix.
+                uses::NE_LD => {
+                    let all = ld_table(&estimates, |_| true);
+                    let chosen = ld_table(&estimates, |row| is_representative_ld(step, row));
+                    let title = format!("LD estimates of step \"{}\" at every rule for rare alleles", step.id);
+                    let every = extras.appendix(title, all, table_file(&step.id, table::ESTIMATES));
+                    (chosen, Some(every))
+                }
+                uses::NE_TEMPORAL => (temporal_table(&estimates), None),
+                _ => (hetx_table(&estimates), None),
             };
-            let title = format!("Ne estimates of step \"{}\" (continued)", step.id);
-            let more = extras.overflow(&mut t, title, table_file(&step.id, table::ESTIMATES));
+            let more = more.or_else(|| {
+                let title = format!("Ne estimates of step \"{}\" (continued)", step.id);
+                extras.overflow(&mut t, title, table_file(&step.id, table::ESTIMATES))
+            });
             let plan = ctx
                 .runs
                 .iter()
@@ -839,7 +849,20 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
     Some(NeSection { methods, chart_source, overview: super::ne_overview::ne_overview(ctx) })
 }
 
-fn ld_table(rows: &Rows<'_>) -> TableData {
+/// Whether an `ne-ld` row holds the rule for rare alleles that the SDK's sample-size rule picks
+/// for its population and year (the estimate `status` and `trend` use).
+fn is_representative_ld(step: &StepResult, row: &Row<'_>) -> bool {
+    let (Some(population), Some(year)) = (row.text(col::POPULATION), row.int(col::YEAR)) else { return false };
+    let Ok(year) = i32::try_from(year) else { return false };
+    let by_size = [NeSource::Ld(LdChoice::BySampleSize)];
+    let chosen = representative_ne(std::slice::from_ref(step), population, year, &by_size);
+    match (chosen.and_then(|c| c.criterion), row.cell(col::PCRIT)) {
+        (Some(criterion), Some(cell)) => criterion.matches(cell),
+        _ => false,
+    }
+}
+
+fn ld_table(rows: &Rows<'_>, keep: impl Fn(&Row<'_>) -> bool) -> TableData {
     let mut t = TableData::new(&[
         ("Population", false),
         ("Year", true),
@@ -850,7 +873,7 @@ fn ld_table(rows: &Rows<'_>) -> TableData {
         ("95 % CI (jackknife)", true),
         ("95 % CI (parametric)", true),
     ]);
-    for row in rows.iter() {
+    for row in rows.iter().filter(|r| keep(r)) {
         t.push(vec![
             text(&row, col::POPULATION),
             whole(&row, col::YEAR),
