@@ -258,8 +258,8 @@ mod tests {
     /// estimators and 0.362213 with Jost's.
     ///
     /// What was checked and what is from memory: the Nei–Chesser Ĥ_S, Ĥ_T are as
-    /// usually quoted from Nei & Chesser (1983), from memory. G′_ST = G_ST(k − 1 + H_S)/[(k − 1)(1
-    /// − H_S)] is Hedrick (2005), from memory. G″_ST = k(H_T − H_S)/[(kH_T − H_S)(1 − H_S)]
+    /// usually quoted from Nei & Chesser (1983), from memory.
+    /// G′_ST = G_ST(k − 1 + H_S)/[(k − 1)(1 − H_S)] is Hedrick (2005), from memory. G″_ST = k(H_T − H_S)/[(kH_T − H_S)(1 − H_S)]
     /// (Meirmans & Hedrick 2011) and D = [(H_T − H_S)/(1 − H_S)]·[k/(k − 1)] with Jost's estimators
     /// Ĥ_S = 2ñ/(2ñ − 1)·H_S, Ĥ_T = H_T + Ĥ_S/(2ñk) (Jost 2008, eq. 12 and the estimators
     /// beside it) are from memory: the papers could not be consulted here. Their structure is
@@ -331,8 +331,8 @@ mod tests {
 
     /// Edge cases (docs/methods.md, "Gene-diversity differentiation"): a monomorphic locus (0/0)
     /// and a sample typed in nobody are left out; every gene copy distinct and private to one
-    /// population gives Ĥ_S = 1 (hand calculation: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S = 2·(1 −
-    /// 0.25 − 0.25) = 1), so G′_ST, G″_ST and D are undefined while G_ST is not.
+    /// population gives Ĥ_S = 1 (hand calculation: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S =
+    /// 2·(1 − 0.25 − 0.25) = 1), so G′_ST, G″_ST and D are undefined while G_ST is not.
     #[test]
     fn degenerate_loci() {
         let fixed = counts(&[0, 8, 0], 4, 0);

@@ -121,8 +121,8 @@ mod tests {
         assert_eq!(allelic_richness(&counts, 0), None);
     }
 
-    /// Identities derived from the definition: A(N) = the number of alleles observed, and A(2) = 1
-    /// + the unbiased He (Nei 1978) of the heterozygosity module, on several loci including a
+    /// Identities derived from the definition: A(N) = the number of alleles observed, and
+    /// A(2) = 1 + the unbiased He (Nei 1978) of the heterozygosity module, on several loci including a
     /// monomorphic one (A = 1 at every g). By hand for (5, 3, 1, 1): Σp² = 0.36,
     /// He = 10/9 · 0.64 = 0.711111.
     #[test]

@@ -34,8 +34,8 @@ use std::cmp::Ordering;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::erf::{erfc, erfc_inv};
 
-/// Fewest points for a Mann–Kendall test: with 3 the smallest two-sided p is 0.333 (2/3!, common
-/// practice).
+/// Fewest points for a Mann–Kendall test: with 3 the smallest two-sided p is 0.333 (2 of the 3! = 6
+/// orders, common practice).
 pub const MIN_POINTS_MANN_KENDALL: usize = 4;
 /// Fewest points for a least-squares slope with an interval (n − 2 ≥ 1 degrees of freedom).
 pub const MIN_POINTS_LEAST_SQUARES: usize = 3;

@@ -147,8 +147,8 @@ fn reference_matrix() -> GenotypeMatrix {
 
 /// Source: scikit-allel 1.3.13 (`allel.average_weir_cockerham_fst`, ratio of sums of the
 /// per-allele a, b, c over alleles and loci), numpy 2.4.6, printed by
-/// tests/reference/differentiation_scikit_allel.py; tolerance 1e-6, the precision the tables are
-/// checked to (the values agree to about 1e-12).
+/// tests/reference/differentiation_scikit_allel.py; tolerance 1e-6 (the values agree to about
+/// 1e-12).
 #[test]
 fn matches_scikit_allel_years_pooled() {
     let output = run(&reference_matrix(), json!({"permutations": 99, "bootstrap": 200}));
@@ -838,9 +838,9 @@ fn groups_of_one_sample() {
 
 /// Edge case (docs/methods.md, "Gene-diversity differentiation"), hand calculation: each population
 /// carries alleles no other population (and no other of its own gene copies) carries, so every gene
-/// copy within a group is distinct: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S = 2·(1 − 0.25 − 0.25) =
-/// 1. D, G′ST and G″ST are then null with a `differentiation-undefined` finding, while FST and G_ST
-/// stay defined.
+/// copy within a group is distinct: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S =
+/// 2·(1 − 0.25 − 0.25) = 1. D, G′ST and G″ST are then null with a `differentiation-undefined`
+/// finding, while FST and G_ST stay defined.
 #[test]
 fn alleles_private_to_each_population() {
     let matrix = MatrixBuilder::new(&["L1"])

@@ -227,8 +227,8 @@ fn comparisons_and_infinite_estimates() {
 }
 
 /// Hand calculation of the per-locus formulas (docs/methods.md, "Temporal Ne") at one biallelic
-/// locus x = (0.5, 0.5), y = (0.7, 0.3): F_c = (1/2)(0.04/0.25 + 0.04/0.25) = 0.16; F_k = 0.04/0.6
-/// + 0.04/0.4 = 0.166667; F̃ = 0.08/(2 · 0.6 · 0.4) = 0.166667.
+/// locus x = (0.5, 0.5), y = (0.7, 0.3): F_c = (1/2)(0.04/0.25 + 0.04/0.25) = 0.16; F_k =
+/// 0.04/0.6 + 0.04/0.4 = 0.166667; F̃ = 0.08/(2 · 0.6 · 0.4) = 0.166667.
 #[test]
 fn per_locus_formulas_by_hand() {
     let locus = LocusFrequencies { start_typed: 10.0, end_typed: 10.0, alleles: vec![(0.5, 0.7), (0.5, 0.3)] };
