@@ -65,8 +65,8 @@ fn a_larger_sample_gives_a_narrower_interval() {
     assert!(svg.starts_with("<svg") && svg.contains("Ne = 50"), "{svg}");
 }
 
-/// Determinism (DESIGN: randomness only from the seed): the same seed gives the same printed
-/// table and the same files, byte for byte.
+/// Determinism (randomness only from the seed, DEVELOPERS.md "Adding a step"): the same seed gives
+/// the same printed table and the same files, byte for byte.
 #[test]
 fn the_same_seed_gives_the_same_output() {
     let dir = tempfile::tempdir().unwrap();

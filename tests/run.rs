@@ -49,8 +49,8 @@ fn writes_results_tables_and_provenance() {
 /// Hand calculation on the fixture (North 2020): L1 1/2,1/1,2/2,1/2 → p = 0.5, Ho = 0.5,
 /// He = 8/7·0.5 = 0.571429; L2 likewise; L3 10/12,10/10,12/14,10/14 → p = (.5,.25,.25),
 /// Ho = 0.75, He = 8/7·0.625 = 0.714286. Group: Ho = 0.583333, He = 0.619048,
-/// f = 1 − 1.75/1.857143 = 0.057692 (He unbiased, Nei 1978; F = 1 − ΣHo/ΣHe, DESIGN.md).
-/// FIS (Weir & Cockerham 1984, METHODS §2.1) = 1 − 1.75/1.875 = 0.066667.
+/// f = 1 − 1.75/1.857143 = 0.057692 (He unbiased, Nei 1978; F = 1 − ΣHo/ΣHe, docs/methods.md,
+/// "Inbreeding coefficient F"). FIS (Weir & Cockerham 1984) = 1 − 1.75/1.875 = 0.066667.
 #[test]
 fn diversity_matches_a_hand_calculation() {
     let case = Case::fixture("minimal");

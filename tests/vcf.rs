@@ -148,7 +148,7 @@ fn bgzipped_and_plain_vcf_give_identical_results() {
     assert!(verify.stdout.contains("verified: every input, step and output is the same as recorded"), "{}", verify.stdout);
 }
 
-/// METHODS §5 (Waples, Larson & Waples 2016): with CHROM known, `ne-ld` skips pairs of loci on
+/// Waples, Larson & Waples (2016): with CHROM known, `ne-ld` skips pairs of loci on
 /// the same chromosome. The demo's 15 loci on 3 chromosomes of 5 give 3 × C(5,2) = 30 skipped
 /// pairs (hand count).
 #[test]

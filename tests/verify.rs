@@ -320,7 +320,7 @@ fn a_signed_record_verifies_and_a_changed_one_fails() {
     assert!(wrong_kind.stderr.starts_with("error: org.key: not an ed25519 public key in PEM form ("), "{}", wrong_kind.stderr);
 }
 
-/// The round trip on the demo case: every built-in step, figures and the PDF, with the
+/// The round trip on the demo case: every built-in step, figures and the PDF, with the
 /// output and the data moved to another folder.
 #[test]
 fn the_demo_case_verifies_after_moving() {

@@ -1,6 +1,6 @@
 //! Time to build the demo's document (data, charts, Typst compile, PDF/A export) from results
 //! already computed: `cargo bench -p popgauge --bench typeset`. The steps run once, outside
-//! the timing. The target: under 2 s in a release build.
+//! the timing. The target: under 2 s in a release build.
 
 use std::path::Path;
 

@@ -2,7 +2,7 @@
 //! --bench vcf_read`. The file is the SNP-panel benchmark case of `popgauge-sim`
 //! (`SnpPanel::benchmark`: 20,000 biallelic SNPs × 1,200 samples, 1 % of calls missing),
 //! generated once in the setup, plain and bgzipped. The timing covers parsing, hashing the
-//! bytes, the site filters and building the matrix. The target: under 3 s.
+//! bytes, the site filters and building the matrix. The target: under 3 s.
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use popgauge::data::sample_sheet::read_sample_sheet;

@@ -1,6 +1,7 @@
 //! The assessment recipe (`case.toml`): parsed strictly, then resolved into typed settings.
 //!
-//! Parsing happens twice (STYLE.md): [`raw`] keeps spans so that every message names a line;
+//! Parsing happens twice (the error convention: a message names the file and line and has a
+//! `help:` line): [`raw`] keeps spans so that every message names a line;
 //! [`resolve`] fills defaults, checks paths against the case folder, resolves each `uses` name
 //! and validates each step's parameters against its descriptor before anything runs.
 

@@ -1,5 +1,5 @@
 """Reference values for the Hardy-Weinberg exact tests, Fisher's method and the
-Benjamini-Hochberg q-values (METHODS section 4 and section 10 items 3-7).
+Benjamini-Hochberg q-values (docs/methods.md, "Hardy–Weinberg exact tests" and "Multiple tests").
 
 Libraries: scipy (version printed; 1.17.1 when the constants were frozen) for
 scipy.stats.false_discovery_control, scipy.stats.combine_pvalues and scipy.stats.chi2;

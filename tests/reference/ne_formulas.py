@@ -1,7 +1,8 @@
 """Independent reference values for the effective-size steps (ne-ld, ne-temporal, ne-hetx) and
 stats/drift.rs, printed once and frozen as constants in the Rust unit tests.
 
-Written directly from the formulas of METHODS §1, §5, §6, §7 (not from the Rust code): the
+Written directly from the formulas of docs/methods.md ("Expected heterozygosity", "LD-based
+Ne", "Temporal Ne", "Heterozygote-excess Nb"), not from the Rust code: the
 LD part computes Burrows' composite count n_AB = 2·n_AABB + n_AABb + n_AaBB + ½·n_AaBb and
 Δ, D_A, D_B per allele pair from genotype counts (the Rust code uses dosage moments instead).
 
@@ -40,7 +41,7 @@ def ne_interval(r2, s, df):
     return ne_ld(high, s), ne_ld(low, s)
 
 
-print("== METHODS §10 item 12 (LD Ne formulas)")
+print("== LD Ne formulas")
 for s, r2, n in [(50, 0.030, 300), (50, 0.0215, 300), (20, 0.080, 150)]:
     print(f"S={s} r2={r2} n'={n}: E={expected_r2(s):.6f} r2'={r2 - expected_r2(s):.6f} "
           f"Ne={ne_ld(r2, s):.4f} CI={ne_interval(r2, s, n)}")
@@ -48,7 +49,7 @@ print("E at S=30 (large branch) and S=29.999 (small branch):", expected_r2(30), 
 print("monogamy S=50 r2=0.03:", ne_ld(0.03, 50, "monogamy"), " S=20 r2=0.08:", ne_ld(0.08, 20, "monogamy"))
 print("negative discriminant, r2'=0.05, S>=30:", ne_from_drift(0.05, 50))
 
-print("== METHODS §10 item 13 (composite r)")
+print("== composite r")
 A = [2, 2, 1, 1, 1, 0, 0, 1, 2, 0]
 B = [2, 1, 1, 2, 0, 0, 1, 0, 2, 0]
 
@@ -181,7 +182,7 @@ print("first 16 individuals only (16 jackknife groups of one individual: delete-
 for criterion in [0.05, 0.0]:
     print(criterion, {k: (round(v, 9) if isinstance(v, float) else v) for k, v in ld_estimate(criterion, 16).items()})
 
-print("== METHODS §10 item 14 (temporal)")
+print("== temporal")
 X = [[.5, .3, .2], [.6, .4], [.25, .25, .25, .25]]
 Y = [[.4, .35, .25], [.7, .3], [.3, .2, .35, .15]]
 S0 = St = 50
@@ -232,7 +233,7 @@ lo, hi = fs - tq * se, fs + tq * se
 print(f"Fs jackknife: loo={loo} se={se:.6f} t={tq:.6f} Fs CI=({lo:.6f}, {hi:.6f}) "
       f"Ne CI=({T/(2*hi):.4f}, {T/(2*lo) if lo > 0 else math.inf})")
 
-print("== METHODS §10 item 16 and §7 (heterozygote excess, Wright)")
+print("== heterozygote excess, Wright")
 for d in (0.05, 0.01):
     print(f"D={d}: Nb={1 / (2 * d) + 1 / (2 * (d + 1)):.6f}")
 print(f"Wright: Ne=50, t=10: H_t/H_0={(1 - 1 / 100) ** 10:.6f}")

@@ -3,7 +3,8 @@
 Library: scipy (version printed below; 1.17.1 when the test constants were frozen),
 scipy.special.comb with exact=True (integer binomial coefficients).
 Formulas: Hurlbert (1971), El Mousadik & Petit (1996) for A(g); Kalinowski (2004) for the
-private richness (METHODS section 3). Run: python3 tests/reference/rarefaction_reference.py
+private richness (docs/methods.md, "Allelic richness", "Private allelic richness").
+Run: python3 tests/reference/rarefaction_reference.py
 Frozen in plugins/builtin/src/stats/rarefaction.rs and plugins/builtin/src/steps/diversity.rs.
 """
 from fractions import Fraction

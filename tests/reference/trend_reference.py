@@ -7,7 +7,7 @@ pymannkendall 1.4.3.
     pip install numpy==2.4.6 scipy==1.17.1 pymannkendall==1.4.3
     python3 tests/reference/trend_reference.py
 
-Data are the invented series of METHODS.md §10 items 9 and 10 plus one invented tied series.
+Data are an invented eight-year series, ten invented paired loci and one invented tied series.
 """
 import itertools
 import math
@@ -24,8 +24,8 @@ def mk_s(y):
     return sum(np.sign(y[j] - y[i]) for i in range(len(y)) for j in range(i + 1, len(y)))
 
 
-# --- METHODS §10 item 8: exact upper tails P(S >= s) by enumerating all n! orders -------------
-print("\n[item 8] exact P(S >= s) by enumeration of permutations")
+# --- Mann–Kendall: exact upper tails P(S >= s) by enumerating all n! orders -------------
+print("\n[Mann-Kendall] exact P(S >= s) by enumeration of permutations")
 for n, targets in [(4, [6, 4]), (5, [10, 8]), (6, [15, 13, 11]), (8, [20, 16])]:
     counts = {}
     for perm in itertools.permutations(range(n)):
@@ -36,8 +36,8 @@ for n, targets in [(4, [6, 4]), (5, [10, 8]), (6, [15, 13, 11]), (8, [20, 16])]:
         tail = sum(c for k, c in counts.items() if k >= s) / total
         print(f"n={n} s={s}: P(S>=s) = {tail:.10f}")
 
-# --- METHODS §10 item 9: trend series 2010-2017 -------------------------------------------------
-print("\n[item 9] series 0.62 0.60 0.61 0.57 0.58 0.55 0.56 0.53, years 2010-2017")
+# --- trend series 2010-2017 ----------------------------------------------------------------
+print("\n[series] 0.62 0.60 0.61 0.57 0.58 0.55 0.56 0.53, years 2010-2017")
 years = np.arange(2010, 2018, dtype=float)
 y = np.array([0.62, 0.60, 0.61, 0.57, 0.58, 0.55, 0.56, 0.53])
 r = pymannkendall.original_test(y)
@@ -65,8 +65,8 @@ lr = stats.linregress(years_t, y_t)
 tq = stats.t.ppf(0.975, len(y_t) - 2)
 print(f"scipy.stats.linregress: slope={lr.slope:.10f} low={lr.slope - tq * lr.stderr:.10f} high={lr.slope + tq * lr.stderr:.10f}")
 
-# --- METHODS §10 item 10: Wilcoxon signed-rank over 10 loci --------------------------------------
-print("\n[item 10] paired He over 10 loci")
+# --- Wilcoxon signed-rank over 10 loci -----------------------------------------------------
+print("\n[paired] paired He over 10 loci")
 t1 = np.array([.71, .65, .80, .55, .62, .77, .69, .58, .74, .66])
 t2 = np.array([.68, .66, .74, .50, .60, .70, .69, .52, .71, .61])
 d = np.round(t2 - t1, 10)  # round so that equal differences tie exactly

@@ -364,8 +364,9 @@ mod tests {
         assert_eq!(Cell::Null.to_string(), "");
     }
 
-    /// DESIGN.md results contract: an infinite estimate is "inf", an undefined one null; no
-    /// NaN or infinity reaches JSON or CSV even from a cell built without `Cell::number`.
+    /// The results contract (core/src/report/contract.rs): an infinite estimate is "inf", an
+    /// undefined one null; no NaN or infinity reaches JSON or CSV even from a cell built without
+    /// `Cell::number`.
     #[test]
     fn non_finite_numbers_never_reach_json_or_csv() {
         let raw = vec![Cell::Num(f64::NAN), Cell::Num(f64::INFINITY), Cell::Num(f64::NEG_INFINITY)];

@@ -1,8 +1,8 @@
-//! Speed of `ne-ld` at SNP scale (20,000 SNPs × 100 individuals in one group, the issue-9
-//! target group; the packed biallelic path) and on a large microsatellite sample (20 loci ×
-//! 2,000 individuals; the byte path), one Pcrit criterion each, with and without the jackknife
-//! over individuals, plus the step's default criteria (three Pcrit values and no singletons,
-//! served by one pass). Prints pair·samples per second with the thread count, and the
+//! Speed of `ne-ld` at SNP scale (20,000 SNPs × 100 individuals in one group, the size the
+//! step is meant to handle; the packed biallelic path) and on a large microsatellite sample (20
+//! loci × 2,000 individuals; the byte path), one Pcrit criterion each, with and without the
+//! jackknife over individuals, plus the step's default criteria (three Pcrit values and no
+//! singletons, served by one pass). Prints pair·samples per second with the thread count, and the
 //! machine's AND-and-popcount rate over the same words, from which the kernel's ceiling
 //! follows (nine counts per 64 individuals); the README "Performance" table records the
 //! figures.

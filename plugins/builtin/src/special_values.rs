@@ -1,11 +1,12 @@
 //! Findings that explain the special values of a step's tables.
 //!
-//! DESIGN: no NaN or infinity reaches a table except as the documented `"inf"` or `null`, each
-//! with a finding explaining why. The steps add these findings where their tables are
-//! assembled, reading the tables themselves, so what a finding lists is exactly what a reader
-//! sees. One finding per (step, reason) names the rows it concerns, at most [`LISTED`] of them
-//! and then how many more, never one finding per cell. The table in DEVELOPERS.md ("Special
-//! values") lists each column that can be `null` or `"inf"` and the finding that explains it.
+//! Results contract (core/src/report/contract.rs): no NaN or infinity reaches a table except as the
+//! documented `"inf"` or `null`, each with a finding explaining why. The steps add these findings
+//! where their tables are assembled, reading the tables themselves, so what a finding lists is
+//! exactly what a reader sees. One finding per (step, reason) names the rows it concerns, at most
+//! [`LISTED`] of them and then how many more, never one finding per cell. The table in
+//! DEVELOPERS.md ("Special values") lists each column that can be `null` or `"inf"` and the finding
+//! that explains it.
 
 use popgauge_abi::{Cell, Finding, FindingLevel, Table, TableRow, Where};
 

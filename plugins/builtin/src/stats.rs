@@ -1,9 +1,9 @@
 //! Estimators shared by several steps, computed from [`popgauge_abi::AlleleCounts`].
 //!
-//! Conventions (METHODS §1): a locus in a set of samples counts only individuals with both
-//! alleles typed (code 0 = untyped is left out locus by locus, never imputed); expected
-//! heterozygosity is Nei's (1978) unbiased estimator; a quantity with a zero or undefined
-//! denominator is `None`, which reaches tables as `null`.
+//! Conventions (docs/methods.md, "Conventions"): a locus in a set of samples counts only
+//! individuals with both alleles typed (code 0 = untyped is left out locus by locus, never
+//! imputed); expected heterozygosity is Nei's (1978) unbiased estimator; a quantity with a zero or
+//! undefined denominator is `None`, which reaches tables as `null`.
 
 pub mod bootstrap;
 pub mod drift;

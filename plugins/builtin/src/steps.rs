@@ -50,7 +50,7 @@ mod tests {
         assert!(find("validat").is_none());
     }
 
-    /// DESIGN: `uses` names are part of the interface.
+    /// `uses` names are part of the interface (recipes name steps by them).
     #[test]
     fn registry_holds_the_designed_names() {
         assert!(find("validate").is_some());

@@ -174,7 +174,7 @@ mod properties {
     use super::*;
 
     /// A refusal names the recipe (or the file it points at) on its first line and has a help
-    /// line (DESIGN.md: errors name the file and say how to fix them).
+    /// line (the error convention: errors name the file and say how to fix them).
     fn clean<T>(result: Result<T, RecipeError>) -> Result<(), TestCaseError> {
         if let Err(e) = result {
             let text = e.to_string();

@@ -1,6 +1,6 @@
 //! Resampling over loci: the seeded random stream, the percentile bootstrap and the delete-one
-//! jackknife (METHODS conventions: "resampling loci" draws L loci with replacement, keeping each
-//! locus's full per-group data).
+//! jackknife (docs/methods.md, "Conventions": "resampling loci" draws L loci with replacement,
+//! keeping each locus's full per-group data).
 //!
 //! Both resamplers hand the statistic a slice of locus indices and reuse one buffer, so a
 //! bootstrap of B replicates allocates nothing per replicate.

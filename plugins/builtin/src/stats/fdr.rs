@@ -1,5 +1,5 @@
 //! False-discovery-rate q-values (Benjamini & Hochberg 1995) and Fisher's (1932) combination of
-//! independent p-values (METHODS §4.3).
+//! independent p-values (docs/methods.md, "Multiple tests").
 //!
 //! - BH: order p₍₁₎ ≤ … ≤ p₍ₘ₎ and set q₍ᵢ₎ = min_{j ≥ i} min(1, m·p₍ⱼ₎/j). The family is
 //!   whatever the caller passes; `m` is its length, which the caller must report.
@@ -65,9 +65,10 @@ mod tests {
     ];
 
     /// Benjamini & Hochberg (1995) worked example (published: 4 rejections at q = 0.05; the same
-    /// data are in the scipy documentation of `false_discovery_control`). q-values of METHODS §10
-    /// item 3 (computed), confirmed with scipy 1.17.1 `scipy.stats.false_discovery_control(p,
-    /// method="bh")` by tests/reference/hwe_reference.py, printed to 6 significant digits.
+    /// data are in the scipy documentation of `false_discovery_control`). q-values computed from
+    /// the Benjamini–Hochberg formula (module documentation), confirmed with scipy 1.17.1
+    /// `scipy.stats.false_discovery_control(p, method="bh")` by tests/reference/hwe_reference.py,
+    /// printed to 6 significant digits.
     #[test]
     fn benjamini_hochberg_published_example() {
         let expected = [
@@ -93,8 +94,8 @@ mod tests {
         assert!(benjamini_hochberg(&[]).is_empty());
     }
 
-    /// METHODS §10 item 7 (computed), confirmed with scipy 1.17.1
-    /// `scipy.stats.combine_pvalues([0.01, 0.2, 0.5], method="fisher")`: X² = 13.81551,
+    /// Fisher's (1932) X² computed from the formula (module documentation), confirmed with scipy
+    /// 1.17.1 `scipy.stats.combine_pvalues([0.01, 0.2, 0.5], method="fisher")`: X² = 13.81551,
     /// df = 6, p = 0.031766 (tests/reference/hwe_reference.py).
     #[test]
     fn fisher_combination_matches_scipy() {

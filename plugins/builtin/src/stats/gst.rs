@@ -1,6 +1,6 @@
 //! Differentiation from gene diversities: Nei's G_ST, Hedrick's G′_ST, Meirmans & Hedrick's
 //! G″_ST and Jost's D, with small-sample estimators of the within- and total gene diversity
-//! (METHODS §2.2).
+//! (docs/methods.md, "Gene-diversity differentiation").
 //!
 //! # Per locus, over k samples (one [`AlleleCounts`] each, all of the same locus)
 //! With Jᵢ = Σᵤ p̂ᵢᵤ², p̄ᵤ the unweighted mean of p̂ᵢᵤ over samples, ñ the harmonic mean of the
@@ -237,11 +237,11 @@ mod tests {
         AlleleCounts { alleles: alleles.to_vec(), heterozygous_carriers: vec![0; alleles.len()], typed, heterozygotes }
     }
 
-    /// METHODS §10 item 15 as a summary (Ho = .55 of n = 30 is not a whole number of
+    /// One locus in two samples, as a summary (Ho = .55 of n = 30 is not a whole number of
     /// individuals, so the check starts from the summary): p = (.6, .3, .1), n = 30, Ho = .55
     /// and p = (.2, .3, .5), n = 20, Ho = .60, so J = .46 and .38, ñ = 24, H̄o = .575,
     /// p̄ = (.4, .3, .3) and Σp̄² = .34 (hand calculation).
-    fn item_15() -> LocusSummary {
+    fn two_sample_locus() -> LocusSummary {
         LocusSummary {
             samples: 2,
             harmonic_n: 24.0,
@@ -251,21 +251,22 @@ mod tests {
         }
     }
 
-    /// Source: METHODS §10 item 15 (values computed by the compendium's independent Python
-    /// calculation, tolerance 1e-6 = its printed precision): Ĥ_S = 0.592717, Ĥ_T = 0.666359,
+    /// Source: hand calculation from the formulas of the module documentation (Nei & Chesser
+    /// 1983; Hedrick 2005; Meirmans & Hedrick 2011; Jost 2008), repeated in Python 3 floats;
+    /// tolerance 1e-6 = the printed precision: Ĥ_S = 0.592717, Ĥ_T = 0.666359,
     /// G_ST = 0.110513, G′_ST = 0.432172, G″_ST = 0.488679, D = 0.361623 with the Nei–Chesser
     /// estimators and 0.362213 with Jost's.
     ///
-    /// What was checked and what is from memory: the Nei–Chesser Ĥ_S, Ĥ_T are METHODS [C:
-    /// Holsinger's notes]. G′_ST = G_ST(k − 1 + H_S)/[(k − 1)(1 − H_S)] is Hedrick (2005),
-    /// from memory. G″_ST = k(H_T − H_S)/[(kH_T − H_S)(1 − H_S)] (Meirmans & Hedrick 2011)
-    /// and D = [(H_T − H_S)/(1 − H_S)]·[k/(k − 1)] with Jost's estimators
+    /// What was checked and what is from memory: the Nei–Chesser Ĥ_S, Ĥ_T are as
+    /// usually quoted from Nei & Chesser (1983), from memory.
+    /// G′_ST = G_ST(k − 1 + H_S)/[(k − 1)(1 − H_S)] is Hedrick (2005), from memory. G″_ST = k(H_T − H_S)/[(kH_T − H_S)(1 − H_S)]
+    /// (Meirmans & Hedrick 2011) and D = [(H_T − H_S)/(1 − H_S)]·[k/(k − 1)] with Jost's estimators
     /// Ĥ_S = 2ñ/(2ñ − 1)·H_S, Ĥ_T = H_T + Ĥ_S/(2ñk) (Jost 2008, eq. 12 and the estimators
     /// beside it) are from memory: the papers could not be consulted here. Their structure is
     /// checked independently by the derivations in `indices_reach_their_bounds`.
     #[test]
-    fn methods_item_15_one_locus() {
-        let nei_chesser = item_15().diversities(DiversityEstimator::NeiChesser);
+    fn gst_measures_of_one_locus_match_hand_values() {
+        let nei_chesser = two_sample_locus().diversities(DiversityEstimator::NeiChesser);
         assert_close(nei_chesser.within, 0.592717, 1e-6);
         assert_close(nei_chesser.total, 0.666359, 1e-6);
         let from_nei_chesser = indices(nei_chesser, 2);
@@ -273,7 +274,7 @@ mod tests {
         assert_close(from_nei_chesser.gst_prime.unwrap(), 0.432172, 1e-6);
         assert_close(from_nei_chesser.gst_double_prime.unwrap(), 0.488679, 1e-6);
         assert_close(from_nei_chesser.jost_d.unwrap(), 0.361623, 1e-6);
-        let jost = item_15().diversities(DiversityEstimator::Jost);
+        let jost = two_sample_locus().diversities(DiversityEstimator::Jost);
         // Hand calculation: Ĥ_S = 48/47 · 0.58 = 0.592340, Ĥ_T = 0.66 + 0.592340/96 = 0.666170.
         assert_close(jost.within, 48.0 / 47.0 * 0.58, 1e-12);
         assert_close(jost.total, 0.66 + 48.0 / 47.0 * 0.58 / 96.0, 1e-12);
@@ -328,10 +329,10 @@ mod tests {
         assert_close(d.total, 0.497647, 1e-6);
     }
 
-    /// METHODS §2.2 edge cases: a monomorphic locus (0/0) and a sample typed in nobody are
-    /// left out; every gene copy distinct and private to one population gives Ĥ_S = 1
-    /// (hand calculation: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S = 2·(1 − 0.25 − 0.25) = 1),
-    /// so G′_ST, G″_ST and D are undefined while G_ST is not.
+    /// Edge cases (docs/methods.md, "Gene-diversity differentiation"): a monomorphic locus (0/0)
+    /// and a sample typed in nobody are left out; every gene copy distinct and private to one
+    /// population gives Ĥ_S = 1 (hand calculation: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S =
+    /// 2·(1 − 0.25 − 0.25) = 1), so G′_ST, G″_ST and D are undefined while G_ST is not.
     #[test]
     fn degenerate_loci() {
         let fixed = counts(&[0, 8, 0], 4, 0);
@@ -351,9 +352,10 @@ mod tests {
         }
     }
 
-    /// METHODS §2.2 multilocus convention (ratio of averages), hand calculation: loci with
-    /// (Ĥ_S, Ĥ_T) = (0.5, 0.6) and (0.3, 0.5) average to (0.4, 0.55), so D (k = 2)
-    /// = 2·0.15/0.6 = 0.5, whereas the mean of the per-locus D (0.4 and 0.571429) is 0.485714.
+    /// Multilocus convention, ratio of averages (docs/methods.md, "Gene-diversity
+    /// differentiation"), hand calculation: loci with (Ĥ_S, Ĥ_T) = (0.5, 0.6) and (0.3, 0.5)
+    /// average to (0.4, 0.55), so D (k = 2) = 2·0.15/0.6 = 0.5, whereas the mean of the per-locus D
+    /// (0.4 and 0.571429) is 0.485714.
     #[test]
     fn multilocus_is_a_ratio_of_averages() {
         let mut totals = DiversityTotals::default();

@@ -9,9 +9,10 @@
 //!   (N² − Σ cᵤ²) / (N (N − 1)) so that a monomorphic locus gives exactly 0;
 //! - F = 1 − Ho/He, undefined (`None`) when He = 0.
 //!
-//! Fewer than two typed individuals leave He undefined (METHODS §1, edge cases), so
-//! [`LocusHeterozygosity`] reports neither Ho nor He for such a locus. Over several loci, F is
-//! the ratio of sums 1 − ΣHo/ΣHe ([`ratio_of_sums_inbreeding`]), not the mean of per-locus F.
+//! Fewer than two typed individuals leave He undefined (docs/methods.md, "Expected
+//! heterozygosity"), so [`LocusHeterozygosity`] reports neither Ho nor He for such a locus. Over
+//! several loci, F is the ratio of sums 1 − ΣHo/ΣHe ([`ratio_of_sums_inbreeding`]), not the mean of
+//! per-locus F.
 //!
 //! Nei M (1978) Estimation of average heterozygosity and genetic distance from a small number
 //! of individuals. *Genetics* 89:583–590.
@@ -22,7 +23,8 @@ use popgauge_abi::AlleleCounts;
 pub const NEI_1978: &str = "Nei M (1978) Estimation of average heterozygosity and genetic distance from a small \
 number of individuals. Genetics 89:583–590.";
 
-/// Fewest typed individuals at a locus for Ho and He to be reported (METHODS §1).
+/// Fewest typed individuals at a locus for Ho and He to be reported (docs/methods.md, "Expected
+/// heterozygosity").
 pub const MIN_TYPED_INDIVIDUALS: u32 = 2;
 
 /// Heterozygosity at one locus in one set of samples.
@@ -119,7 +121,8 @@ mod tests {
     /// genotypes per variant
     /// [0/0,0/0,0/0]; [0/0,0/1,1/1]; [0/0,1/1,2/2]; [1/1,1/2,missing]. Published: Ho = 0,
     /// 0.333333, 0, 0.5; plug-in He = 0, 0.5, 0.666667, 0.375. The unbiased He (Nei 1978)
-    /// 0, 0.6, 0.8, 0.5 is computed from the same data with Nei's formula (METHODS §10 item 1).
+    /// 0, 0.6, 0.8, 0.5 is computed from the same data with Nei's (1978) formula (hand
+    /// calculation).
     #[test]
     fn scikit_allel_documentation_example() {
         let variants =
@@ -136,16 +139,16 @@ mod tests {
         assert_eq!(inbreeding_coefficient(0.0, 0.0), None);
         assert_close(inbreeding_coefficient(1.0 / 3.0, 0.5).unwrap(), 1.0 / 3.0, 1e-12);
         assert_close(inbreeding_coefficient(0.5, 0.375).unwrap(), -1.0 / 3.0, 1e-12);
-        // With Nei-1978 He, variant 2 has F = 1 − (1/3)/0.6 = 0.444444 (METHODS §10 item 1).
+        // With Nei-1978 He, variant 2 has F = 1 − (1/3)/0.6 = 0.444444 (hand calculation).
         let variant2 = LocusHeterozygosity::from_counts(&variants[1]);
         assert_close(variant2.inbreeding().unwrap(), 4.0 / 9.0, 1e-12);
         assert_eq!(LocusHeterozygosity::from_counts(&variants[0]).inbreeding(), None);
     }
 
-    /// Hand calculation (common practice, textbook formulas of METHODS §1): 10 individuals,
-    /// AA×3, AB×4, BB×2, BC×1. Copies A 10, B 9, C 1 of N = 20; Σp² = 0.25 + 0.2025 + 0.0025
-    /// = 0.455; plug-in 0.545; He = 20/19 · 0.545 = 0.573684; Ho = 5/10 = 0.5;
-    /// F = 1 − 0.5/0.573684 = 0.128440.
+    /// Hand calculation (common practice, textbook formulas of docs/methods.md, "Expected
+    /// heterozygosity"): 10 individuals, AA×3, AB×4, BB×2, BC×1. Copies A 10, B 9, C 1 of N = 20;
+    /// Σp² = 0.25 + 0.2025 + 0.0025 = 0.455; plug-in 0.545; He = 20/19 · 0.545 = 0.573684; Ho =
+    /// 5/10 = 0.5; F = 1 − 0.5/0.573684 = 0.128440.
     #[test]
     fn hand_calculated_three_allele_locus() {
         let c = counts(&[0, 10, 9, 1], 10, 5);
@@ -157,7 +160,8 @@ mod tests {
         assert_eq!((locus.typed, locus.distinct_alleles), (10, 3));
     }
 
-    /// METHODS §1 edge case: n < 2 leaves He undefined, so the locus is not usable.
+    /// Edge case (docs/methods.md, "Expected heterozygosity"): n < 2 leaves He undefined, so the
+    /// locus is not usable.
     #[test]
     fn fewer_than_two_typed_is_undefined() {
         let one = LocusHeterozygosity::from_counts(&counts(&[0, 1, 1], 1, 1));
@@ -168,9 +172,9 @@ mod tests {
         assert_eq!(expected_heterozygosity(&none), None);
     }
 
-    /// Ratio of sums (METHODS §1): for the four scikit-allel variants with Nei-1978 He,
-    /// ΣHo = 0 + 1/3 + 0 + 0.5 = 0.833333, ΣHe = 0 + 0.6 + 0.8 + 0.5 = 1.9,
-    /// F = 1 − 0.833333/1.9 = 0.561404 (hand calculation), not the mean of per-locus F.
+    /// Ratio of sums (docs/methods.md, "Inbreeding coefficient F"): for the four scikit-allel
+    /// variants with Nei-1978 He, ΣHo = 0 + 1/3 + 0 + 0.5 = 0.833333, ΣHe = 0 + 0.6 + 0.8 + 0.5 =
+    /// 1.9, F = 1 − 0.833333/1.9 = 0.561404 (hand calculation), not the mean of per-locus F.
     #[test]
     fn multilocus_f_is_a_ratio_of_sums() {
         let pairs = [(0.0, 0.0), (1.0 / 3.0, 0.6), (0.0, 0.8), (0.5, 0.5)];

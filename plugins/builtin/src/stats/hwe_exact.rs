@@ -1,4 +1,5 @@
-//! Hardy–Weinberg exact tests of one locus in one group (METHODS §4.1–4.2).
+//! Hardy–Weinberg exact tests of one locus in one group (docs/methods.md, "Hardy–Weinberg exact
+//! tests").
 //!
 //! Given the allele counts, the conditional probability of a genotype table under
 //! Hardy–Weinberg proportions is Levene's (1949) / Haldane's (1954)
@@ -503,11 +504,12 @@ mod tests {
         HweWorkspace::new().test(table, &TestSettings::default(), no_rng).unwrap()
     }
 
-    /// METHODS §10 item 4 (computed), confirmed independently in Python by direct enumeration
-    /// of all tables with the factorial formula in exact rational arithmetic
-    /// (tests/reference/hwe_reference.py). Tolerance: 1e−6 relative to the printed digits.
+    /// Computed from the Levene–Haldane probability (module documentation), confirmed independently
+    /// in Python by direct enumeration of all tables with the factorial formula in exact rational
+    /// arithmetic (tests/reference/hwe_reference.py). Tolerance: 1e−6 relative to the printed
+    /// digits.
     #[test]
-    fn biallelic_table_of_the_compendium() {
+    fn exact_test_of_68_28_4_matches_enumeration() {
         let t = exact(&biallelic(68, 28, 4));
         assert_eq!(t.method, TestMethod::Exact);
         assert_close(t.p_value, 0.515367, 1e-6);
@@ -531,9 +533,9 @@ mod tests {
         assert_close(balanced.p_excess, 0.598966, 1e-6);
     }
 
-    /// The observed table's own probability (METHODS §10 item 4, computed, confirmed by the
-    /// Python enumeration): P(68, 28, 4) = 0.214047. The allele labels do not matter: the
-    /// common allele may be either code.
+    /// The observed table's own probability (computed from the Levene–Haldane probability,
+    /// confirmed by the Python enumeration): P(68, 28, 4) = 0.214047. The allele labels do not
+    /// matter: the common allele may be either code.
     #[test]
     fn observed_probability_and_label_symmetry() {
         let table = biallelic(68, 28, 4);
@@ -569,16 +571,16 @@ mod tests {
     }
 
     /// MN blood groups (data from memory, textbook example: 1787 MM, 3039 MN, 1303 NN; the
-    /// source table is to be verified). Exact p = 0.87742 is computed (METHODS §10 item 5) and
-    /// confirmed by the Python enumeration in exact rational arithmetic.
+    /// source table is to be verified). Exact p = 0.87742 is computed from the Levene–Haldane
+    /// probability and confirmed by the Python enumeration in exact rational arithmetic.
     #[test]
     fn mn_blood_groups() {
         let t = exact(&biallelic(1787, 3039, 1303));
         assert_close(t.p_value, 0.87742, 1e-5);
     }
 
-    /// METHODS §10 item 6 (computed), confirmed by the Python enumeration (24 tables, total
-    /// probability 1): alleles A:6, B:5, C:5, n = 8 with AA 3, BB 2, BC 1, CC 2 has
+    /// Computed from the Levene–Haldane probability, confirmed by the Python enumeration (24
+    /// tables, total probability 1): alleles A:6, B:5, C:5, n = 8 with AA 3, BB 2, BC 1, CC 2 has
     /// P(obs) = 0.001665 and exact p = 0.002553.
     #[test]
     fn levene_three_allele_example_by_enumeration() {
@@ -592,8 +594,9 @@ mod tests {
         assert!(t.p_deficit < 0.01 && t.p_excess > 0.99, "{t:?}");
     }
 
-    /// METHODS §4.2: the Monte Carlo estimate agrees with the exact p within 3 standard errors
-    /// (Levene example, B = 10,000 from a fixed seed), and the same seed gives the same p̂.
+    /// docs/methods.md, "Hardy–Weinberg exact tests": the Monte Carlo estimate agrees with the
+    /// exact p within 3 standard errors (Levene example, B = 10,000 from a fixed seed), and the
+    /// same seed gives the same p̂.
     #[test]
     fn monte_carlo_agrees_with_enumeration() {
         let table = table_of(3, &[(0, 0, 3), (1, 1, 2), (1, 2, 1), (2, 2, 2)]);

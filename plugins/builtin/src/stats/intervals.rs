@@ -100,8 +100,8 @@ mod tests {
         assert_close(chi_square_quantile(df, 0.025) / 198_762.305, 1.0, 1e-6);
     }
 
-    /// METHODS §10 item 12 (computed): r̄² = 0.03 on n′ = 300 gives the r² interval
-    /// (300·0.03/349.874, 300·0.03/253.912) = (0.0257235, 0.0354453), scipy 1.17.1.
+    /// Computed from the χ² interval of Hill (1981) and Waples (2006): r̄² = 0.03 on n′ = 300 gives
+    /// the r² interval (300·0.03/349.874, 300·0.03/253.912) = (0.0257235, 0.0354453), scipy 1.17.1.
     #[test]
     fn chi_square_interval_of_mean_r2() {
         let interval = chi_square_interval(0.03, 300.0, 0.95).unwrap();

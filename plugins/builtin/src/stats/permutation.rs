@@ -7,7 +7,7 @@
 //! *Random* test: with B defined replicates T*, of which `as_extreme` satisfy T* ≥ T
 //! (one-sided, large values extreme), the p-value is p = (1 + as_extreme)/(B + 1): the observed
 //! arrangement counts as one of the equally likely arrangements under the null, so p is never 0
-//! and never below 1/(B + 1) (METHODS §2.1).
+//! and never below 1/(B + 1) (docs/methods.md, "Conventions").
 //!
 //! *Exact* test: when n labels are permuted freely and their n! distinct orders are no more than
 //! the replicates asked for, every order is evaluated once instead ([`label_permutation_test`];

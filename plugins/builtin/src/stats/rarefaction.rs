@@ -1,4 +1,5 @@
-//! Allelic richness and private allelic richness by rarefaction (METHODS §3).
+//! Allelic richness and private allelic richness by rarefaction (docs/methods.md, "Allelic
+//! richness"; docs/methods.md, "Private allelic richness").
 //!
 //! At one locus, a group with *N* typed gene copies of which *Nᵤ* are allele *u* is rarefied to
 //! a common number of copies *g* ≤ *N* (Hurlbert 1971; El Mousadik & Petit 1996):
@@ -9,7 +10,7 @@
 //!
 //! Qᵤ, the chance that *g* copies drawn without replacement miss allele *u*, is computed as
 //! that product of ratios, never with factorials, so nothing overflows; Qᵤ = 0 when
-//! N − Nᵤ < g. Identities (METHODS §3 [D]): A(N) = the number of alleles seen, and
+//! N − Nᵤ < g. Identities (derived from the definition): A(N) = the number of alleles seen, and
 //! A(2) = 1 + N/(N − 1)·(1 − Σp̂²), one plus the unbiased expected heterozygosity.
 //!
 //! Private allelic richness of group *j* among the groups compared (Kalinowski 2004), all
@@ -107,11 +108,11 @@ mod tests {
     use super::*;
     use crate::test_support::assert_close;
 
-    /// METHODS §10 item 11 (computed), confirmed independently with scipy 1.17.1
-    /// `scipy.special.comb(exact=True)` by tests/reference/rarefaction_reference.py:
+    /// Computed from the rarefaction formula (module documentation), confirmed independently with
+    /// scipy 1.17.1 `scipy.special.comb(exact=True)` by tests/reference/rarefaction_reference.py:
     /// counts (5, 3, 1, 1) give A(2) = 1.711111, A(4) = 2.609524, A(10) = 4.
     #[test]
-    fn richness_of_the_compendium_example() {
+    fn rarefied_richness_of_counts_5_3_1_1() {
         let counts = [5, 3, 1, 1];
         assert_close(allelic_richness(&counts, 2).unwrap(), 1.711111, 1e-6);
         assert_close(allelic_richness(&counts, 4).unwrap(), 2.609524, 1e-6);
@@ -120,8 +121,8 @@ mod tests {
         assert_eq!(allelic_richness(&counts, 0), None);
     }
 
-    /// METHODS §3 identities [D]: A(N) = the number of alleles observed, and A(2) = 1 + the
-    /// unbiased He (Nei 1978) of the heterozygosity module, on several loci including a
+    /// Identities derived from the definition: A(N) = the number of alleles observed, and
+    /// A(2) = 1 + the unbiased He (Nei 1978) of the heterozygosity module, on several loci including a
     /// monomorphic one (A = 1 at every g). By hand for (5, 3, 1, 1): Σp² = 0.36,
     /// He = 10/9 · 0.64 = 0.711111.
     #[test]
@@ -142,11 +143,11 @@ mod tests {
         }
     }
 
-    /// METHODS §10 item 11 (computed), confirmed with scipy 1.17.1 by
-    /// tests/reference/rarefaction_reference.py: pop1 {a:6, b:4, c:2}, pop2 {a:8, b:2, d:2},
+    /// Computed from the rarefaction formulas (module documentation), confirmed with scipy 1.17.1
+    /// by tests/reference/rarefaction_reference.py: pop1 {a:6, b:4, c:2}, pop2 {a:8, b:2, d:2},
     /// g = 8: AR = 2.907071 and 2.818182, PAR = 0.999816 and 0.910927.
     #[test]
-    fn private_richness_of_the_compendium_example() {
+    fn private_richness_of_two_populations_matches_scipy() {
         // codes: a = 1, b = 2, c = 3, d = 4
         let pop1 = [0, 6, 4, 2];
         let pop2 = [0, 8, 2, 0, 2];

@@ -1,4 +1,5 @@
-//! Trend statistics over a short time series and a paired test over loci (METHODS §8):
+//! Trend statistics over a short time series and a paired test over loci (docs/methods.md, "Trend
+//! tests"; docs/methods.md, "Paired test over loci"):
 //!
 //! - [`mann_kendall`]: the Mann–Kendall statistic S = Σ_{i<j} sign(y_j − y_i), its
 //!   tie-corrected variance, Kendall's τ (τ_b when the values tie, which equals τ_a without
@@ -33,7 +34,8 @@ use std::cmp::Ordering;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::erf::{erfc, erfc_inv};
 
-/// Fewest points for a Mann–Kendall test: with 3 the smallest two-sided p is 0.333 (METHODS §8).
+/// Fewest points for a Mann–Kendall test: with 3 the smallest two-sided p is 0.333 (2 of the 3! = 6
+/// orders, common practice).
 pub const MIN_POINTS_MANN_KENDALL: usize = 4;
 /// Fewest points for a least-squares slope with an interval (n − 2 ≥ 1 degrees of freedom).
 pub const MIN_POINTS_LEAST_SQUARES: usize = 3;
@@ -375,12 +377,12 @@ mod tests {
     use crate::test_support::assert_close;
 
     const YEARS_2010_2017: [f64; 8] = [2010.0, 2011.0, 2012.0, 2013.0, 2014.0, 2015.0, 2016.0, 2017.0];
-    /// METHODS §10 item 9 (an invented series).
-    const SERIES_ITEM_9: [f64; 8] = [0.62, 0.60, 0.61, 0.57, 0.58, 0.55, 0.56, 0.53];
+    /// An invented series, years 2010–2017.
+    const DECLINING_SERIES_2010_2017: [f64; 8] = [0.62, 0.60, 0.61, 0.57, 0.58, 0.55, 0.56, 0.53];
     /// An invented series with ties, years 2001–2012.
     const TIED_SERIES: [f64; 12] = [5.0, 3.0, 3.0, 4.0, 2.0, 2.0, 2.0, 1.0, 6.0, 1.0, 0.0, 0.0];
 
-    /// METHODS §10 item 8 (exact upper tails, Kendall's table as remembered: from memory, not
+    /// Exact upper tails of the Mann–Kendall S (Kendall's table as remembered: from memory, not
     /// checked against Gilbert Table A18, which could not be consulted), re-derived by
     /// enumerating all n! orders in tests/reference/trend_reference.py (Python 3.11).
     #[test]
@@ -405,12 +407,12 @@ mod tests {
         assert_eq!(mann_kendall_upper_tail(5, 12), 0.0);
     }
 
-    /// METHODS §10 item 9 (computed), re-derived with pymannkendall 1.4.3 `original_test`
+    /// The invented 2010–2017 series, re-derived with pymannkendall 1.4.3 `original_test`
     /// (S, Var S, Z, normal p, τ) and scipy 1.17.1 `kendalltau` (exact p 0.0055059524), see
     /// tests/reference/trend_reference.py. n = 8 without ties takes the exact branch.
     #[test]
     fn mann_kendall_matches_reference_libraries() {
-        let mk = mann_kendall(&SERIES_ITEM_9).unwrap();
+        let mk = mann_kendall(&DECLINING_SERIES_2010_2017).unwrap();
         assert_eq!((mk.points, mk.s), (8, -22));
         assert_close(mk.variance, 65.3333333333, 1e-6);
         assert_close(mk.z, -2.5980762114, 1e-6);
@@ -435,26 +437,27 @@ mod tests {
         assert_eq!(mk.method, PValueMethod::Normal);
     }
 
-    /// METHODS §8: fewer than 4 points give no test; +∞ values tie with each other above every
-    /// finite value (here S counts 2 rises to ∞ from each finite point and none between the ∞).
+    /// docs/methods.md, "Trend tests": fewer than 4 points give no test; +∞ values tie with each
+    /// other above every finite value (here S counts 2 rises to ∞ from each finite point and none
+    /// between the ∞).
     #[test]
     fn too_few_points_and_infinite_values() {
         assert_eq!(mann_kendall(&[0.5, 0.4, 0.3]), None);
         let mk = mann_kendall(&[1.0, 2.0, f64::INFINITY, f64::INFINITY]).unwrap();
         assert_eq!(mk.s, 5);
         assert_eq!(mk.method, PValueMethod::Normal);
-        // Var S with one tie of size 2: (4·3·13 − 2·1·9)/18 = 138/18 (Gilbert 1987 eq. 16.4 as
-        // given in METHODS §8).
+        // Var S with one tie of size 2: (4·3·13 − 2·1·9)/18 = 138/18 (Gilbert 1987 eq. 16.4,
+        // from memory).
         assert_close(mk.variance, 138.0 / 18.0, 1e-12);
     }
 
-    /// METHODS §10 item 9: scipy 1.17.1 `theilslopes(alpha=0.95)` gives slope −0.0120833333,
-    /// CI (−0.0166666667, −0.0066666667); N′ = 28. Tied series: −0.3333333333
+    /// The invented 2010–2017 series: scipy 1.17.1 `theilslopes(alpha=0.95)` gives slope
+    /// −0.0120833333, CI (−0.0166666667, −0.0066666667); N′ = 28. Tied series: −0.3333333333
     /// (−0.5, −0.25) (tests/reference/trend_reference.py).
     #[test]
     fn sen_slope_matches_scipy() {
-        let mk = mann_kendall(&SERIES_ITEM_9).unwrap();
-        let sen = sen_slope(&YEARS_2010_2017, &SERIES_ITEM_9, mk.variance, 0.95).unwrap();
+        let mk = mann_kendall(&DECLINING_SERIES_2010_2017).unwrap();
+        let sen = sen_slope(&YEARS_2010_2017, &DECLINING_SERIES_2010_2017, mk.variance, 0.95).unwrap();
         assert_eq!(sen.pairs, 28);
         assert_close(sen.slope, -0.0120833333, 1e-6);
         assert_close(sen.low.unwrap(), -0.0166666667, 1e-6);
@@ -468,7 +471,7 @@ mod tests {
     }
 
     /// Four points: N′ = 6, Var S = 4·3·13/18, C = 1.96·2.944 = 5.77, M₁ = round(0.11) = 0,
-    /// so the 95% limits do not exist (hand calculation, Gilbert 1987 §16.5 as in METHODS §8).
+    /// so the 95% limits do not exist (hand calculation, Gilbert 1987 §16.5).
     #[test]
     fn sen_interval_is_null_when_too_short() {
         let times = [1.0, 2.0, 3.0, 4.0];
@@ -479,12 +482,12 @@ mod tests {
         assert_eq!((sen.low, sen.high), (None, None));
     }
 
-    /// METHODS §10 item 9: scipy 1.17.1 `linregress` slope −0.0119047619, SE 0.0017790882,
-    /// t₆ = 2.4469118511, CI (−0.0162580340, −0.0075514898); tied series slope −0.3111888112,
-    /// CI (−0.6062015019, −0.0161761205) (tests/reference/trend_reference.py).
+    /// The invented 2010–2017 series: scipy 1.17.1 `linregress` slope −0.0119047619, SE
+    /// 0.0017790882, t₆ = 2.4469118511, CI (−0.0162580340, −0.0075514898); tied series slope
+    /// −0.3111888112, CI (−0.6062015019, −0.0161761205) (tests/reference/trend_reference.py).
     #[test]
     fn least_squares_matches_scipy() {
-        let ols = least_squares(&YEARS_2010_2017, &SERIES_ITEM_9, 0.95).unwrap();
+        let ols = least_squares(&YEARS_2010_2017, &DECLINING_SERIES_2010_2017, 0.95).unwrap();
         assert_close(ols.slope, -0.0119047619, 1e-6);
         assert_close(ols.standard_error, 0.0017790882, 1e-6);
         assert_close(ols.low, -0.0162580340, 1e-6);
@@ -498,13 +501,13 @@ mod tests {
         assert_eq!(least_squares(&[1.0, 1.0, 1.0], &[1.0, 2.0, 3.0], 0.95), None);
     }
 
-    /// METHODS §10 item 10: one zero dropped, W⁺ = 1, W⁻ = 44. The |d| tie (0.03, 0.05, 0.06
-    /// twice each), so the p-value is the tie-corrected normal one: scipy 1.17.1
+    /// Ten invented loci before and after: one zero dropped, W⁺ = 1, W⁻ = 44. The |d| tie (0.03,
+    /// 0.05, 0.06 twice each), so the p-value is the tie-corrected normal one: scipy 1.17.1
     /// `wilcoxon(method="approx", correction=True)` gives 0.0126156672. Ignoring ties, the exact
-    /// p is 4/512 = 0.0078125 (METHODS item 10; enumeration of 2⁹ signs in
+    /// p is 4/512 = 0.0078125 (enumeration of 2⁹ signs in
     /// tests/reference/trend_reference.py).
     #[test]
-    fn signed_rank_matches_methods_item_10() {
+    fn signed_rank_of_ten_loci_matches_scipy_with_ties() {
         let before = [0.71, 0.65, 0.80, 0.55, 0.62, 0.77, 0.69, 0.58, 0.74, 0.66];
         let after = [0.68, 0.66, 0.74, 0.50, 0.60, 0.70, 0.69, 0.52, 0.71, 0.61];
         let differences: Vec<f64> = after.iter().zip(&before).map(|(a, b)| a - b).collect();

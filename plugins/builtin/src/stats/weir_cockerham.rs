@@ -1,5 +1,5 @@
 //! Weir & Cockerham (1984) variance components *a*, *b*, *c* at one locus, for any number of
-//! samples *r* ≥ 1 (METHODS §2.1).
+//! samples *r* ≥ 1 (docs/methods.md, "Weir and Cockerham F-statistics").
 //!
 //! # Interface (stable; used by `diversity` with r = 1 and by `differentiation` with r ≥ 2)
 //!
@@ -37,14 +37,15 @@
 //!
 //! With one sample (r = 1) there is no between-sample component: s² = 0 and a = 0 by
 //! definition, and summed over alleles Σ(b + c) is the Nei–Chesser Ĥe* and Σc is Ĥo, so
-//! f̂ = 1 − ΣĤo/ΣĤe* (METHODS §2.1, §1).
+//! f̂ = 1 − ΣĤo/ΣĤe* (docs/methods.md, "Weir and Cockerham F-statistics").
 //!
 //! # Undefined cases
 //! Both functions return `None` when no sample is given, when a sample has no typed individual
-//! (nᵢ = 0: the caller decides whether to drop the locus for that comparison, METHODS §2.1,
-//! or to leave the sample out), or when n̄ ≤ 1. An allele absent from every sample contributes
-//! a = b = c = 0. A locus monomorphic across the samples gives a = b = c = 0 and drops out of
-//! the ratios by itself. Negative components and negative θ̂ are sampling noise and are kept.
+//! (nᵢ = 0: the caller decides whether to drop the locus for that comparison,
+//! as `differentiation` does, or to leave the sample out), or when n̄ ≤ 1. An allele absent from
+//! every sample contributes a = b = c = 0. A locus monomorphic across the samples gives a = b = c =
+//! 0 and drops out of the ratios by itself. Negative components and negative θ̂ are sampling noise
+//! and are kept.
 //!
 //! # Citation
 //! Weir BS, Cockerham CC (1984) Estimating F-statistics for the analysis of population
@@ -325,7 +326,7 @@ mod tests {
     }
 
     /// Source: scikit-allel 1.3 documentation, docstring example of `weir_cockerham_fst`
-    /// (published per-allele a, b, c; METHODS §10 item 2), reproduced by running scikit-allel
+    /// (published per-allele a, b, c), reproduced by running scikit-allel
     /// 1.3.13 in tests/reference/wc84_scikit_allel_example.py; tolerance 1e-6 (the docstring
     /// prints 8 significant digits). Variant 3 is monomorphic: a = b = c = 0 at allele 0
     /// and θ undefined.
@@ -345,8 +346,8 @@ mod tests {
     }
 
     /// Source: scikit-allel 1.3 documentation (published per-variant θ = 1, 0, nan, −0.4,
-    /// −1.8 and overall θ ≈ 0); overall F = f = 0.278689 is computed (METHODS §10 item 2) and
-    /// confirmed from scikit-allel 1.3.13's a, b, c (0.27868852) by
+    /// −1.8 and overall θ ≈ 0); overall F = f = 0.278689 is computed from those a, b, c (ratio of
+    /// sums) and confirmed from scikit-allel 1.3.13's a, b, c (0.27868852) by
     /// tests/reference/wc84_scikit_allel_example.py.
     #[test]
     fn reproduces_scikit_allel_documented_theta() {
@@ -366,8 +367,8 @@ mod tests {
         assert_close(overall.f_is().unwrap(), 0.278689, 1e-6);
     }
 
-    /// METHODS §2.1 identity [D]: with r = 1, Σc = Ho and Σ(b + c) = Nei–Chesser He*
-    /// = n/(n−1)·(1 − Σp² − Ho/(2n)). METHODS §10 item 1 (computed): variant 2 of the
+    /// Identity derived from the formulas (module documentation): with r = 1, Σc = Ho and Σ(b + c)
+    /// = Nei–Chesser He* = n/(n−1)·(1 − Σp² − Ho/(2n)). Hand calculation: variant 2 of the
     /// scikit-allel heterozygosity example (0/0, 0/1, 1/1) has He* = 0.666667 and f = 0.5.
     #[test]
     fn one_sample_gives_nei_chesser_fis() {

@@ -11,22 +11,23 @@
 //!
 //! # FST
 //! θ̂ of Weir & Cockerham (1984) as a ratio of sums over alleles and loci, Σa/Σ(a + b + c)
-//! ([`crate::stats::weir_cockerham`]; METHODS §2.1). At each locus *n*ᵢ counts the individuals
-//! of group *i* typed at both alleles (code 0 = untyped is left out, never imputed). A locus
-//! untyped in every individual of a group is dropped from every comparison involving that group
-//! (for the global estimate, from the whole set) and listed in a `locus-untyped-in-group`
-//! finding. A locus monomorphic over the compared groups adds 0 to both sums. Negative θ̂ is
-//! sampling noise and is kept as computed. θ̂ is `null` when Σ(a + b + c) = 0 (no locus
-//! polymorphic in the comparison) or no locus has n̄ > 1, with an `fst-undefined` finding.
+//! ([`crate::stats::weir_cockerham`]; docs/methods.md, "Weir and Cockerham F-statistics"). At each
+//! locus *n*ᵢ counts the individuals of group *i* typed at both alleles (code 0 = untyped is left
+//! out, never imputed). A locus untyped in every individual of a group is dropped from every
+//! comparison involving that group (for the global estimate, from the whole set) and listed in a
+//! `locus-untyped-in-group` finding. A locus monomorphic over the compared groups adds 0 to both
+//! sums. Negative θ̂ is sampling noise and is kept as computed. θ̂ is `null` when Σ(a + b + c) = 0
+//! (no locus polymorphic in the comparison) or no locus has n̄ > 1, with an `fst-undefined`
+//! finding.
 //!
-//! **Intervals**: 95 % percentile bootstrap over loci (`bootstrap` replicates; METHODS
-//! conventions; Efron & Tibshirani 1993), for each pair and each comparison set, of θ̂, Jost's D
-//! and G″_ST. Each replicate draws the comparison's loci once (from the loci entering θ̂, which
-//! include every locus of the G_ST family) and recomputes all three from those loci, so the
-//! intervals come from the same resampled data and θ̂'s interval is that of a bootstrap of θ̂
-//! alone. A bound is `null` when `bootstrap` = 0 or fewer than two replicates give the statistic
-//! a defined value (a replicate drawing only loci monomorphic in the comparison has no D or
-//! G″_ST); `bootstrap` in `global` counts the replicates with a defined θ̂*.
+//! **Intervals**: 95 % percentile bootstrap over loci (`bootstrap` replicates;
+//! docs/methods.md, "Conventions"; Efron & Tibshirani 1993), for each pair and each comparison set,
+//! of θ̂, Jost's D and G″_ST. Each replicate draws the comparison's loci once (from the loci
+//! entering θ̂, which include every locus of the G_ST family) and recomputes all three from those
+//! loci, so the intervals come from the same resampled data and θ̂'s interval is that of a
+//! bootstrap of θ̂ alone. A bound is `null` when `bootstrap` = 0 or fewer than two replicates give
+//! the statistic a defined value (a replicate drawing only loci monomorphic in the comparison has
+//! no D or G″_ST); `bootstrap` in `global` counts the replicates with a defined θ̂*.
 //!
 //! **Permutation test** (`fst_p`, pairs only): whole individuals (all loci, untyped cells
 //! included) are shuffled between the two groups keeping the group sizes, on the loci used for
@@ -41,13 +42,14 @@
 //! 65,535 individuals is not tested (`fst_p` null).
 //!
 //! # Jost's D and the G_ST family
-//! Per locus over the compared groups (METHODS §2.2; [`crate::stats::gst`]). **Multilocus values
-//! are ratios of averages**: Ĥ_S and Ĥ_T are averaged over the loci polymorphic in the
-//! comparison, then the formula is applied once (not the mean of per-locus values, and not the
-//! harmonic mean of per-locus D). `gst` (Nei 1973), `gst_p` (G′_ST, Hedrick 2005) and `gst_pp`
-//! (G″_ST, Meirmans & Hedrick 2011) use the Nei & Chesser (1983) estimators of Ĥ_S and Ĥ_T;
-//! `jost_d` uses Jost's (2008) own estimators. Where Ĥ_S = 1 or kĤ_T = Ĥ_S the measure is
-//! `null` with a `differentiation-undefined` finding. Their intervals are described under FST.
+//! Per locus over the compared groups (docs/methods.md, "Gene-diversity differentiation";
+//! [`crate::stats::gst`]). **Multilocus values are ratios of averages**: Ĥ_S and Ĥ_T are averaged
+//! over the loci polymorphic in the comparison, then the formula is applied once (not the mean of
+//! per-locus values, and not the harmonic mean of per-locus D). `gst` (Nei 1973), `gst_p` (G′_ST,
+//! Hedrick 2005) and `gst_pp` (G″_ST, Meirmans & Hedrick 2011) use the Nei & Chesser (1983)
+//! estimators of Ĥ_S and Ĥ_T; `jost_d` uses Jost's (2008) own estimators. Where Ĥ_S = 1 or kĤ_T =
+//! Ĥ_S the measure is `null` with a `differentiation-undefined` finding. Their intervals are
+//! described under FST.
 //!
 //! # Isolation by distance
 //! For each comparison set with at least three populations that have latitude and longitude
@@ -117,7 +119,8 @@ use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
 use ibd::{IsolationByDistance, MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
 use pairs::{ComparisonEstimate, PairPermutation};
 
-/// A group with fewer samples than this gets a `low-sample-size` warning (METHODS §1).
+/// A group with fewer samples than this gets a `low-sample-size` warning (docs/methods.md,
+/// "Conventions").
 pub const LOW_SAMPLE_SIZE: usize = 10;
 /// At most this many locus names are spelled out in one finding.
 const LOCI_LISTED: usize = 10;

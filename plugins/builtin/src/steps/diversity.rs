@@ -10,8 +10,8 @@
 //! - `f` = 1 − Ho/He;
 //! - `fis` is Weir & Cockerham's (1984) f̂ = 1 − Σc/Σ(b + c) with one sample (r = 1, a = 0),
 //!   which equals 1 − ΣHo/ΣHe* with the Nei–Chesser He* = n/(n − 1)·(1 − Σp̂² − Ho/(2n))
-//!   (METHODS §2.1; components in [`crate::stats::weir_cockerham`]). `f` and `fis` differ
-//!   slightly in small samples;
+//!   (docs/methods.md, "Weir and Cockerham F-statistics"; components in
+//!   [`crate::stats::weir_cockerham`]). `f` and `fis` differ slightly in small samples;
 //! - `effective_alleles` is the effective number of alleles 1/Σp̂ᵤ² (plug-in frequencies; not
 //!   an effective population size);
 //! - `ar` is the allelic richness and `par` the private allelic richness, both rarefied to a
@@ -22,13 +22,14 @@
 //! effective number of alleles `null` there and is left out of that group's means. Per group,
 //! `ho`, `he`, `effective_alleles` and `alleles_mean` are unweighted means over the remaining
 //! loci; `f` is the ratio of sums 1 − ΣHo/ΣHe and `fis` the ratio of summed variance
-//! components over them (METHODS §1, §2.1), `null` when the denominator is 0 (a group
-//! monomorphic at every locus). A monomorphic locus gives Ho = He = 0 and `f`, `fis` `null`.
+//! components over them (docs/methods.md, "Inbreeding coefficient F"; docs/methods.md, "Weir and
+//! Cockerham F-statistics"), `null` when the denominator is 0 (a group monomorphic at every locus).
+//! A monomorphic locus gives Ho = He = 0 and `f`, `fis` `null`.
 //!
 //! # Confidence interval of FIS
 //! `fis_low`, `fis_high`: the 2.5th and 97.5th percentiles of `bootstrap` replicates (default
 //! 1000; 0 = no interval) drawing the view's loci with replacement, each locus keeping its
-//! per-group (b + c, c) (METHODS conventions). The draws come from the step seed's `fis`
+//! per-group (b + c, c) (docs/methods.md, "Conventions"). The draws come from the step seed's `fis`
 //! stream and are the same for every group. A replicate whose drawn loci are all monomorphic
 //! in the group is undefined and skipped; `fis_replicates` counts the replicates used.
 //!
@@ -63,9 +64,9 @@
 //!
 //! # Findings
 //! `low-sample-size` (warning) for a group of fewer than 10 samples; `few-loci` (warning) for a
-//! group with fewer than 5 usable loci (both METHODS §1); `too-few-typed` (info, one finding
-//! listing every locus and group with n < 2); `monomorphic-in-group` (info, one finding
-//! listing them); `rarefaction-group-excluded` and `rarefaction-loci-dropped` (warnings);
+//! group with fewer than 5 usable loci (both docs/methods.md, "Conventions"); `too-few-typed`
+//! (info, one finding listing every locus and group with n < 2); `monomorphic-in-group` (info, one
+//! finding listing them); `rarefaction-group-excluded` and `rarefaction-loci-dropped` (warnings);
 //! `par-alone-in-year` (info, the groups whose `par` is null for want of another population
 //! that year); `rarefaction-size`, `par-comparison` (one per year: the populations compared and
 //! *g*), `fis-interval` and `f-definition` (info) stating the conventions.
@@ -92,9 +93,11 @@ mod findings;
 mod richness;
 mod tables;
 
-/// A group with fewer samples than this gets a `low-sample-size` warning (METHODS §1).
+/// A group with fewer samples than this gets a `low-sample-size` warning (docs/methods.md,
+/// "Conventions").
 pub const LOW_SAMPLE_SIZE: usize = 10;
-/// A group with fewer usable loci than this gets a `few-loci` warning (METHODS §1).
+/// A group with fewer usable loci than this gets a `few-loci` warning (docs/methods.md,
+/// "Conventions").
 pub const FEW_LOCI: usize = 5;
 /// Coverage of the FIS bootstrap interval.
 pub const INTERVAL_LEVEL: f64 = 0.95;

@@ -31,9 +31,10 @@
 //!   family size m is stated in an info finding.
 //! - Null alleles: a `possible-null-allele` warning for a locus where, in at least half of the
 //!   groups in which it was tested, the deficit is significant (`direction` = deficit and
-//!   q < 0.05) and Brookfield's (1996) r = (He − Ho)/(1 + He) ≥ 0.05 (METHODS §4.4; the
-//!   estimator is written from memory and awaits a check against the paper). Inbreeding or a
-//!   Wahlund effect raise both too, so this is an indication only. `null_allele_r` reports r.
+//!   q < 0.05) and Brookfield's (1996) r = (He − Ho)/(1 + He) ≥ 0.05 (docs/methods.md, "Null
+//!   alleles"; the estimator is written from memory and awaits a check against the paper).
+//!   Inbreeding or a Wahlund effect raise both too, so this is an indication only. `null_allele_r`
+//!   reports r.
 //!
 //! # Tables
 //! - `by_locus`: population, year, locus, n, alleles, method (`exact`/`monte-carlo`), draws,

@@ -1,7 +1,7 @@
 //! `ne-hetx`: the effective number of breeders from the heterozygote excess in their progeny
 //! (Pudovkin, Zaykin & Hedgecock 1996), per group (population, year).
 //!
-//! # Method (METHODS §7)
+//! # Method (docs/methods.md, "Heterozygote-excess Nb")
 //! When few parents produce a cohort, the allele frequencies of the male and female parents
 //! differ by chance and their progeny carry more heterozygotes than Hardy–Weinberg proportions
 //! predict, by about 1/(8N_m) + 1/(8N_f) (Robertson 1965). At each locus polymorphic in the
@@ -11,8 +11,8 @@
 //! - Dₗ = (Hoₗ − Heₗ)/Heₗ (that is, −F at the locus);
 //! - `d` = D̄, the unweighted mean over the polymorphic loci (He > 0, at least two individuals
 //!   typed);
-//! - `ne` = N̂b = 1/(2D̄) + 1/[2(D̄ + 1)] (Pudovkin et al. 1996; the form is as given in METHODS
-//!   §7, written there from memory and not checked against the paper).
+//! - `ne` = N̂b = 1/(2D̄) + 1/[2(D̄ + 1)] (Pudovkin et al. 1996; the form is written
+//!   from memory and not checked against the paper).
 //!
 //! # Confidence interval (95%)
 //! A delete-one jackknife over loci of D̄ (for a mean this is the usual standard error s/√L),
@@ -43,7 +43,8 @@ use crate::stats::heterozygosity::{LocusHeterozygosity, NEI_1978};
 use crate::stats::intervals::student_t_interval;
 use crate::stats::mean;
 
-/// A group with fewer individuals gets a `low-sample-size` warning (METHODS §5–§7).
+/// A group with fewer individuals gets a `low-sample-size` warning (docs/methods.md,
+/// "Conventions").
 pub const LOW_SAMPLE_SIZE: usize = 15;
 /// Fewer polymorphic loci than this give a `few-loci` warning (common practice, as `diversity`).
 pub const FEW_LOCI: usize = 5;
@@ -253,8 +254,9 @@ mod tests {
     use super::*;
     use crate::test_support::{MatrixBuilder, assert_close, cell, findings_with, number, run_step, table};
 
-    /// METHODS §10 item 16 (computed; re-derived in tests/reference/ne_formulas.py): D = 0.05
-    /// gives Nb = 10.476190 and D = 0.01 gives 50.495050; D ≤ 0 gives "inf" (METHODS §7).
+    /// Computed from the Nb formula (re-derived in tests/reference/ne_formulas.py): D = 0.05
+    /// gives Nb = 10.476190 and D = 0.01 gives 50.495050; D ≤ 0 gives "inf" (docs/methods.md,
+    /// "Heterozygote-excess Nb").
     #[test]
     fn formula_matches_check_values() {
         assert_close(breeders_from_excess(0.05), 10.476_190, 1e-6);
@@ -289,7 +291,8 @@ mod tests {
         assert_eq!(cell(estimates, 0, "ne_high"), &Cell::Inf);
         assert_eq!(findings_with(&output, "low-sample-size").len(), 1);
         assert_eq!(findings_with(&output, "few-loci").len(), 1);
-        // DESIGN: the "inf" upper bound comes with a finding naming the group (common practice).
+        // Results contract: the "inf" upper bound comes with a finding naming the group (common
+        // practice).
         let upper = findings_with(&output, "infinite-upper-bound");
         assert_eq!(upper.len(), 1);
         assert!(
@@ -300,9 +303,9 @@ mod tests {
         assert!(findings_with(&output, "no-interval").is_empty());
     }
 
-    /// METHODS §7: a heterozygote deficit (D̄ < 0) gives "inf" with a finding saying what it
-    /// means; a monomorphic group has a null estimate. Hand calculation: 20 individuals 10 AA,
-    /// 10 BB have Ho 0, so D = −1.
+    /// docs/methods.md, "Heterozygote-excess Nb": a heterozygote deficit (D̄ < 0) gives "inf" with
+    /// a finding saying what it means; a monomorphic group has a null estimate. Hand calculation:
+    /// 20 individuals 10 AA, 10 BB have Ho 0, so D = −1.
     #[test]
     fn deficit_is_infinite_and_monomorphic_is_null() {
         let matrix = MatrixBuilder::new(&["L1"])
@@ -359,7 +362,7 @@ mod tests {
         assert!(message.contains("(ne_low) is informative: Nb is unlikely to be below it"), "{message}");
     }
 
-    /// DESIGN: the `estimates` table starts with the contract's columns; no parameters.
+    /// Results contract: the `estimates` table starts with the contract's columns; no parameters.
     #[test]
     fn columns_follow_the_contract() {
         assert!(descriptor().params.is_empty());

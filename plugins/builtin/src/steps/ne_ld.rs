@@ -2,7 +2,7 @@
 //! (Hill 1981), with the bias correction of Waples (2006), per group (population, year) and per
 //! rare-allele criterion.
 //!
-//! # Method (METHODS §5)
+//! # Method (docs/methods.md, "LD-based Ne")
 //! For each pair of loci *i*, *j* in a group, the individuals typed at both (Sᵢⱼ of them) give,
 //! for each retained allele *u* of *i* and *v* of *j*, Burrows' composite correlation with
 //! Weir's (1979) sample-size factor: r̂ᵤᵥ = Sᵢⱼ/(Sᵢⱼ − 1) · (Pearson correlation of the allele
@@ -117,9 +117,11 @@ use crate::stats::bootstrap::rng;
 
 pub use self::estimate::{expected_sample_r2, ne_from_drift_r2, ne_from_r2};
 
-/// A group/criterion with a harmonic-mean S below this gets a `low-sample-size` warning (METHODS §5).
+/// A group/criterion with a harmonic-mean S below this gets a `low-sample-size` warning
+/// (docs/methods.md, "Conventions").
 pub const LOW_SAMPLE_SIZE: f64 = 15.0;
-/// Fewer independent comparisons than this give a `few-comparisons` warning (METHODS §5).
+/// Fewer independent comparisons than this give a `few-comparisons` warning (docs/methods.md,
+/// "Conventions").
 pub const FEW_COMPARISONS: f64 = 10.0;
 /// Fewer usable loci than this give a `few-loci` warning (common practice, as `diversity`).
 pub const FEW_LOCI: usize = 5;

@@ -1,7 +1,7 @@
 //! `ne-temporal`: effective population size from the change in allele frequencies between two
 //! sampling years of the same population (the temporal method).
 //!
-//! # Method (METHODS §6)
+//! # Method (docs/methods.md, "Temporal Ne")
 //! For each population sampled in at least two years, each pair of consecutive sampling years
 //! is compared, and so are the first and last years when there are three or more. At each locus,
 //! with xᵤ and yᵤ the allele frequencies among the individuals typed at the locus in the first
@@ -18,7 +18,7 @@
 //!   harmonic mean of S₀ and S_t (`fs`).
 //!
 //! **Sample sizes with missing data.** S₀ and S_t (`s_start`, `s_end`) are the harmonic means of
-//! the per-locus numbers of typed individuals, weighted by Kₗ (METHODS §6), and are used in every
+//! the per-locus numbers of typed individuals, weighted by Kₗ, and are used in every
 //! sampling correction.
 //!
 //! **Sampling plans (Waples 1989).** `plan` has no default: the recipe must say how the

@@ -12,8 +12,8 @@ use crate::stats::trend::least_squares;
 
 /// Mean Earth radius R₁ of the Geodetic Reference System 1980 (IUGG; Moritz 1980), in km.
 pub const MEAN_EARTH_RADIUS_KM: f64 = 6371.0088;
-/// Fewest located populations for an isolation-by-distance analysis (METHODS §2.3: a
-/// regression and a Mantel test need at least three pairs).
+/// Fewest located populations for an isolation-by-distance analysis (docs/methods.md, "Isolation by
+/// distance": a regression and a Mantel test need at least three pairs).
 pub const MIN_LOCATED_POPULATIONS: usize = 3;
 /// A Mantel p above this level leaves the fitted line descriptive only (the conventional 5 %
 /// level; common practice).

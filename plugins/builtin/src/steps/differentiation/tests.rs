@@ -1,6 +1,7 @@
 //! Tests of the `differentiation` step: published and reference-library values, the permutation
 //! test's behaviour under the null and under strong structure, isolation by distance, and the
-//! edge cases of METHODS §2.
+//! edge cases of docs/methods.md, "Weir and Cockerham F-statistics", docs/methods.md,
+//! "Gene-diversity differentiation" and docs/methods.md, "Isolation by distance".
 
 use popgauge_abi::{
     AlleleCode, AlleleCounts, AssessmentInfo, Cell, GenotypeMatrix, LocusMeta, PopulationInfo, SampleMeta, Seed, Step,
@@ -75,7 +76,7 @@ fn scikit_allel_wc_example() -> GenotypeMatrix {
 }
 
 /// Source: scikit-allel 1.3.13 documentation, docstring example of
-/// `allel.weir_cockerham_fst` (confirmed against the installed 1.3.13; METHODS §10 item 2).
+/// `allel.weir_cockerham_fst` (confirmed against the installed 1.3.13).
 /// The published per-allele components summed over alleles per variant are
 /// Σa = 1, 0, 0, −0.25, −0.75; Σb = 0, −0.5, 0, 0.375, 0.833333; Σc = 0, 1, 0, 0.5, 0.333333
 /// (tolerance 1e-6: the docstring prints 8 digits), and the published overall θ is
@@ -146,8 +147,8 @@ fn reference_matrix() -> GenotypeMatrix {
 
 /// Source: scikit-allel 1.3.13 (`allel.average_weir_cockerham_fst`, ratio of sums of the
 /// per-allele a, b, c over alleles and loci), numpy 2.4.6, printed by
-/// tests/reference/differentiation_scikit_allel.py; tolerance 1e-6 as the brief asks (the
-/// values agree to about 1e-12).
+/// tests/reference/differentiation_scikit_allel.py; tolerance 1e-6 (the values agree to about
+/// 1e-12).
 #[test]
 fn matches_scikit_allel_years_pooled() {
     let output = run(&reference_matrix(), json!({"permutations": 99, "bootstrap": 200}));
@@ -198,9 +199,9 @@ fn matches_scikit_allel_within_years() {
     }
 }
 
-/// Common practice (percentile bootstrap over loci, METHODS §2.1): the 95 % interval holds the
-/// estimate for these data, counts its replicates, and the whole output is identical run to
-/// run for a fixed seed and differs for another seed.
+/// Common practice (percentile bootstrap over loci, docs/methods.md, "Conventions"): the 95 %
+/// interval holds the estimate for these data, counts its replicates, and the whole output is
+/// identical run to run for a fixed seed and differs for another seed.
 #[test]
 fn intervals_and_p_values_are_reproducible() {
     let params = json!({"permutations": 199, "bootstrap": 500});
@@ -686,9 +687,9 @@ fn mantel_test_enumerates_few_populations_exactly() {
     assert_eq!(number(test, 0, "mantel_p_min"), Some(1.0 / 1000.0));
 }
 
-/// METHODS §2.3: fewer than three located populations → no IBD tables, an `ibd-not-tested`
-/// finding; an invalid coordinate → a `bad-coordinates` warning naming the population; two
-/// populations at the same place → that pair is left out with `ibd-pair-excluded`.
+/// docs/methods.md, "Isolation by distance": fewer than three located populations → no IBD tables,
+/// an `ibd-not-tested` finding; an invalid coordinate → a `bad-coordinates` warning naming the
+/// population; two populations at the same place → that pair is left out with `ibd-pair-excluded`.
 #[test]
 fn isolation_by_distance_needs_three_valid_locations() {
     let matrix = cline_matrix();
@@ -722,7 +723,8 @@ fn isolation_by_distance_needs_three_valid_locations() {
     assert_no_nan(&output);
 }
 
-/// METHODS §2.1: a locus monomorphic across the compared groups adds a = b = c = 0 and §2.2:
+/// docs/methods.md, "Weir and Cockerham F-statistics": a locus monomorphic across the compared
+/// groups adds a = b = c = 0 and (docs/methods.md, "Gene-diversity differentiation"):
 /// it is dropped from the G_ST family, so adding one changes no estimate (only the `loci`
 /// count of θ̂, which counts loci typed in both groups).
 #[test]
@@ -762,9 +764,10 @@ fn cell_text(matrix: &GenotypeMatrix, sample: usize, locus: usize) -> String {
     }
 }
 
-/// METHODS §2.1: a locus untyped in every individual of one group is dropped from that
-/// group's pairs (θ̂ equals θ̂ without the locus) and from the global estimate, but kept for
-/// the other pairs; an info finding names group and locus; no NaN reaches a table.
+/// docs/methods.md, "Weir and Cockerham F-statistics": a locus untyped in every individual of one
+/// group is dropped from that group's pairs (θ̂ equals θ̂ without the locus) and from the global
+/// estimate, but kept for the other pairs; an info finding names group and locus; no NaN reaches a
+/// table.
 #[test]
 fn locus_untyped_in_one_group_is_dropped_for_its_pairs() {
     let reference = reference_matrix();
@@ -806,9 +809,10 @@ fn locus_untyped_in_one_group_is_dropped_for_its_pairs() {
     assert_no_nan(&blanked);
 }
 
-/// METHODS §2.1 edge cases: a group of one sample still gives a defined θ̂ against a larger
-/// group (n̄ > 1) and a `low-sample-size` warning; two groups of one sample each leave n̄ = 1,
-/// so θ̂ is null with an `fst-undefined` finding and no p-value; nothing panics or is NaN.
+/// Edge cases (docs/methods.md, "Weir and Cockerham F-statistics"): a group of one sample still
+/// gives a defined θ̂ against a larger group (n̄ > 1) and a `low-sample-size` warning; two groups
+/// of one sample each leave n̄ = 1, so θ̂ is null with an `fst-undefined` finding and no p-value;
+/// nothing panics or is NaN.
 #[test]
 fn groups_of_one_sample() {
     let matrix = MatrixBuilder::new(&["L1", "L2"])
@@ -832,11 +836,11 @@ fn groups_of_one_sample() {
     assert_no_nan(&output);
 }
 
-/// METHODS §2.2 edge case, hand calculation: each population carries alleles no other
-/// population (and no other of its own gene copies) carries, so every gene copy within a group
-/// is distinct: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S = 2·(1 − 0.25 − 0.25) = 1. D, G′ST and
-/// G″ST are then null with a `differentiation-undefined` finding, while FST and G_ST stay
-/// defined.
+/// Edge case (docs/methods.md, "Gene-diversity differentiation"), hand calculation: each population
+/// carries alleles no other population (and no other of its own gene copies) carries, so every gene
+/// copy within a group is distinct: J = 4·(1/4)² = 0.25, Ho = 1, ñ = 2, Ĥ_S =
+/// 2·(1 − 0.25 − 0.25) = 1. D, G′ST and G″ST are then null with a `differentiation-undefined`
+/// finding, while FST and G_ST stay defined.
 #[test]
 fn alleles_private_to_each_population() {
     let matrix = MatrixBuilder::new(&["L1"])
@@ -897,7 +901,7 @@ fn contract_columns_cautions_and_citations() {
     assert_eq!(row_with(pairwise, "pop_b", "Cedar"), 1);
 }
 
-/// DESIGN: the parameter names are fixed; defaults as the brief gives them.
+/// The parameter names are part of the interface and their defaults are fixed.
 #[test]
 fn parameters_are_declared_with_defaults() {
     let d = descriptor();

@@ -18,10 +18,10 @@ fn scikit_allel_example() -> GenotypeMatrix {
 
 /// Source: scikit-allel 1.x documentation, docstring examples of `heterozygosity_observed`
 /// and `inbreeding_coefficient` (module `allel.stats.hw`): Ho = 0, 0.333333, 0, 0.5. He is
-/// computed with Nei's (1978) unbiased formula on the same data (METHODS §10 item 1):
+/// computed with Nei's (1978) unbiased formula on the same data (hand calculation):
 /// 0, 0.6, 0.8, 0.5, so F = null, 0.444444, 1, 0 (the documentation's F uses plug-in He).
-/// FIS (WC84, r = 1) = 1 − Ho/He* with He* = 0, 0.666667, 1, 0.5 (METHODS §10 item 1,
-/// computed; confirmed by tests/reference/wc84_scikit_allel_example.py): null, 0.5, 1, 0.
+/// FIS (WC84, r = 1) = 1 − Ho/He* with He* = 0, 0.666667, 1, 0.5 (hand
+/// calculation; confirmed by tests/reference/wc84_scikit_allel_example.py): null, 0.5, 1, 0.
 /// Effective alleles 1/Σp² by hand: 1, 2, 3, 1/(0.5625 + 0.0625) = 1.6.
 #[test]
 fn by_locus_matches_scikit_allel_example() {
@@ -50,8 +50,8 @@ fn by_locus_matches_scikit_allel_example() {
     assert_eq!(alleles, vec![Some(1.0), Some(2.0), Some(3.0), Some(2.0)]);
 }
 
-/// Hand calculation on the scikit-allel example (He per Nei 1978, He* per Nei–Chesser,
-/// METHODS §10 item 1): ΣHo = 1/3 + 1/2 = 0.833333, ΣHe = 0.6 + 0.8 + 0.5 = 1.9,
+/// Hand calculation on the scikit-allel example (He per Nei 1978, He* per Nei–Chesser):
+/// ΣHo = 1/3 + 1/2 = 0.833333, ΣHe = 0.6 + 0.8 + 0.5 = 1.9,
 /// ΣHe* = 0.666667 + 1 + 0.5 = 2.166667 over the 4 loci with n ≥ 2; ho = 0.208333,
 /// he = 0.475, f = 1 − 0.833333/1.9 = 0.561404, fis = 1 − 0.833333/2.166667 = 0.615385,
 /// alleles_mean = 2, effective_alleles = (1 + 2 + 3 + 1.6)/4 = 1.9.
@@ -71,7 +71,7 @@ fn by_group_uses_means_and_ratio_of_sums() {
 }
 
 /// Source: the five variants of the scikit-allel 1.3 documentation example of
-/// `weir_cockerham_fst` (METHODS §10 item 2), here all four samples in one group (r = 1).
+/// `weir_cockerham_fst`, here all four samples in one group (r = 1).
 /// f = 1 − ΣHo/ΣHe* = 0.278689 is computed in pure Python by
 /// tests/reference/wc84_scikit_allel_example.py (it coincides with scikit-allel's overall f
 /// for the two-group split, 0.27868852, because Σa ≈ 0 there).
@@ -87,10 +87,10 @@ fn one_group_fis_of_the_wc84_documentation_variants() {
     assert_close(number(table(&output, "by_group"), 0, "fis").unwrap(), 0.278689, 1e-6);
 }
 
-/// Hand calculation (textbook formulas, METHODS §1, §2.1): AA×3, AB×4, BB×2, BC×1 gives
-/// p = 0.5, 0.45, 0.05, He = 20/19 · 0.545 = 0.573684, Ho = 0.5, F = 0.128440;
-/// He* = 10/9 · (0.545 − 0.025) = 0.577778, FIS = 1 − 0.5/0.577778 = 0.134615;
-/// effective alleles 1/0.455 = 2.197802.
+/// Hand calculation (textbook formulas, docs/methods.md, "Expected heterozygosity";
+/// docs/methods.md, "Weir and Cockerham F-statistics"): AA×3, AB×4, BB×2, BC×1 gives p = 0.5, 0.45,
+/// 0.05, He = 20/19 · 0.545 = 0.573684, Ho = 0.5, F = 0.128440; He* = 10/9 · (0.545 − 0.025) =
+/// 0.577778, FIS = 1 − 0.5/0.577778 = 0.134615; effective alleles 1/0.455 = 2.197802.
 #[test]
 fn hand_calculated_locus() {
     let cells = ["A/A", "A/A", "A/A", "A/B", "A/B", "A/B", "A/B", "B/B", "B/B", "B/C"];
@@ -109,9 +109,9 @@ fn hand_calculated_locus() {
     assert_eq!(number(by_locus, 0, "alleles"), Some(3.0));
 }
 
-/// METHODS §1 edge case: n < 2 leaves Ho, He, F and FIS null at that locus in that group, and
-/// the locus is left out of the group's means (hand calculation: L1 alone, Ho = 1,
-/// He = 4/3 · 0.5 = 0.666667 with alleles 1,1,2,2 in group P).
+/// Edge case (docs/methods.md, "Expected heterozygosity"): n < 2 leaves Ho, He, F and FIS null at
+/// that locus in that group, and the locus is left out of the group's means (hand calculation: L1
+/// alone, Ho = 1, He = 4/3 · 0.5 = 0.666667 with alleles 1,1,2,2 in group P).
 #[test]
 fn locus_typed_in_one_individual_is_null_and_left_out() {
     let matrix = MatrixBuilder::new(&["L1", "L2"])
@@ -134,7 +134,8 @@ fn locus_typed_in_one_individual_is_null_and_left_out() {
     assert!(few[0].message.contains("L2 in P 2020 (1 typed)"), "{}", few[0].message);
 }
 
-/// METHODS §1: F and FIS are null when ΣHe = 0 (a group monomorphic at every locus).
+/// docs/methods.md, "Inbreeding coefficient F": F and FIS are null when ΣHe = 0 (a group
+/// monomorphic at every locus).
 #[test]
 fn group_without_diversity_has_null_f() {
     let matrix =
@@ -146,7 +147,8 @@ fn group_without_diversity_has_null_f() {
     assert_eq!((number(by_group, 0, "fis_low"), number(by_group, 0, "fis_high")), (None, None));
     // Q: three 1/2 heterozygotes, Ho = 1, He = 6/5 · 0.5 = 0.6, F = 1 − 1/0.6 = −0.666667.
     assert_close(number(by_group, 1, "f").unwrap(), 1.0 - 1.0 / 0.6, 1e-12);
-    // DESIGN: the null f and fis of P are explained once, naming the group (common practice).
+    // Results contract: the null f and fis of P are explained once, naming the group (common
+    // practice).
     let undefined = findings_with(&output, "group-f-undefined");
     assert_eq!(undefined.len(), 1);
     assert!(undefined[0].message.ends_with("are null: P 2020"), "{}", undefined[0].message);
@@ -159,8 +161,8 @@ fn group_without_diversity_has_null_f() {
     assert!(interval[0].message.ends_with(": Q 2020 (1 defined replicates)"), "{}", interval[0].message);
 }
 
-/// METHODS §1: warn when n < 10 or fewer than 5 loci are usable; info findings on how F,
-/// FIS, their interval and rarefaction are computed. Group A (12 samples, 5 loci) raises
+/// docs/methods.md, "Conventions": warn when n < 10 or fewer than 5 loci are usable; info findings
+/// on how F, FIS, their interval and rarefaction are computed. Group A (12 samples, 5 loci) raises
 /// neither warning; B (4 samples, 3 loci typed in at least two of them) raises both.
 #[test]
 fn small_groups_and_few_loci_are_flagged() {
@@ -188,12 +190,13 @@ fn small_groups_and_few_loci_are_flagged() {
     assert_eq!(output.citations[1], WEIR_COCKERHAM_1984);
 }
 
-/// METHODS §10 item 11 (computed), confirmed with scipy 1.17.1 by
+/// Computed from the rarefaction formulas (docs/methods.md, "Allelic richness", "Private
+/// allelic richness"), confirmed with scipy 1.17.1 by
 /// tests/reference/rarefaction_reference.py: pop1 {a:6, b:4, c:2}, pop2 {a:8, b:2, d:2}
 /// rarefied to g = 8 copies (`rarefaction_size` = 4 individuals): AR = 2.907071 and
 /// 2.818182, PAR = 0.999816 and 0.910927. Alleles c and d occur in one population only.
 #[test]
-fn compendium_private_richness_through_the_step() {
+fn private_richness_of_two_populations_through_the_step() {
     let matrix = MatrixBuilder::new(&["L1"])
         .samples("p1a", "pop1", 2020, 3, &["a/a"])
         .samples("p1b", "pop1", 2020, 2, &["b/b"])
@@ -217,10 +220,10 @@ fn compendium_private_richness_through_the_step() {
 }
 
 /// Default rarefaction size (2 × the smallest n at the locus) and the identity A(N) = the
-/// number of alleles observed (METHODS §3 [D]); alleles present in one population only.
-/// P {1:4, 2:4} and Q {1:6, 3:2}, four individuals each: g = 8, AR = 2 and 2, PAR = 1 and 1;
-/// with rarefaction_size = 3 (g = 6): AR(Q) = 1.964286, PAR = 1 and 0.964286
-/// (tests/reference/rarefaction_reference.py, scipy 1.17.1).
+/// number of alleles observed (derived from the definition, docs/methods.md, "Allelic richness");
+/// alleles present in one population only. P {1:4, 2:4} and Q {1:6, 3:2}, four individuals each: g
+/// = 8, AR = 2 and 2, PAR = 1 and 1; with rarefaction_size = 3 (g = 6): AR(Q) = 1.964286, PAR = 1
+/// and 0.964286 (tests/reference/rarefaction_reference.py, scipy 1.17.1).
 #[test]
 fn rarefaction_to_the_smallest_group_and_to_a_given_size() {
     let matrix = MatrixBuilder::new(&["L1"])
@@ -333,9 +336,9 @@ fn a_given_rarefaction_size_serves_ar_and_par() {
     assert_close(number(by_group, 1, "par").unwrap(), 2.0 / 3.0, 1e-12);
 }
 
-/// Issue edge case "monomorphic locus": Ho = He = 0, F and FIS null (METHODS §1), effective
-/// alleles 1, allelic richness 1 (METHODS §3), private richness 0 (the allele is shared),
-/// and one info finding lists it.
+/// Edge case "monomorphic locus": Ho = He = 0, F and FIS null (docs/methods.md, "Inbreeding
+/// coefficient F"), effective alleles 1, allelic richness 1 (docs/methods.md, "Allelic richness"),
+/// private richness 0 (the allele is shared), and one info finding lists it.
 #[test]
 fn monomorphic_locus() {
     let matrix = MatrixBuilder::new(&["Mono", "Poly"])
@@ -354,9 +357,9 @@ fn monomorphic_locus() {
     assert!(mono[0].message.contains("Mono in P 2020, Mono in Q 2020, Poly in Q 2020"), "{}", mono[0].message);
 }
 
-/// Issue edge case "all-missing locus in one group": n = 0 and null estimates there, the
+/// Edge case "all-missing locus in one group": n = 0 and null estimates there, the
 /// locus dropped from ar and par for every group with one warning naming it, and the other
-/// loci still rarefied (METHODS §3 edge cases).
+/// loci still rarefied (docs/methods.md, "Allelic richness").
 #[test]
 fn locus_missing_in_one_group() {
     let matrix = MatrixBuilder::new(&["L1", "L2"])
@@ -384,7 +387,7 @@ fn locus_missing_in_one_group() {
     assert!(findings_with(&output, "too-few-typed")[0].message.contains("L2 in Q 2020 (0 typed)"));
 }
 
-/// Issue edge case "a group of one sample": its Ho, He, F, FIS, interval, ar and par are null
+/// Edge case "a group of one sample": its Ho, He, F, FIS, interval, ar and par are null
 /// with findings, and the other groups are rarefied among themselves (g = 2 × 3 = 6, not 2).
 #[test]
 fn group_of_one_sample() {
@@ -407,7 +410,7 @@ fn group_of_one_sample() {
     assert_eq!(findings_with(&output, "low-sample-size").len(), 3);
 }
 
-/// Genotype frequencies under inbreeding F (common practice; METHODS §1):
+/// Genotype frequencies under inbreeding F (common practice):
 /// P(AᵤAᵤ) = pᵤ² + pᵤ(1 − pᵤ)F, P(AᵤAᵥ) = 2pᵤpᵥ(1 − F). Returns (u, v, probability), u ≤ v.
 fn genotype_probabilities(frequencies: &[f64], inbreeding: f64) -> Vec<(u16, u16, f64)> {
     let mut table = Vec::new();
@@ -528,7 +531,7 @@ fn genotype_probabilities_under_inbreeding() {
     assert_close(heterozygous, 0.0, 1e-12);
 }
 
-/// DESIGN: the parameter names are fixed; `rarefaction_size` defaults to null (the smallest
+/// The parameter names are part of the interface; `rarefaction_size` defaults to null (the smallest
 /// group) and must be at least 2.
 #[test]
 fn parameters_are_declared_with_defaults() {

@@ -23,9 +23,9 @@ fn biallelic_group(
     with(builder, population, &format!("{b}/{b}"), counts.2)
 }
 
-/// METHODS §10 item 4 (computed), confirmed in Python by direct enumeration with the factorial
-/// formula in exact rational arithmetic (tests/reference/hwe_reference.py): (68, 28, 4) gives
-/// p = 0.515367, mid-p = 0.408344, p_deficit = 0.392205, p_excess = 0.821842. By hand:
+/// Computed from the Levene–Haldane probability, confirmed in Python by direct enumeration with the
+/// factorial formula in exact rational arithmetic (tests/reference/hwe_reference.py): (68, 28, 4)
+/// gives p = 0.515367, mid-p = 0.408344, p_deficit = 0.392205, p_excess = 0.821842. By hand:
 /// Ho = 0.28 < He = 200/199 · (1 − 0.82² − 0.18²) = 0.296683, a deficit.
 #[test]
 fn biallelic_locus_through_the_step() {
@@ -45,8 +45,8 @@ fn biallelic_locus_through_the_step() {
     assert_close(number(by_locus, 0, "q_value").unwrap(), 0.515367, 1e-6);
 }
 
-/// METHODS §10 item 6 (computed), confirmed by the Python enumeration: the Levene 3-allele
-/// table (AA 3, BB 2, BC 1, CC 2) has exact p = 0.002553 by complete enumeration.
+/// Computed from the Levene–Haldane probability, confirmed by the Python enumeration: the Levene
+/// 3-allele table (AA 3, BB 2, BC 1, CC 2) has exact p = 0.002553 by complete enumeration.
 #[test]
 fn three_allele_locus_by_enumeration() {
     let mut builder = with(MatrixBuilder::new(&["L1"]), "P", "A/A", 3);
@@ -75,10 +75,11 @@ fn many_allele_builder(loci: &[&str]) -> MatrixBuilder {
     builder
 }
 
-/// METHODS §4.2: a multi-allelic table too large to enumerate is tested by Monte Carlo with
-/// `permutations` draws; p̂ = (b + 1)/(B + 1) lies in (0, 1], its SE is √[p̂(1 − p̂)/B], the
-/// result is the same on a re-run and does not change when another locus is added (each test
-/// draws from its own stream). With `permutations = 0` it is left untested with a finding.
+/// docs/methods.md, "Hardy–Weinberg exact tests": a multi-allelic table too large to enumerate is
+/// tested by Monte Carlo with `permutations` draws; p̂ = (b + 1)/(B + 1) lies in (0, 1], its SE is
+/// √[p̂(1 − p̂)/B], the result is the same on a re-run and does not change when another locus is
+/// added (each test draws from its own stream). With `permutations = 0` it is left untested with a
+/// finding.
 #[test]
 fn many_alleles_use_monte_carlo() {
     let output = run_step(&Hwe, &many_allele_builder(&["L1"]).build(), json!({"permutations": 2000}));
@@ -136,8 +137,9 @@ fn fisher_and_q_values_through_the_step() {
     assert!(findings_with(&output, "fdr-family")[0].message.contains("m = 3"));
 }
 
-/// METHODS §4.1: `direction` compares Ho with the unbiased He exactly; 1/1 + 1/2 has
-/// Ho = 0.5 and He = 4/3 · (1 − 0.5625 − 0.0625) = 0.5, so `none` (hand calculation).
+/// docs/methods.md, "Hardy–Weinberg exact tests": `direction` compares Ho with the unbiased He
+/// exactly; 1/1 + 1/2 has Ho = 0.5 and He = 4/3 · (1 − 0.5625 − 0.0625) = 0.5, so `none` (hand
+/// calculation).
 #[test]
 fn direction_none_when_ho_equals_he() {
     let matrix = MatrixBuilder::new(&["L1"]).sample("a", "P", 2020, &["1/1"]).sample("b", "P", 2020, &["1/2"]).build();
@@ -147,7 +149,7 @@ fn direction_none_when_ho_equals_he() {
     assert_eq!(number(by_locus, 0, "ho"), number(by_locus, 0, "he"));
 }
 
-/// Issue edge cases "monomorphic locus", "all-missing locus in one group" and "a group of one
+/// Edge cases "monomorphic locus", "all-missing locus in one group" and "a group of one
 /// sample": p-values null (not 1), no Fisher combination where nothing was tested, and one
 /// info finding per kind listing every case instead of one finding per locus.
 #[test]
@@ -177,16 +179,17 @@ fn untestable_loci_are_null_with_one_finding_each() {
     let by_group = table(&output, "by_group");
     assert_eq!(number(by_group, 1, "loci_tested"), Some(0.0));
     assert_eq!((number(by_group, 1, "chi2"), number(by_group, 1, "p_value")), (None, None));
-    // DESIGN: the null combination is explained once, naming the groups (common practice).
+    // Results contract: the null combination is explained once, naming the groups (common
+    // practice).
     let untested = findings_with(&output, "hwe-group-untested");
     assert_eq!(untested.len(), 1);
     assert!(untested[0].message.ends_with("is null: Q 2020, S 2020"), "{}", untested[0].message);
     assert!(findings_with(&output, "fdr-family")[0].message.contains("m = 1"));
 }
 
-/// Issue edge case "alleles present in one population only": each group is tested on its own
+/// Edge case "alleles present in one population only": each group is tested on its own
 /// alleles, whatever the coding over the whole data set. Q carries allele 3 (absent from P)
-/// in the (68, 28, 4) table and gets p = 0.515367 (METHODS §10 item 4).
+/// in the (68, 28, 4) table and gets p = 0.515367 (computed, as above).
 #[test]
 fn alleles_private_to_one_group() {
     let builder = biallelic_group(MatrixBuilder::new(&["L1"]), "P", "1", "2", (10, 0, 10));
@@ -198,9 +201,10 @@ fn alleles_private_to_one_group() {
     assert_close(number(by_locus, 0, "p_value").unwrap() / 1.3403e-6, 1.0, 1e-4);
 }
 
-/// METHODS §4.4 rule (a popgauge rule of thumb, Brookfield 1996 formula from memory): L1 has
-/// no heterozygotes in both groups (p ≈ 1.3e−6, r = He/(1 + He) ≈ 0.34), so it is flagged;
-/// L2 is in proportion in P and Q and in deficit in R only (1 of 3 groups), so it is not.
+/// The rule of docs/methods.md, "Null alleles" (a popgauge rule of thumb, Brookfield 1996 formula
+/// from memory): L1 has no heterozygotes in both groups (p ≈ 1.3e−6, r = He/(1 + He) ≈ 0.34), so it
+/// is flagged; L2 is in proportion in P and Q and in deficit in R only (1 of 3 groups), so it is
+/// not.
 #[test]
 fn null_allele_indication_needs_half_the_groups() {
     let mut builder = MatrixBuilder::new(&["L1", "L2"]);
@@ -222,7 +226,7 @@ fn null_allele_indication_needs_half_the_groups() {
     assert_eq!((text(by_locus, 4, "direction"), number(by_locus, 4, "null_allele_r")), (Some("excess"), Some(0.0)));
 }
 
-/// DESIGN: `permutations` defaults to 10,000; the step is registered under `hwe`.
+/// Interface: `permutations` defaults to 10,000; the step is registered under `hwe`.
 #[test]
 fn parameters_and_registry() {
     let d = descriptor();

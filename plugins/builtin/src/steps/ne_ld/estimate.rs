@@ -1,6 +1,6 @@
 //! From the pair sums to Ne and its intervals: the sampling expectation of r² and the Ne
 //! formulas of Waples (2006), the parametric χ² interval, the jackknife over loci and the
-//! jackknife over groups of individuals (METHODS §5).
+//! jackknife over groups of individuals (docs/methods.md, "LD-based Ne").
 
 use crate::stats::bootstrap::Interval;
 use crate::stats::intervals::{chi_square_interval, effective_degrees_of_freedom};
@@ -33,11 +33,11 @@ pub fn expected_sample_r2(samples: f64) -> f64 {
     }
 }
 
-/// Ne from the drift part r²′ = r̄² − E(r²_sample) (Waples 2006; monogamy constants METHODS §5):
-/// Ne = [a + √(a² − b·r²′)]/(2r²′) with (a, b) = (1/3, 2.76) for S ≥ 30 and (0.308, 2.08)
-/// below, or (2/3, 7.2) and (0.618, 3.78) under lifetime monogamy. r²′ ≤ 0 gives +∞; a
-/// negative discriminant takes the square root as 0 (a very small Ne; the convention of public
-/// re-implementations, not of the paper).
+/// Ne from the drift part r²′ = r̄² − E(r²_sample) (Waples 2006; monogamy constants in
+/// docs/methods.md, "LD-based Ne"): Ne = [a + √(a² − b·r²′)]/(2r²′) with (a, b) = (1/3, 2.76) for S
+/// ≥ 30 and (0.308, 2.08) below, or (2/3, 7.2) and (0.618, 3.78) under lifetime monogamy. r²′ ≤ 0
+/// gives +∞; a negative discriminant takes the square root as 0 (a very small Ne; the convention of
+/// public re-implementations, not of the paper).
 pub fn ne_from_drift_r2(drift_r2: f64, samples: f64, mating: Mating) -> f64 {
     if drift_r2.is_nan() {
         return f64::NAN;

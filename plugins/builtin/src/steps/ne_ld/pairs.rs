@@ -27,7 +27,7 @@ pub const CHUNKS: usize = 64;
 /// S/(S − 1) and a variance).
 pub const MIN_PAIR_SAMPLES: u32 = 2;
 
-/// Weighted sums over a set of pairs (METHODS §5, "Weighting across pairs"): with nᵢⱼ =
+/// Weighted sums over a set of pairs (docs/methods.md, "LD-based Ne", "Across pairs"): with nᵢⱼ =
 /// (k′ᵢ − 1)(k′ⱼ − 1) and wᵢⱼ = nᵢⱼ·Sᵢⱼ², r̄² = Σ w r̂² / Σ w, n′ = Σ n and the harmonic-mean
 /// S = Σ n / Σ (n/S).
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
@@ -264,9 +264,9 @@ pub struct Moments {
 }
 
 /// Weir's composite r̂² with the sample-size factor: r̂_W = S/(S − 1) · Pearson r of the
-/// dosages (METHODS §5, tagged D); `None` when S < 2 or either dosage is constant. Computed from
-/// exact integer moments: r = (SΣxy − ΣxΣy)/√((SΣx² − (Σx)²)(SΣy² − (Σy)²)); with dosages ≤ 2
-/// every product stays below 4S², exact in `i64` for any realistic S.
+/// dosages (the identity with Burrows' form is derived, not quoted); `None` when S < 2 or either
+/// dosage is constant. Computed from exact integer moments: r = (SΣxy − ΣxΣy)/√((SΣx² − (Σx)²)(SΣy²
+/// − (Σy)²)); with dosages ≤ 2 every product stays below 4S², exact in `i64` for any realistic S.
 pub fn weir_r_squared(moments: Moments) -> Option<f64> {
     let n = moments.samples;
     let [sx, sxx, sy, syy, sxy] = moments.sums;

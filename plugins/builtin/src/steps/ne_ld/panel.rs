@@ -90,7 +90,7 @@ pub fn lane_total(sums: &LaneSums) -> u32 {
     sums.iter().sum()
 }
 
-/// Which alleles are too rare to use (METHODS §5, "Rare alleles").
+/// Which alleles are too rare to use (docs/methods.md, "LD-based Ne", "Rare alleles").
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Criterion {
     /// Drop alleles whose frequency in the group at the locus is below this value.

@@ -77,7 +77,7 @@ fn moments_of(x: &[i64], y: &[i64]) -> Moments {
     }
 }
 
-/// METHODS §10 item 13 (computed; re-derived from Burrows' composite count in
+/// Computed from Weir's composite r (re-derived from Burrows' composite count in
 /// tests/reference/ne_formulas.py): r = 0.621670, r² = 0.386473, and Weir's factor
 /// (S/(S − 1))² = (10/9)² gives r̂²_W = 0.477128.
 #[test]
@@ -87,12 +87,12 @@ fn composite_r_with_weir_factor_matches_check_value() {
     let r2 = weir_r_squared(moments_of(&a, &b)).unwrap();
     assert_close(r2 / (10.0f64 / 9.0).powi(2), 0.386_473, 1e-6);
     assert_close(r2, 0.477_128, 1e-6);
-    // A constant dosage has no variance, so r̂ is undefined (METHODS §5 edge cases).
+    // A constant dosage has no variance, so r̂ is undefined (docs/methods.md, "LD-based Ne").
     assert_eq!(weir_r_squared(moments_of(&[1, 1, 1], &[0, 1, 2])), None);
     assert_eq!(weir_r_squared(moments_of(&[1], &[2])), None);
 }
 
-/// METHODS §10 item 12 (computed from the Waples 2006 formulas, constants as in METHODS §5,
+/// Computed from the Waples (2006) formulas (constants as in docs/methods.md, "LD-based Ne",
 /// which were checked against independent re-implementations, not against the paper's
 /// Table 1 — from memory for the paper itself); re-derived in tests/reference/ne_formulas.py
 /// with scipy 1.17.1 χ² quantiles: S = 50, r̄² = 0.03, n′ = 300 → E = 0.021276, Ne = 36.0125,
@@ -119,10 +119,10 @@ fn waples_formulas_match_check_values() {
     }
 }
 
-/// METHODS §5: the two E(r²_sample) branches nearly meet at S = 30: 0.036878 and 0.036967
-/// (tests/reference/ne_formulas.py; METHODS prints 0.036963, a rounding slip: 0.0018 plus
+/// docs/methods.md, "LD-based Ne": the two E(r²_sample) branches nearly meet at S = 30: 0.036878
+/// and 0.036967 (tests/reference/ne_formulas.py; 0.0018 plus
 /// 0.907/30 plus 4.44/900 is 0.0369667); r²′ ≤ 0 gives +∞; a negative discriminant takes the root as 0, so r²′ = 0.05 at S ≥ 30
-/// gives (1/3)/(2·0.05) = 3.3333 (hand calculation); lifetime monogamy (METHODS §5, from
+/// gives (1/3)/(2·0.05) = 3.3333 (hand calculation); lifetime monogamy (constants from
 /// memory for S < 30) gives 73.6147 at S = 50, r̄² = 0.03 and 26.7921 at S = 20, r̄² = 0.08
 /// (tests/reference/ne_formulas.py).
 #[test]
@@ -136,8 +136,8 @@ fn formula_edge_cases_and_monogamy() {
     assert_close(ne_from_r2(0.08, 20.0, Mating::Monogamy), 26.792_111, 1e-5);
 }
 
-/// METHODS §5 rare-allele rule: drop frequency < Pcrit (keep exactly Pcrit), no-singletons
-/// drops count 1 only (hand calculation).
+/// Rare-allele rule (docs/methods.md, "LD-based Ne"): drop frequency < Pcrit (keep exactly Pcrit),
+/// no-singletons drops count 1 only (hand calculation).
 #[test]
 fn criteria_keep_and_drop_alleles() {
     assert!(Criterion::Pcrit(0.02).keeps(3, 150));
@@ -252,9 +252,9 @@ fn individual_jackknife_matches_python_on_sixteen_individuals() {
     }
 }
 
-/// The small-sample and small-data warnings of METHODS §5 (S < 15, n′ < 10) and few loci
-/// (common practice): 8 individuals at 3 biallelic loci whose ±1 dosage patterns are rows of
-/// a Hadamard matrix, so every r̂ is exactly 0, r̄² = 0 < E(r²_sample) and Ne is "inf"
+/// The small-sample and small-data warnings of docs/methods.md, "Conventions" (S < 15, n′ < 10) and
+/// few loci (common practice): 8 individuals at 3 biallelic loci whose ±1 dosage patterns are rows
+/// of a Hadamard matrix, so every r̂ is exactly 0, r̄² = 0 < E(r²_sample) and Ne is "inf"
 /// (hand calculation), with a finding explaining what "inf" means.
 #[test]
 fn uncorrelated_loci_give_inf_with_findings() {
@@ -283,8 +283,8 @@ fn uncorrelated_loci_give_inf_with_findings() {
     assert!(output.findings.iter().all(|f| !f.message.contains("NaN")));
 }
 
-/// METHODS §5: a group with a single polymorphic locus has no pair; its row is null and a
-/// `no-estimate` finding says how to fix it. Ne is never negative (common practice).
+/// docs/methods.md, "LD-based Ne": a group with a single polymorphic locus has no pair; its row is
+/// null and a `no-estimate` finding says how to fix it. Ne is never negative (common practice).
 #[test]
 fn no_pairs_gives_null_row_and_finding() {
     let matrix = MatrixBuilder::new(&["M1", "M2"])
@@ -304,7 +304,7 @@ fn no_pairs_gives_null_row_and_finding() {
     }
 }
 
-/// METHODS §5 (Waples, Larson & Waples 2016): pairs on the same chromosome are skipped when
+/// Waples, Larson & Waples (2016): pairs on the same chromosome are skipped when
 /// chromosomes are known. With L1–L3 on chromosome 1 and L4–L6 on chromosome 2, 6 of the 15
 /// pairs are same-chromosome pairs, leaving 9 (hand count).
 #[test]
@@ -402,7 +402,7 @@ fn resampling_interval_can_be_switched_off() {
     let estimates = table(&output, "estimates");
     assert_eq!(number(estimates, 0, "ne_resample_low"), None);
     assert!(number(estimates, 0, "ne_jack_low").is_some());
-    // DESIGN: the null interval is explained, naming the group, criterion and interval.
+    // Results contract: the null interval is explained, naming the group, criterion and interval.
     assert!(findings_with(&four, "no-interval").is_empty());
     let missing = findings_with(&output, "no-interval");
     assert_eq!(missing.len(), 1);
@@ -411,7 +411,7 @@ fn resampling_interval_can_be_switched_off() {
     assert!(missing[0].message.contains(&group), "{}", missing[0].message);
 }
 
-/// DESIGN: parameter names and defaults are fixed; `mating` is a closed choice and Pcrit lies
+/// Interface: parameter names and defaults are fixed; `mating` is a closed choice and Pcrit lies
 /// in [0, 0.5]; the `estimates` table carries the contract's columns in order.
 #[test]
 fn parameters_and_columns_follow_the_contract() {
@@ -539,7 +539,7 @@ fn packed_serves_every_group(matrix: &GenotypeMatrix, individual_blocks: usize) 
 proptest::proptest! {
     #![proptest_config(proptest::prelude::ProptestConfig { cases: 40, ..Default::default() })]
 
-    /// Issue 9 check: the packed two-bit path and the general byte path give identical
+    /// Check: the packed two-bit path and the general byte path give identical
     /// `ne-ld` output (every estimate, interval, count and finding, to the last bit) on random
     /// biallelic data with missing cells, rare alleles, chromosomes, several criteria and
     /// jackknife settings (with and without a resampling subset of loci); group sizes cover fewer individuals than jackknife groups, one and
@@ -570,7 +570,7 @@ proptest::proptest! {
     }
 }
 
-/// Issue 9 check: more than 31 blocks of 128 individuals (the 8-bit partial counts are widened
+/// Check: more than 31 blocks of 128 individuals (the 8-bit partial counts are widened
 /// before they overflow) give the same output on both paths; a locus with a third allele sends
 /// its group to the general path.
 #[test]
@@ -594,7 +594,7 @@ fn packed_path_large_groups_and_multiallelic_fallback() {
     );
 }
 
-/// Issue 9 (`resample_max_loci`): above the cap the jackknife over individuals runs on a seeded
+/// `resample_max_loci`: above the cap the jackknife over individuals runs on a seeded
 /// subset of loci, said in a `resample-subset` finding; every other column is the same as with
 /// the full jackknife (it does not depend on the jackknife), the resampling interval is still
 /// given, and the same seed gives the same subset. At or below the cap nothing changes.
@@ -619,7 +619,7 @@ fn jackknife_over_individuals_can_run_on_a_subset_of_loci() {
     assert_eq!(full, at_cap);
 }
 
-/// Issue 9: the AVX-512 dense kernel (eight pairs at a time) and the portable one give the same
+/// The AVX-512 dense kernel (eight pairs at a time) and the portable one give the same
 /// pair sums to the last bit, on random biallelic groups of 1 to 300 individuals (1 to 5 words
 /// per plane) and 1 to 40 loci (partial vectors at the row ends). Skipped, with a message,
 /// on processors without AVX-512 VPOPCNTDQ, where only the portable kernel runs.

@@ -48,9 +48,9 @@ fn cells_from_counts(individuals: usize, loci: &[&[(&str, usize)]]) -> Vec<Vec<S
     (0..individuals).map(|i| copies.iter().map(|c| format!("{}/{}", c[2 * i], c[2 * i + 1])).collect()).collect()
 }
 
-/// METHODS §10 item 14 as genotypes: 50 individuals in 2010 with frequencies (.5,.3,.2),
+/// Three loci, as genotypes: 50 individuals in 2010 with frequencies (.5,.3,.2),
 /// (.6,.4), (.25,.25,.25,.25) and 50 in 2014 with (.4,.35,.25), (.7,.3), (.3,.2,.35,.15).
-fn item_14_matrix() -> GenotypeMatrix {
+fn three_loci_four_years_apart() -> GenotypeMatrix {
     let start = cells_from_counts(
         50,
         &[&[("a", 50), ("b", 30), ("c", 20)], &[("p", 60), ("q", 40)], &[("1", 25), ("2", 25), ("3", 25), ("4", 25)]],
@@ -69,15 +69,16 @@ fn item_14_matrix() -> GenotypeMatrix {
     builder.build()
 }
 
-/// METHODS §10 item 14 (computed; re-derived in tests/reference/ne_formulas.py with scipy
-/// 1.17.1): S₀ = S_t = 50, t = 4 → F_c = 0.031999, F_k = 0.031420, F̃ = 0.032609,
-/// F_s = 0.012470; plan II Ne 166.6838 (F_c), 175.1389 (F_k), 160.3886 (F_s); n′ = 6 and the
-/// χ² intervals of Ne (14.7967, inf) from F_c and (15.1107, inf) from F_k; the F_s jackknife
-/// over the three loci with t₂ = 4.302653 gives (58.5695, inf). Waples (1989) and Jorde & Ryman
-/// (2007) print no worked example that could be consulted here, so these are computed values.
+/// Computed from the formulas of docs/methods.md, "Temporal Ne" (re-derived in
+/// tests/reference/ne_formulas.py with scipy 1.17.1): S₀ = S_t = 50, t = 4 → F_c = 0.031999, F_k =
+/// 0.031420, F̃ = 0.032609, F_s = 0.012470; plan II Ne 166.6838 (F_c), 175.1389 (F_k), 160.3886
+/// (F_s); n′ = 6 and the χ² intervals of Ne (14.7967, inf) from F_c and (15.1107, inf) from F_k;
+/// the F_s jackknife over the three loci with t₂ = 4.302653 gives (58.5695, inf). Waples (1989) and
+/// Jorde & Ryman (2007) print no worked example that could be consulted here, so these are computed
+/// values.
 #[test]
-fn item_14_check_values() {
-    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(1.0), None));
+fn three_loci_match_the_temporal_formulas() {
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let estimates = table(&output, "estimates");
     assert_eq!(estimates.rows.len(), 1);
     assert_eq!(number(estimates, 0, "generations"), Some(4.0));
@@ -95,7 +96,8 @@ fn item_14_check_values() {
     assert_close(number(estimates, 0, "ne_low").unwrap(), 58.5695, 1e-3);
     assert_eq!(cell(estimates, 0, "ne_high"), &Cell::Inf);
     assert_eq!(cell(estimates, 0, "plan"), &Cell::text("II"));
-    // DESIGN: each "inf" bound of a finite estimate is explained, once, naming the comparison.
+    // Results contract: each "inf" bound of a finite estimate is explained, once, naming the
+    // comparison.
     let upper = findings_with(&output, "infinite-upper-bound");
     assert_eq!(upper.len(), 1);
     assert!(upper[0].message.ends_with(": Pop 2010–2014 (ne_high, ne_fc_high, ne_fk_high)"), "{}", upper[0].message);
@@ -107,7 +109,7 @@ fn item_14_check_values() {
 /// ne_formulas.py, computed).
 #[test]
 fn plan_one_uses_census_size() {
-    let output = run_with(&item_14_matrix(), json!({"plan": "I"}), &assessment(Some(1.0), Some(500.0)));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "I"}), &assessment(Some(1.0), Some(500.0)));
     let estimates = table(&output, "estimates");
     assert_close(number(estimates, 0, "ne_fc").unwrap(), 142.8698, 1e-3);
     assert_close(number(estimates, 0, "ne_fk").unwrap(), 149.0368, 1e-3);
@@ -117,11 +119,11 @@ fn plan_one_uses_census_size() {
     assert_eq!(cell(estimates, 0, "plan"), &Cell::text("I"));
 }
 
-/// DESIGN/brief: plan I without a census size gives a finding and no plan-I estimate (the F
+/// Plan I without a census size gives a finding and no plan-I estimate (the F
 /// statistics are still reported).
 #[test]
 fn plan_one_without_census_has_no_estimate() {
-    let output = run_with(&item_14_matrix(), json!({"plan": "I"}), &assessment(Some(1.0), None));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "I"}), &assessment(Some(1.0), None));
     let estimates = table(&output, "estimates");
     assert_eq!(number(estimates, 0, "ne_fs"), None);
     assert_eq!(number(estimates, 0, "ne_fc"), None);
@@ -131,31 +133,32 @@ fn plan_one_without_census_has_no_estimate() {
     assert!(missing[0].message.contains("add census_size to the population sheet"), "{}", missing[0].message);
 }
 
-/// METHODS §6: without a generation time no estimate (error-level finding naming the recipe
-/// field); with samples less than one generation apart, a warning and no estimate.
+/// docs/methods.md, "Temporal Ne": without a generation time no estimate (error-level finding
+/// naming the recipe field); with samples less than one generation apart, a warning and no
+/// estimate.
 #[test]
 fn generations_come_from_the_generation_time() {
-    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(None, None));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "II"}), &assessment(None, None));
     assert_eq!(number(table(&output, "estimates"), 0, "ne_fs"), None);
     assert_eq!(number(table(&output, "estimates"), 0, "generations"), None);
     let error = findings_with(&output, "generation-time-missing");
     assert_eq!(error[0].level, popgauge_abi::FindingLevel::Error);
     assert!(error[0].message.contains("generation_time_years"));
-    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(5.0), None));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "II"}), &assessment(Some(5.0), None));
     assert_eq!(number(table(&output, "estimates"), 0, "generations"), Some(0.8));
     assert_eq!(number(table(&output, "estimates"), 0, "ne_fs"), None);
     assert_eq!(findings_with(&output, "too-few-generations").len(), 1);
     // With 2-year generations the 4 years are 2 generations: Ne halves (Ne ∝ t).
-    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(2.0), None));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "II"}), &assessment(Some(2.0), None));
     assert_close(number(table(&output, "estimates"), 0, "ne_fs").unwrap(), 160.3886 / 2.0, 1e-3);
 }
 
-/// METHODS §6 missing data: per-locus sample sizes and K-weighted harmonic means. Hand
-/// calculation: locus T2 (K = 2) typed in only 40 of 50 individuals in 2010, the others in all
-/// 50: S₀ = (3 + 2 + 4)/(3/50 + 2/40 + 4/50) = 9/0.19 = 47.368421.
+/// Missing data (docs/methods.md, "Temporal Ne"): per-locus sample sizes and K-weighted harmonic
+/// means. Hand calculation: locus T2 (K = 2) typed in only 40 of 50 individuals in 2010, the others
+/// in all 50: S₀ = (3 + 2 + 4)/(3/50 + 2/40 + 4/50) = 9/0.19 = 47.368421.
 #[test]
 fn missing_data_use_per_locus_sample_sizes() {
-    let matrix = item_14_matrix();
+    let matrix = three_loci_four_years_apart();
     let mut builder = MatrixBuilder::new(&["T1", "T2", "T3"]);
     for s in 0..matrix.samples().len() {
         let meta = &matrix.samples()[s];
@@ -180,9 +183,9 @@ fn missing_data_use_per_locus_sample_sizes() {
     assert_eq!(number(estimates, 0, "s_end"), Some(50.0));
 }
 
-/// Consecutive years and first-to-last are compared (brief); a population sampled once gets
-/// an info finding. No change in frequencies makes F̃ = 0, so F_s < 0 and Ne is "inf" with a
-/// finding saying what that means (METHODS §6 edge cases).
+/// Consecutive years and first-to-last are compared (docs/methods.md, "Temporal Ne"); a population
+/// sampled once gets an info finding. No change in frequencies makes F̃ = 0, so F_s < 0 and Ne is
+/// "inf" with a finding saying what that means (docs/methods.md, "Temporal Ne").
 #[test]
 fn comparisons_and_infinite_estimates() {
     let same = cells_from_counts(20, &[&[("a", 20), ("b", 20)], &[("c", 30), ("d", 10)]]);
@@ -211,7 +214,8 @@ fn comparisons_and_infinite_estimates() {
     // Identical samples: ne_low is "inf" too, an interval ∞–∞ that bounds nothing.
     assert_eq!(cell(estimates, 0, "ne_low"), &Cell::Inf);
     assert!(infinite[0].message.contains("not estimable") && !infinite[0].message.contains("informative"));
-    // DESIGN: the "inf" of ne_fc and ne_fk is explained too, in one finding for all comparisons.
+    // Results contract: the "inf" of ne_fc and ne_fk is explained too, in one finding for all
+    // comparisons.
     let moments = findings_with(&output, "infinite-estimate-fc-fk");
     assert_eq!(moments.len(), 1);
     assert!(moments[0].message.starts_with("3 comparison(s)"), "{}", moments[0].message);
@@ -222,9 +226,9 @@ fn comparisons_and_infinite_estimates() {
     }
 }
 
-/// Hand calculation of the per-locus formulas (METHODS §6) at one biallelic locus x = (0.5,
-/// 0.5), y = (0.7, 0.3): F_c = (1/2)(0.04/0.25 + 0.04/0.25) = 0.16; F_k = 0.04/0.6 + 0.04/0.4
-/// = 0.166667; F̃ = 0.08/(2 · 0.6 · 0.4) = 0.166667.
+/// Hand calculation of the per-locus formulas (docs/methods.md, "Temporal Ne") at one biallelic
+/// locus x = (0.5, 0.5), y = (0.7, 0.3): F_c = (1/2)(0.04/0.25 + 0.04/0.25) = 0.16; F_k =
+/// 0.04/0.6 + 0.04/0.4 = 0.166667; F̃ = 0.08/(2 · 0.6 · 0.4) = 0.166667.
 #[test]
 fn per_locus_formulas_by_hand() {
     let locus = LocusFrequencies { start_typed: 10.0, end_typed: 10.0, alleles: vec![(0.5, 0.7), (0.5, 0.3)] };
@@ -246,7 +250,7 @@ fn parameters_and_columns_follow_the_contract() {
     assert_eq!(d.resolve(&plan_two).unwrap()["plan"], json!("II"));
     let bad = [("plan".to_string(), json!("III"))].into_iter().collect();
     assert!(d.resolve(&bad).is_err());
-    let output = run_with(&item_14_matrix(), json!({"plan": "II"}), &assessment(Some(1.0), None));
+    let output = run_with(&three_loci_four_years_apart(), json!({"plan": "II"}), &assessment(Some(1.0), None));
     let contract = [
         "population",
         "year_start",

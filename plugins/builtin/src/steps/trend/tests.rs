@@ -74,7 +74,7 @@ fn row_of(t: &Table, population: &str, metric: &str) -> usize {
         .unwrap_or_else(|| panic!("no row for {population} {metric}"))
 }
 
-const ITEM_9: [(i32, f64); 8] =
+const HE_2010_2017: [(i32, f64); 8] =
     [(2010, 0.62), (2011, 0.60), (2012, 0.61), (2013, 0.57), (2014, 0.58), (2015, 0.55), (2016, 0.56), (2017, 0.53)];
 
 /// An eight-year He series through the step: S = −22, exact p = 0.0055059524 (scipy 1.17.1
@@ -82,8 +82,8 @@ const ITEM_9: [(i32, f64); 8] =
 /// (scipy `theilslopes`), OLS −0.0119047619 (−0.0162580340, −0.0075514898) (scipy
 /// `linregress`); values from tests/reference/trend_reference.py.
 #[test]
-fn item_9_series_through_the_step() {
-    let output = run_trend(&[diversity(&[("North", &ITEM_9)])], json!({"metrics": ["he", "ar"]})).unwrap();
+fn declining_he_series_through_the_step() {
+    let output = run_trend(&[diversity(&[("North", &HE_2010_2017)])], json!({"metrics": ["he", "ar"]})).unwrap();
     let tests = table(&output, "tests");
     assert_eq!(tests.rows.len(), 1);
     let r = row_of(tests, "North", "he");
@@ -349,7 +349,7 @@ fn missing_diversity_is_a_finding() {
     assert!(missing[0].message.contains("no diversity step runs before trend"));
 }
 
-/// DESIGN: the `metrics` parameter exists with the designed default; bootstrap ≥ 2000.
+/// Interface: the `metrics` parameter exists with its default; bootstrap ≥ 2000.
 #[test]
 fn parameters_are_declared_with_defaults() {
     let d = descriptor();
