@@ -64,8 +64,8 @@
 //! - `generations_to_lose_10` (and `years_to_lose_10`): until 10% of today's heterozygosity is
 //!   lost, ln 0.9 / ln(1 − 1/(2Ne));
 //! - table `horizon`: the Ne that keeps 90% of heterozygosity over the horizon,
-//!   1/{2[1 − 0.9^{L/T}]} (Soulé et al. 1986, who proposed 200 years; 100 years is the later
-//!   captive-breeding convention, hence the parameter).
+//!   1/{2[1 − 0.9^{T/L}]}, T the generation time and L the horizon in years (Soulé et al. 1986,
+//!   who proposed 200 years; 100 years is a later variant of their rule, hence the parameter).
 //!
 //! An infinite Ne keeps everything (`h_retained` = 1, `f_drift` = 0). A population that is not
 //! estimable (interval ∞–∞) has no projection. Without `generation_time_years` the projection
