@@ -315,7 +315,6 @@ const GROUP_LISTED: usize = 20;
 struct FindingEntry {
     level: FindingLevel,
     source: String,
-    code: String,
     /// What the finding is about (`Brennmoor 2018–2024`), one per finding merged; empty when
     /// the message has no subject.
     subjects: Vec<String>,
@@ -372,19 +371,16 @@ fn subject_and_reason(message: &str) -> (Option<&str>, &str) {
 /// file keeps one finding per row.
 fn grouped_findings<'f>(findings: impl Iterator<Item = &'f (String, &'f Finding)>) -> Vec<FindingEntry> {
     let mut entries: Vec<FindingEntry> = Vec::new();
+    // (source, level, code, reason) of each entry that has a subject → its index: one lookup
+    // per finding, so a SNP panel's thousands of findings stay linear.
+    let mut index: BTreeMap<(String, FindingLevel, String, String), usize> = BTreeMap::new();
     for (source, finding) in findings {
         let (subject, reason) = subject_and_reason(&finding.message);
         let place = where_text(&finding.location);
-        let same = entries.iter_mut().find(|e| {
-            e.source == *source
-                && e.level == finding.level
-                && e.code == finding.code
-                && e.reason == reason
-                && subject.is_some()
-                && !e.subjects.is_empty()
-        });
-        match same {
-            Some(entry) => {
+        let key = subject.map(|_| (source.clone(), finding.level, finding.code.clone(), reason.to_string()));
+        match key.as_ref().and_then(|k| index.get(k)) {
+            Some(&at) => {
+                let entry = &mut entries[at];
                 entry.subjects.extend(subject.map(str::to_string));
                 if !entry.places.contains(&place) && place != format::UNDEFINED {
                     entry.places.retain(|p| p != format::UNDEFINED);
@@ -393,14 +389,18 @@ fn grouped_findings<'f>(findings: impl Iterator<Item = &'f (String, &'f Finding)
                     }
                 }
             }
-            None => entries.push(FindingEntry {
-                level: finding.level,
-                source: source.clone(),
-                code: finding.code.clone(),
-                subjects: subject.map(str::to_string).into_iter().collect(),
-                reason: reason.to_string(),
-                places: vec![place],
-            }),
+            None => {
+                if let Some(key) = key {
+                    index.insert(key, entries.len());
+                }
+                entries.push(FindingEntry {
+                    level: finding.level,
+                    source: source.clone(),
+                    subjects: subject.map(str::to_string).into_iter().collect(),
+                    reason: reason.to_string(),
+                    places: vec![place],
+                });
+            }
         }
     }
     entries
