@@ -36,10 +36,11 @@ pub mod uses {
 /// Contract column names.
 pub mod col {
     #![allow(missing_docs)]
-    pub const POPULATION: &str = "population";
-    pub const YEAR: &str = "year";
-    pub const YEAR_START: &str = "year_start";
-    pub const YEAR_END: &str = "year_end";
+    // The Ne estimate columns are spelled once, in the SDK, for steps, plugins and the report.
+    pub use popgauge_abi::ne_columns::{
+        NE, NE_FS, NE_HIGH, NE_JACK_HIGH, NE_JACK_LOW, NE_LOW, NE_PARAM_HIGH, NE_PARAM_LOW, NE_RESAMPLE_HIGH,
+        NE_RESAMPLE_LOW, PCRIT, POPULATION, S, YEAR, YEAR_END, YEAR_START,
+    };
     pub const LOCUS: &str = "locus";
     pub const SAMPLE: &str = "sample";
     pub const STATUS: &str = "status";
@@ -67,17 +68,6 @@ pub mod col {
     pub const FST_HIGH: &str = "fst_high";
     pub const JOST_D: &str = "jost_d";
     pub const GST_PP: &str = "gst_pp";
-    pub const PCRIT: &str = "pcrit";
-    pub const S: &str = "s";
-    pub const NE: &str = "ne";
-    pub const NE_LOW: &str = "ne_low";
-    pub const NE_HIGH: &str = "ne_high";
-    pub const NE_PARAM_LOW: &str = "ne_param_low";
-    pub const NE_PARAM_HIGH: &str = "ne_param_high";
-    pub const NE_JACK_LOW: &str = "ne_jack_low";
-    pub const NE_JACK_HIGH: &str = "ne_jack_high";
-    pub const NE_RESAMPLE_LOW: &str = "ne_resample_low";
-    pub const NE_RESAMPLE_HIGH: &str = "ne_resample_high";
     pub const F_DRIFT: &str = "f_drift";
     pub const F_DRIFT_LOW: &str = "f_drift_low";
     pub const F_DRIFT_HIGH: &str = "f_drift_high";
@@ -86,7 +76,6 @@ pub mod col {
     pub const TREND_DIRECTION: &str = "direction";
     pub const NE_REQUIRED: &str = "ne_required";
     pub const RETAIN_TARGET: &str = "retain_target";
-    pub const NE_FS: &str = "ne_fs";
     pub const GENERATIONS: &str = "generations";
     pub const METRIC: &str = "metric";
     pub const POINTS: &str = "points";

@@ -197,6 +197,22 @@ impl Accuracy {
     }
 }
 
+/// Any share of replicates raising a precision finding: designs between the clearly precise
+/// and the clearly imprecise ones.
+pub(crate) const ANY_SHARE: std::ops::RangeInclusive<f64> = 0.0..=1.0;
+
+impl Accuracy {
+    /// The large-Ne check of both Ne steps: the interval `interval` of the first estimator
+    /// covers the truth in at least 80% of replicates, and the finding `code` is raised in a
+    /// share of replicates within `flagged`. `name` labels the design in the messages.
+    pub(crate) fn check_large(&self, name: &str, interval: usize, code: &str, flagged: std::ops::RangeInclusive<f64>) {
+        let coverage = self.estimators[0].intervals[interval].coverage();
+        let share = self.flagged_share(code);
+        assert!(coverage >= 0.8, "{name}: interval coverage {coverage}");
+        assert!(flagged.contains(&share), "{name}: {code} in {share} of replicates, expected {flagged:?}");
+    }
+}
+
 /// Runs `run(seed)` for every replicate of `design` and tallies its outputs.
 pub(crate) fn measure(design: &Design<'_>, mut run: impl FnMut(u64) -> StepOutput) -> Accuracy {
     let mut estimators: Vec<EstimatorTally> = design.estimators.iter().map(EstimatorTally::new).collect();
