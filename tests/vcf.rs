@@ -142,10 +142,14 @@ fn bgzipped_and_plain_vcf_give_identical_results() {
     assert_eq!(plain.read("out/results.json"), compressed.read("out/results.json"));
     let record: serde_json::Value = serde_json::from_str(&compressed.read("out/provenance.json")).expect("provenance");
     let roles: Vec<&str> = record["inputs"].as_array().unwrap().iter().map(|i| i["role"].as_str().unwrap()).collect();
-    assert_eq!(roles, ["vcf", "samples", "populations"]);
+    assert_eq!(roles, ["vcf", "samples", "populations", "loci"]);
     let verify = compressed.run(&["verify", "case/out", "--quiet"]);
     assert_eq!(verify.code, 0, "{}\n{}", verify.stdout, verify.stderr);
-    assert!(verify.stdout.contains("verified: every input, step and output is the same as recorded"), "{}", verify.stdout);
+    assert!(
+        verify.stdout.contains("verified: every input, step and output is the same as recorded"),
+        "{}",
+        verify.stdout
+    );
 }
 
 /// Waples, Larson & Waples (2016): with CHROM known, `ne-ld` skips pairs of loci on

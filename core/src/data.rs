@@ -2,6 +2,7 @@
 
 pub mod delimited;
 pub mod limits;
+pub mod loci;
 pub mod populations;
 pub mod sample_sheet;
 pub mod site_filter;
@@ -35,13 +36,17 @@ pub enum DataError {
         file: String,
     },
     /// A NUL byte: not a text file.
-    #[error("{at}: the file contains NUL bytes, so it is not a text table\n  help: export it as CSV (comma, semicolon or tab separated) in UTF-8")]
+    #[error(
+        "{at}: the file contains NUL bytes, so it is not a text table\n  help: export it as CSV (comma, semicolon or tab separated) in UTF-8"
+    )]
     Binary {
         /// Where.
         at: Location,
     },
     /// Bytes that are not UTF-8.
-    #[error("{at}: the text is not valid UTF-8\n  help: save the file as UTF-8 (for example \"CSV UTF-8\" in a spreadsheet's export dialog)")]
+    #[error(
+        "{at}: the text is not valid UTF-8\n  help: save the file as UTF-8 (for example \"CSV UTF-8\" in a spreadsheet's export dialog)"
+    )]
     NotUtf8 {
         /// Where.
         at: Location,
@@ -55,7 +60,9 @@ pub enum DataError {
         message: String,
     },
     /// A row of another width than the header.
-    #[error("{at}: the row has {found} cells but the header has {expected} columns\n  help: every row needs one cell per header column; check for a missing or extra delimiter")]
+    #[error(
+        "{at}: the row has {found} cells but the header has {expected} columns\n  help: every row needs one cell per header column; check for a missing or extra delimiter"
+    )]
     Ragged {
         /// Where.
         at: Location,
@@ -77,7 +84,9 @@ pub enum DataError {
         help: String,
     },
     /// Two header cells with the same name.
-    #[error("{at}: column `{column}` appears twice in the header (columns {first} and {second})\n  help: give every locus and metadata column its own name")]
+    #[error(
+        "{at}: column `{column}` appears twice in the header (columns {first} and {second})\n  help: give every locus and metadata column its own name"
+    )]
     DuplicateColumn {
         /// Where.
         at: Location,
@@ -99,7 +108,9 @@ pub enum DataError {
         help: String,
     },
     /// No locus columns left.
-    #[error("{file}: the table has no locus columns\n  help: after `sample`, `population` and `year`, add one column per locus with cells like 152/156")]
+    #[error(
+        "{file}: the table has no locus columns\n  help: after `sample`, `population` and `year`, add one column per locus with cells like 152/156"
+    )]
     NoLoci {
         /// File.
         file: String,
@@ -125,7 +136,9 @@ pub enum DataError {
         help: String,
     },
     /// The same sample id twice.
-    #[error("{at}: sample id \"{id}\" was already used on line {first_line}\n  help: give every sample a unique id; a re-sampled individual needs its own id (validate reports identical genotypes)")]
+    #[error(
+        "{at}: sample id \"{id}\" was already used on line {first_line}\n  help: give every sample a unique id; a re-sampled individual needs its own id (validate reports identical genotypes)"
+    )]
     DuplicateSample {
         /// Where.
         at: Location,
@@ -135,7 +148,9 @@ pub enum DataError {
         first_line: usize,
     },
     /// A malformed genotype cell with `strict = true`.
-    #[error("{at}: column `{column}`, cell \"{text}\": {problem}\n  help: fix the cell, or remove `strict = true` from [data] to treat bad cells as untyped findings")]
+    #[error(
+        "{at}: column `{column}`, cell \"{text}\": {problem}\n  help: fix the cell, or remove `strict = true` from [data] to treat bad cells as untyped findings"
+    )]
     BadCell {
         /// Where.
         at: Location,
@@ -147,7 +162,10 @@ pub enum DataError {
         problem: String,
     },
     /// More distinct alleles at a locus than codes can hold.
-    #[error("{file}: locus `{locus}` has more than {} distinct alleles\n  help: check that the column really holds genotypes", limits::MAX_ALLELES_PER_LOCUS)]
+    #[error(
+        "{file}: locus `{locus}` has more than {} distinct alleles\n  help: check that the column really holds genotypes",
+        limits::MAX_ALLELES_PER_LOCUS
+    )]
     TooManyAlleles {
         /// File.
         file: String,
@@ -155,7 +173,9 @@ pub enum DataError {
         locus: String,
     },
     /// The VCF header cannot be parsed or is not VCF 4.x.
-    #[error("{file}: the VCF header cannot be read: {problem}\n  help: a VCF file starts with `##fileformat=VCFv4.x` and header lines, then the `#CHROM POS ID REF ALT QUAL FILTER INFO FORMAT` line naming the samples")]
+    #[error(
+        "{file}: the VCF header cannot be read: {problem}\n  help: a VCF file starts with `##fileformat=VCFv4.x` and header lines, then the `#CHROM POS ID REF ALT QUAL FILTER INFO FORMAT` line naming the samples"
+    )]
     VcfHeader {
         /// File.
         file: String,
@@ -175,7 +195,9 @@ pub enum DataError {
         help: String,
     },
     /// Compressed data that end in the middle of a block.
-    #[error("{at}: the compressed data end in the middle of a block ({message})\n  help: the file is truncated or damaged; copy or export it again (a complete bgzip file ends with an empty end-of-file block)")]
+    #[error(
+        "{at}: the compressed data end in the middle of a block ({message})\n  help: the file is truncated or damaged; copy or export it again (a complete bgzip file ends with an empty end-of-file block)"
+    )]
     Truncated {
         /// Where (the line being read).
         at: Location,
@@ -183,7 +205,9 @@ pub enum DataError {
         message: String,
     },
     /// Compressed data that cannot be decompressed.
-    #[error("{at}: the compressed data cannot be read ({message})\n  help: compress the VCF file with bgzip (block gzip), or leave it uncompressed")]
+    #[error(
+        "{at}: the compressed data cannot be read ({message})\n  help: compress the VCF file with bgzip (block gzip), or leave it uncompressed"
+    )]
     Decompress {
         /// Where (the line being read).
         at: Location,
@@ -191,7 +215,9 @@ pub enum DataError {
         message: String,
     },
     /// No VCF sample is in the sample sheet.
-    #[error("{file}: none of its {vcf_samples} samples is listed in {sheet} ({sheet_samples} samples)\n  help: the sheet's `sample` column must spell the sample names of the VCF's #CHROM line exactly")]
+    #[error(
+        "{file}: none of its {vcf_samples} samples is listed in {sheet} ({sheet_samples} samples)\n  help: the sheet's `sample` column must spell the sample names of the VCF's #CHROM line exactly"
+    )]
     NoSharedSamples {
         /// VCF file.
         file: String,
@@ -203,7 +229,9 @@ pub enum DataError {
         sheet_samples: usize,
     },
     /// No VCF record was left to read.
-    #[error("{file}: no site is left to read from its {records} record(s)\n  help: check `accept_filters` (FILTER values read; default PASS and .) and the site filters `min_call_rate`, `min_maf`, `max_alleles` in [data]; the findings of `popgauge check` list what was dropped")]
+    #[error(
+        "{file}: no site is left to read from its {records} record(s)\n  help: check `accept_filters` (FILTER values read; default PASS and .) and the site filters `min_call_rate`, `min_maf`, `max_alleles` in [data]; the findings of `popgauge check` list what was dropped"
+    )]
     NoSites {
         /// File.
         file: String,
@@ -221,7 +249,10 @@ pub enum DataError {
         found: u64,
     },
     /// A sample id, population name or label, or locus name longer than [`limits::MAX_NAME_CHARS`].
-    #[error("{at}: the {what} \"{text}\" is longer than {} characters\n  help: shorten it; a longer description belongs in a column popgauge ignores", limits::MAX_NAME_CHARS)]
+    #[error(
+        "{at}: the {what} \"{text}\" is longer than {} characters\n  help: shorten it; a longer description belongs in a column popgauge ignores",
+        limits::MAX_NAME_CHARS
+    )]
     LongName {
         /// Where.
         at: Location,
@@ -231,7 +262,9 @@ pub enum DataError {
         text: String,
     },
     /// Two rows of the population sheet name the same population.
-    #[error("{at}: population \"{population}\" is listed twice in the population sheet (first on line {first_line})\n  help: keep one row per population")]
+    #[error(
+        "{at}: population \"{population}\" is listed twice in the population sheet (first on line {first_line})\n  help: keep one row per population"
+    )]
     DuplicatePopulation {
         /// Where.
         at: Location,
@@ -251,6 +284,8 @@ pub struct LoadedData {
     pub findings: Vec<Finding>,
     /// Population sheet rows, sorted by population.
     pub populations: Vec<PopulationInfo>,
+    /// Locus sheet rows, in file order (empty without a sheet).
+    pub loci: Vec<loci::LocusInfo>,
     /// Each data file with the digest of the bytes read.
     pub digests: Vec<(InputFile, FileDigest)>,
 }
@@ -277,7 +312,19 @@ pub fn load_data(recipe: &Recipe, progress: &mut dyn Progress) -> Result<LoadedD
         }
         None => Vec::new(),
     };
-    Ok(LoadedData { matrix, findings, populations, digests })
+    let (matrix, loci) = match &spec.loci {
+        Some(file) => {
+            let bytes = read_file(file)?;
+            digests.push((file.clone(), digest_bytes(&bytes)));
+            let sheet = loci::read_locus_sheet(&bytes, &file.relative)?;
+            findings.extend(sheet.findings.iter().cloned());
+            let (matrix, checked) = loci::apply_locus_sheet(matrix, &sheet, &file.relative)?;
+            findings.extend(checked);
+            (matrix, sheet.loci)
+        }
+        None => (matrix, Vec::new()),
+    };
+    Ok(LoadedData { matrix, findings, populations, loci, digests })
 }
 
 /// The matrix, its findings and the digests of the files read.
@@ -304,7 +351,11 @@ fn read_wide_input(spec: &DataSpec) -> Result<GenotypeInput, DataError> {
     Ok((matrix, findings, digests))
 }
 
-fn read_vcf_input(spec: &DataSpec, sheet_file: &InputFile, progress: &mut dyn Progress) -> Result<GenotypeInput, DataError> {
+fn read_vcf_input(
+    spec: &DataSpec,
+    sheet_file: &InputFile,
+    progress: &mut dyn Progress,
+) -> Result<GenotypeInput, DataError> {
     let sheet_bytes = read_file(sheet_file)?;
     let sheet = sample_sheet::read_sample_sheet(&sheet_bytes, &sheet_file.relative)?;
     let options = vcf::VcfOptions {
@@ -323,7 +374,11 @@ fn read_file(file: &InputFile) -> Result<Vec<u8>, DataError> {
     let unreadable = |source| DataError::Unreadable { file: file.relative.clone(), source };
     let size = std::fs::metadata(&file.path).map_err(unreadable)?.len();
     if limits::exceeds(limits::Limited::FileBytes, size) {
-        return Err(DataError::TooLarge { at: Location::file(&file.relative), what: limits::Limited::FileBytes, found: size });
+        return Err(DataError::TooLarge {
+            at: Location::file(&file.relative),
+            what: limits::Limited::FileBytes,
+            found: size,
+        });
     }
     std::fs::read(&file.path).map_err(unreadable)
 }

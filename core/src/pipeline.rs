@@ -9,10 +9,10 @@ use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
-use crate::provenance::prov::ProvDocument;
 use crate::provenance::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
+use crate::provenance::prov::ProvDocument;
 use crate::provenance::record::{
-    AssessmentEntry, FileEntry, PluginEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
+    AssessmentEntry, FileEntry, PROVENANCE_SCHEMA, PluginEntry, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
 };
 use crate::recipe::{InputFile, Recipe, RecipeError, load_recipe};
 use crate::report::template::Template;
@@ -66,13 +66,7 @@ pub struct RunSummary {
 impl RunSummary {
     /// Findings of the given level or worse, over data and steps.
     pub fn findings_at_least(&self, level: FindingLevel) -> Vec<&Finding> {
-        self.results
-            .data
-            .findings
-            .iter()
-            .chain(self.results.steps.iter().flat_map(|s| s.findings.iter()))
-            .filter(|f| f.level >= level)
-            .collect()
+        self.results.distinct_findings().into_iter().map(|(_, f)| f).filter(|f| f.level >= level).collect()
     }
 }
 
@@ -95,10 +89,8 @@ pub struct LoadedCase {
 /// [`RunError::Recipe`] or [`RunError::Data`].
 pub fn load_case(case_dir: &Path, allow_outside: bool, progress: &mut dyn Progress) -> Result<LoadedCase, RunError> {
     let recipe = load_recipe(case_dir, allow_outside)?;
-    let recipe_bytes = std::fs::read(&recipe.recipe_file.path).map_err(|source| RecipeError::Unreadable {
-        path: recipe.recipe_file.path.display().to_string(),
-        source,
-    })?;
+    let recipe_bytes = std::fs::read(&recipe.recipe_file.path)
+        .map_err(|source| RecipeError::Unreadable { path: recipe.recipe_file.path.display().to_string(), source })?;
     let mut data = load_data(&recipe, progress)?;
     let template = load_template(&recipe)?;
     data.digests.extend(template_digests(&recipe, &template));
@@ -121,7 +113,8 @@ fn template_digests(recipe: &Recipe, template: &Template) -> Vec<(InputFile, Fil
         .files
         .iter()
         .map(|(name, bytes)| {
-            let file = InputFile { role: "template".into(), relative: format!("{folder}/{name}"), path: dir.join(name) };
+            let file =
+                InputFile { role: "template".into(), relative: format!("{folder}/{name}"), path: dir.join(name) };
             (file, digest_bytes(bytes))
         })
         .collect()
@@ -154,7 +147,12 @@ pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progre
     progress.task("typesetting the assessment");
     let (results, mut files) = render_outputs(&case, &engine)?;
     let case_folder = relative_path(&absolute_path(&out), &absolute_path(case_dir));
-    let provenance = provenance_record(&case, &engine, &files, RunFacts { started, case_folder, operator: options.operator.clone() });
+    let provenance = provenance_record(
+        &case,
+        &engine,
+        &files,
+        RunFacts { started, case_folder, operator: options.operator.clone() },
+    );
     files.push(("provenance.json".into(), pretty_json(&provenance)));
     write_folder(&out, &files, options.force)?;
     progress.finish();
@@ -179,7 +177,12 @@ pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(Resul
     let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
     files.extend(results.table_files());
     let fingerprint = assessment_fingerprint(case, engine);
-    let facts = |file: &InputFile, digest: &FileDigest| FileFacts { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() };
+    let facts = |file: &InputFile, digest: &FileDigest| FileFacts {
+        role: file.role.clone(),
+        path: file.relative.clone(),
+        size: digest.size,
+        sha256: digest.sha256.clone(),
+    };
     let source = ReportSource {
         results: &results,
         runs: &engine.runs,
@@ -216,12 +219,19 @@ fn file_entry(file: &InputFile, digest: &FileDigest) -> FileEntry {
     FileEntry { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() }
 }
 
-fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFiles, facts: RunFacts) -> ProvenanceRecord {
+fn provenance_record(
+    case: &LoadedCase,
+    engine: &EngineOutput,
+    files: &OutputFiles,
+    facts: RunFacts,
+) -> ProvenanceRecord {
     let recipe = &case.recipe;
     let outputs = files
         .iter()
         .map(|(path, bytes)| FileEntry {
-            role: crate::report::output_role(path).unwrap_or(if path.starts_with("tables/") { "table" } else { "results" }).into(),
+            role: crate::report::output_role(path)
+                .unwrap_or(if path.starts_with("tables/") { "table" } else { "results" })
+                .into(),
             path: path.clone(),
             size: bytes.len() as u64,
             sha256: sha256_hex(bytes),
@@ -253,7 +263,12 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
             date_defaulted: recipe.date_defaulted,
             seed: recipe.assessment.seed,
         },
-        run: RunEntry { started: facts.started, ended: now_rfc3339(), operator: facts.operator, case_folder: facts.case_folder },
+        run: RunEntry {
+            started: facts.started,
+            ended: now_rfc3339(),
+            operator: facts.operator,
+            case_folder: facts.case_folder,
+        },
         recipe: file_entry(&recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| file_entry(file, digest)).collect(),
         steps,

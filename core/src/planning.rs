@@ -414,7 +414,7 @@ pub fn plan_figure(rows: &[PlanRow]) -> Option<Figure> {
         .enumerate()
         .map(|(style, (ne, mut points))| {
             points.sort_by(|a, b| a.0.total_cmp(&b.0));
-            Series { name: format!("Ne = {ne}"), style, points, slope: None }
+            Series { name: format!("Ne = {ne}"), style, points, slope: None, intervals: Vec::new() }
         })
         .collect();
     Some(Figure::Lines {

@@ -86,6 +86,8 @@ pub struct DataSpec {
     pub sites: SiteFilters,
     /// The optional population sheet.
     pub populations: Option<InputFile>,
+    /// Locus sheet, when given.
+    pub loci: Option<InputFile>,
     /// Cell spellings that mean "not typed".
     pub missing: Vec<String>,
     /// Columns that are neither metadata nor loci.
@@ -166,11 +168,12 @@ pub struct Recipe {
 
 impl Recipe {
     /// Every input file: the recipe, the genotypes, the sample sheet of a VCF file and the
-    /// population sheet when given.
+    /// population and locus sheets when given.
     pub fn input_files(&self) -> Vec<&InputFile> {
         let mut files = vec![&self.recipe_file, &self.data.genotypes];
         files.extend(self.data.samples.as_ref());
         files.extend(self.data.populations.as_ref());
+        files.extend(self.data.loci.as_ref());
         files
     }
 }
@@ -179,7 +182,9 @@ impl Recipe {
 #[derive(Debug, thiserror::Error)]
 pub enum RecipeError {
     /// The case folder or recipe cannot be read.
-    #[error("{path}: cannot read the recipe: {source}\n  help: give a case folder that contains {RECIPE_FILE} (`popgauge new DIR` writes one)")]
+    #[error(
+        "{path}: cannot read the recipe: {source}\n  help: give a case folder that contains {RECIPE_FILE} (`popgauge new DIR` writes one)"
+    )]
     Unreadable {
         /// The path tried.
         path: String,
@@ -246,9 +251,8 @@ fn unknown_key_help(suggestion: Option<&str>, expected: &[String]) -> String {
     match suggestion {
         Some(s) => format!("did you mean `{s}`?"),
         None if expected.is_empty() => "remove it; see the commented recipe that `popgauge new DIR` writes".into(),
-        None => format!(
-            "keys allowed here: {}",
-            expected.iter().map(|k| format!("`{k}`")).collect::<Vec<_>>().join(", ")
-        ),
+        None => {
+            format!("keys allowed here: {}", expected.iter().map(|k| format!("`{k}`")).collect::<Vec<_>>().join(", "))
+        }
     }
 }

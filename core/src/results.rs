@@ -6,6 +6,7 @@ use serde::{Deserialize, Serialize};
 use popgauge_abi::{AssessmentInfo, Finding, StepResult, Table};
 
 use crate::data::LoadedData;
+pub use crate::data::loci::LocusInfo;
 use crate::engine::EngineOutput;
 
 /// Schema identifier written into every results document.
@@ -47,6 +48,9 @@ pub struct DataSummary {
     pub groups: Vec<GroupCount>,
     /// Findings made while reading.
     pub findings: Vec<Finding>,
+    /// Rows of the locus sheet, in file order, when the recipe names one.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub locus_sheet: Vec<LocusInfo>,
 }
 
 /// `results.json`.
@@ -67,6 +71,21 @@ pub struct ResultsDocument {
 }
 
 impl ResultsDocument {
+    /// Every finding with its source (`input` for the readers, else the step id). A finding a
+    /// step repeats from the readers (validate reports the bad cells it was given), with the
+    /// same level, code, message and place, is listed once, under its first source: the
+    /// command line and the document count findings the same way.
+    pub fn distinct_findings(&self) -> Vec<(String, &Finding)> {
+        let mut seen = std::collections::BTreeSet::new();
+        self.data
+            .findings
+            .iter()
+            .map(|f| ("input".to_string(), f))
+            .chain(self.steps.iter().flat_map(|s| s.findings.iter().map(move |f| (s.id.clone(), f))))
+            .filter(|(_, f)| seen.insert((f.level, f.code.clone(), f.message.clone(), format!("{:?}", f.location))))
+            .collect()
+    }
+
     /// Assembles the document.
     pub fn new(genotypes_file: &str, data: &LoadedData, engine: &EngineOutput) -> ResultsDocument {
         let all_samples = data.matrix.all_sample_indices();
@@ -87,6 +106,7 @@ impl ResultsDocument {
                 loci: data.matrix.loci().len(),
                 groups,
                 findings: data.findings.clone(),
+                locus_sheet: data.loci.clone(),
             },
             steps: engine.results.clone(),
         }
@@ -96,7 +116,9 @@ impl ResultsDocument {
     pub fn table_files(&self) -> Vec<(String, Vec<u8>)> {
         self.steps
             .iter()
-            .flat_map(|step| step.tables.iter().map(move |(name, table)| (table_file(&step.id, name), table_csv(table))))
+            .flat_map(|step| {
+                step.tables.iter().map(move |(name, table)| (table_file(&step.id, name), table_csv(table)))
+            })
             .collect()
     }
 }

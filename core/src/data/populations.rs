@@ -37,7 +37,7 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
         found: header_excerpt(&table.header),
         help: "name the column of population names `population`, spelt as in the genotype table".into(),
     })?;
-    let findings = ignored_columns(&table.header, file);
+    let findings = ignored_columns(&table.header, file, "population", &KNOWN_COLUMNS);
     let mut rows: BTreeMap<String, (usize, PopulationInfo)> = BTreeMap::new();
     for (line, cells) in &table.records {
         let field = |name: &str| column(name).map(|i| cells[i].as_str()).filter(|t| !t.is_empty());
@@ -69,14 +69,16 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
     Ok(PopulationSheet { populations: rows.into_values().map(|(_, info)| info).collect(), findings })
 }
 
-fn ignored_columns(header: &[String], file: &str) -> Vec<Finding> {
+/// An informational finding for each column of a sheet that popgauge does not read: not
+/// `key` (the sheet's name column) and not in `known`.
+pub(super) fn ignored_columns(header: &[String], file: &str, key: &str, known: &[&str]) -> Vec<Finding> {
     header
         .iter()
-        .filter(|h| h.as_str() != "population" && !KNOWN_COLUMNS.contains(&h.as_str()))
+        .filter(|h| h.as_str() != key && !known.contains(&h.as_str()))
         .map(|h| {
             Finding::info(
                 "ignored-column",
-                format!("{file}: column `{h}` is not one popgauge reads (population, {}); it is ignored", KNOWN_COLUMNS.join(", ")),
+                format!("{file}: column `{h}` is not one popgauge reads ({key}, {}); it is ignored", known.join(", ")),
                 Where { file: Some(file.into()), column: Some(h.clone()), ..Where::default() },
             )
         })

@@ -21,9 +21,31 @@ pub struct RawRecipe {
     #[serde(default, rename = "step")]
     #[schemars(with = "Vec<RawStep>")]
     pub steps: Vec<Spanned<RawStep>>,
+    /// How the animals were sampled (printed in the document's sampling design).
+    #[serde(default)]
+    pub sampling: Option<RawSampling>,
     /// How the document is typeset.
     #[serde(default)]
     pub report: Option<RawReport>,
+}
+
+/// `[sampling]`: how the animals were sampled; every key optional.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawSampling {
+    /// Life stage sampled, in words, e.g. "adults at breeding ponds".
+    #[serde(default)]
+    pub life_stage: Option<String>,
+    /// Tissue taken, e.g. "tail tip".
+    #[serde(default)]
+    pub tissue: Option<String>,
+    /// Whether sampling killed the animals.
+    #[serde(default)]
+    pub lethal: Option<bool>,
+    /// `"single"` (each sample is one cohort) or `"mixed"` (several ages).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub cohorts: Option<Spanned<String>>,
 }
 
 /// `[assessment]`.
@@ -48,6 +70,9 @@ pub struct RawAssessment {
     #[serde(default)]
     #[schemars(with = "Option<f64>")]
     pub generation_time_years: Option<Spanned<f64>>,
+    /// Where the generation time comes from (a reference or a note), printed beside it.
+    #[serde(default)]
+    pub generation_time_source: Option<String>,
     /// Master seed; each step derives its own from it and the step id.
     #[serde(default)]
     #[schemars(with = "Option<u64>")]
@@ -74,6 +99,11 @@ pub struct RawData {
     #[serde(default)]
     #[schemars(with = "Option<String>")]
     pub populations: Option<Spanned<String>>,
+    /// Locus sheet (optional CSV: `locus` plus any of `marker`, `motif`, `chromosome`,
+    /// `position`).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub loci: Option<Spanned<String>>,
     /// Cell spellings that mean "not typed"; default `["", "NA", "./."]`.
     #[serde(default)]
     pub missing: Option<Vec<String>>,

@@ -6,14 +6,14 @@ use std::path::{Component, Path, PathBuf};
 use std::sync::Arc;
 use std::time::Duration;
 
-use popgauge_abi::{AssessmentInfo, Descriptor, Params, Step, did_you_mean};
+use popgauge_abi::{AssessmentInfo, Cohorts, Descriptor, Params, SamplingInfo, Step, did_you_mean};
 use popgauge_builtin::steps::{BUILTIN, find};
 use toml::Spanned;
 
-use super::raw::{RawData, RawRecipe, RawStep};
+use super::raw::{RawData, RawRecipe, RawSampling, RawStep};
 use super::{
-    BuiltinStep, DEFAULT_ACCEPT_FILTERS, DEFAULT_MISSING, GenotypeFormat, SiteFilters, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, InputFile, PlannedStep, RECIPE_FILE, Recipe,
-    RecipeError, ReportSpec,
+    BuiltinStep, DEFAULT_ACCEPT_FILTERS, DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, GenotypeFormat,
+    InputFile, PlannedStep, RECIPE_FILE, Recipe, RecipeError, ReportSpec, SiteFilters,
 };
 use crate::dates::{CivilDate, today};
 use crate::host::{DEFAULT_TIMEOUT, Isolation, LoadError, PluginSpec, Session, load_plugin};
@@ -45,7 +45,10 @@ pub fn decode_recipe(bytes: &[u8]) -> Result<String, RecipeError> {
     if bytes.len() > MAX_RECIPE_BYTES {
         return Err(RecipeError::Syntax {
             at: Location::file(RECIPE_FILE),
-            message: format!("the recipe has {} bytes; popgauge reads recipes of at most {MAX_RECIPE_BYTES} bytes", bytes.len()),
+            message: format!(
+                "the recipe has {} bytes; popgauge reads recipes of at most {MAX_RECIPE_BYTES} bytes",
+                bytes.len()
+            ),
             help: "check that case.toml is the recipe; data belongs in the files it names".into(),
         });
     }
@@ -75,20 +78,21 @@ pub fn parse(text: &str) -> Result<RawRecipe, RecipeError> {
                 let suggestion = did_you_mean(&key, expected.iter().map(String::as_str)).map(str::to_string);
                 RecipeError::UnknownKey { at, key, suggestion, expected }
             }
-            None => RecipeError::Syntax {
-                at,
-                help: syntax_help(&message),
-                message,
-            },
+            None => RecipeError::Syntax { at, help: syntax_help(&message), message },
         }
     })
 }
 
 /// serde's Rust type names in a message, in the recipe writer's words.
 fn plain_type_names(message: &str) -> String {
-    [("expected i64", "expected a whole number"), ("expected u64", "expected a whole number"), ("expected f64", "expected a number"), ("expected a boolean", "expected true or false")]
-        .iter()
-        .fold(message.to_string(), |text, (rust, plain)| text.replace(rust, plain))
+    [
+        ("expected i64", "expected a whole number"),
+        ("expected u64", "expected a whole number"),
+        ("expected f64", "expected a number"),
+        ("expected a boolean", "expected true or false"),
+    ]
+    .iter()
+    .fold(message.to_string(), |text, (rust, plain)| text.replace(rust, plain))
 }
 
 fn syntax_help(message: &str) -> String {
@@ -149,7 +153,11 @@ impl Resolver<'_> {
         let (date, defaulted) = match &a.date {
             Some(d) => {
                 let parsed = CivilDate::parse(d.get_ref()).ok_or_else(|| {
-                    self.invalid(d, format!("`date` is \"{}\", not a calendar date", d.get_ref()), "write the date as YYYY-MM-DD, for example \"2026-11-30\"")
+                    self.invalid(
+                        d,
+                        format!("`date` is \"{}\", not a calendar date", d.get_ref()),
+                        "write the date as YYYY-MM-DD, for example \"2026-11-30\"",
+                    )
                 })?;
                 (parsed.to_string(), false)
             }
@@ -157,14 +165,22 @@ impl Resolver<'_> {
         };
         let generation_time_years = match &a.generation_time_years {
             Some(g) if !(g.get_ref().is_finite() && *g.get_ref() > 0.0) => {
-                return Err(self.invalid(g, format!("`generation_time_years` is {}, but it must be a positive number of years", g.get_ref()), "give the mean age of parents at birth in years, for example 4.0"));
+                return Err(self.invalid(
+                    g,
+                    format!("`generation_time_years` is {}, but it must be a positive number of years", g.get_ref()),
+                    "give the mean age of parents at birth in years, for example 4.0",
+                ));
             }
             Some(g) => Some(*g.get_ref()),
             None => None,
         };
         let seed = match &a.seed {
             Some(s) if *s.get_ref() < 0 => {
-                return Err(self.invalid(s, format!("`seed` is {}, but it must be a whole number ≥ 0", s.get_ref()), "any whole number from 0 up will do; keep it to reproduce the run"));
+                return Err(self.invalid(
+                    s,
+                    format!("`seed` is {}, but it must be a whole number ≥ 0", s.get_ref()),
+                    "any whole number from 0 up will do; keep it to reproduce the run",
+                ));
             }
             Some(s) => *s.get_ref() as u64,
             None => DEFAULT_SEED,
@@ -176,6 +192,8 @@ impl Resolver<'_> {
             organisation: a.organisation.clone().unwrap_or_default(),
             date,
             generation_time_years,
+            generation_time_source: a.generation_time_source.clone().filter(|s| !s.trim().is_empty()),
+            sampling: raw.sampling.as_ref().map(|s| self.sampling(s)).transpose()?,
             seed,
             thresholds: Vec::new(),
             populations: Vec::new(),
@@ -183,17 +201,41 @@ impl Resolver<'_> {
         Ok((info, defaulted))
     }
 
+    fn sampling(&self, raw: &RawSampling) -> Result<SamplingInfo, RecipeError> {
+        let text = |t: &Option<String>| t.clone().filter(|s| !s.trim().is_empty());
+        let cohorts = match &raw.cohorts {
+            None => None,
+            Some(c) => Some(match c.get_ref().as_str() {
+                "single" => Cohorts::Single,
+                "mixed" => Cohorts::Mixed,
+                other => {
+                    return Err(self.invalid(
+                        c,
+                        format!("`cohorts` is \"{other}\", not one popgauge knows"),
+                        "write \"single\" when each sample holds animals of one cohort, \"mixed\" when it holds several ages",
+                    ));
+                }
+            }),
+        };
+        Ok(SamplingInfo { life_stage: text(&raw.life_stage), tissue: text(&raw.tissue), lethal: raw.lethal, cohorts })
+    }
+
     fn data(&self, raw: &Spanned<RawData>) -> Result<DataSpec, RecipeError> {
         let d = raw.get_ref();
         let (genotypes, format, samples) = self.genotype_source(raw)?;
         let populations = d.populations.as_ref().map(|p| self.input("populations", p)).transpose()?;
+        let loci = d.loci.as_ref().map(|p| self.input("loci", p)).transpose()?;
         Ok(DataSpec {
             genotypes,
             format,
             samples,
-            accept_filters: d.accept_filters.clone().unwrap_or_else(|| DEFAULT_ACCEPT_FILTERS.iter().map(|s| s.to_string()).collect()),
+            accept_filters: d
+                .accept_filters
+                .clone()
+                .unwrap_or_else(|| DEFAULT_ACCEPT_FILTERS.iter().map(|s| s.to_string()).collect()),
             sites: self.site_filters(d)?,
             populations,
+            loci,
             missing: d.missing.clone().unwrap_or_else(|| DEFAULT_MISSING.iter().map(|s| s.to_string()).collect()),
             ignore_columns: d.ignore_columns.clone().unwrap_or_default(),
             strict: d.strict.unwrap_or(false),
@@ -201,7 +243,10 @@ impl Resolver<'_> {
     }
 
     /// The genotype file: a wide table (`genotypes`) or a VCF file with its sample sheet.
-    fn genotype_source(&self, raw: &Spanned<RawData>) -> Result<(InputFile, GenotypeFormat, Option<InputFile>), RecipeError> {
+    fn genotype_source(
+        &self,
+        raw: &Spanned<RawData>,
+    ) -> Result<(InputFile, GenotypeFormat, Option<InputFile>), RecipeError> {
         let d = raw.get_ref();
         match (&d.genotypes, &d.vcf, &d.samples) {
             (Some(_), Some(vcf), _) => Err(self.invalid(vcf, "[data] names both `genotypes` and `vcf`".into(), "keep one: `genotypes` for a wide table, or `vcf` with `samples` for a VCF file")),
@@ -218,17 +263,37 @@ impl Resolver<'_> {
             match value {
                 None => Ok(0.0),
                 Some(v) if (0.0..=max).contains(v.get_ref()) => Ok(*v.get_ref()),
-                Some(v) => Err(self.invalid(v, format!("`{name}` is {}, but it must lie between 0 and {max}", v.get_ref()), example)),
+                Some(v) => Err(self.invalid(
+                    v,
+                    format!("`{name}` is {}, but it must lie between 0 and {max}", v.get_ref()),
+                    example,
+                )),
             }
         };
         let max_alleles = match &d.max_alleles {
             None => None,
             Some(m) if *m.get_ref() >= 1 => Some(*m.get_ref() as usize),
-            Some(m) => return Err(self.invalid(m, format!("`max_alleles` is {}, but it must be a whole number ≥ 1", m.get_ref()), "for example 2 to read biallelic sites only")),
+            Some(m) => {
+                return Err(self.invalid(
+                    m,
+                    format!("`max_alleles` is {}, but it must be a whole number ≥ 1", m.get_ref()),
+                    "for example 2 to read biallelic sites only",
+                ));
+            }
         };
         Ok(SiteFilters {
-            min_call_rate: share(&d.min_call_rate, "min_call_rate", 1.0, "for example 0.8 to read sites typed in at least 80% of samples")?,
-            min_maf: share(&d.min_maf, "min_maf", 0.5, "for example 0.05 to drop sites whose minor allele is rarer than 5%")?,
+            min_call_rate: share(
+                &d.min_call_rate,
+                "min_call_rate",
+                1.0,
+                "for example 0.8 to read sites typed in at least 80% of samples",
+            )?,
+            min_maf: share(
+                &d.min_maf,
+                "min_maf",
+                0.5,
+                "for example 0.05 to drop sites whose minor allele is rarer than 5%",
+            )?,
             max_alleles,
         })
     }
@@ -238,18 +303,34 @@ impl Resolver<'_> {
         let written = Path::new(relative);
         let escapes = written.is_absolute() || written.components().any(|c| matches!(c, Component::ParentDir));
         if escapes && !self.allow_outside {
-            return Err(self.invalid(path, format!("`{role}` path \"{relative}\" leaves the case folder"), "copy the file into the case folder, or run with --allow-outside if this is intended"));
+            return Err(self.invalid(
+                path,
+                format!("`{role}` path \"{relative}\" leaves the case folder"),
+                "copy the file into the case folder, or run with --allow-outside if this is intended",
+            ));
         }
         let full = self.case_dir.join(written);
         let canonical = full.canonicalize().map_err(|e| {
-            self.invalid(path, format!("`{role}` file \"{relative}\" cannot be opened: {e}"), "check the file name; paths are relative to the case folder")
+            self.invalid(
+                path,
+                format!("`{role}` file \"{relative}\" cannot be opened: {e}"),
+                "check the file name; paths are relative to the case folder",
+            )
         })?;
         if !canonical.is_file() {
-            return Err(self.invalid(path, format!("`{role}` path \"{relative}\" is not a file"), "name a file, not a folder"));
+            return Err(self.invalid(
+                path,
+                format!("`{role}` path \"{relative}\" is not a file"),
+                "name a file, not a folder",
+            ));
         }
         let case_canonical = self.case_dir.canonicalize().unwrap_or_else(|_| self.case_dir.to_path_buf());
         if !self.allow_outside && !canonical.starts_with(&case_canonical) {
-            return Err(self.invalid(path, format!("`{role}` file \"{relative}\" is a link to a file outside the case folder"), "copy the file into the case folder, or run with --allow-outside if this is intended"));
+            return Err(self.invalid(
+                path,
+                format!("`{role}` file \"{relative}\" is a link to a file outside the case folder"),
+                "copy the file into the case folder, or run with --allow-outside if this is intended",
+            ));
         }
         Ok(InputFile { role: role.into(), relative: relative.clone(), path: canonical })
     }
@@ -262,10 +343,18 @@ impl Resolver<'_> {
             let line = self.at(spanned).line.unwrap_or(1);
             let id = step.id.get_ref();
             if !is_valid_id(id) {
-                return Err(self.invalid(&step.id, format!("step id \"{id}\" is not usable as a file name"), "use letters, digits, `-` and `_` only, for example \"qc\" or \"ne-ld\""));
+                return Err(self.invalid(
+                    &step.id,
+                    format!("step id \"{id}\" is not usable as a file name"),
+                    "use letters, digits, `-` and `_` only, for example \"qc\" or \"ne-ld\"",
+                ));
             }
             if let Some(first) = seen.insert(id, line) {
-                return Err(self.invalid(&step.id, format!("step id \"{id}\" is used twice (first at line {first})"), "give each step its own id; it names the step's results"));
+                return Err(self.invalid(
+                    &step.id,
+                    format!("step id \"{id}\" is used twice (first at line {first})"),
+                    "give each step its own id; it names the step's results",
+                ));
             }
             planned.push(self.plan_step(step, line)?);
         }
@@ -286,13 +375,25 @@ impl Resolver<'_> {
             self.invalid(&step.uses, format!("unknown step `uses = \"{uses}\"`"), &help)
         })?;
         if let Some(sha) = &step.sha256 {
-            return Err(self.invalid(sha, "`sha256` pins an external plugin library; built-in steps have none".into(), "remove the `sha256` line"));
+            return Err(self.invalid(
+                sha,
+                "`sha256` pins an external plugin library; built-in steps have none".into(),
+                "remove the `sha256` line",
+            ));
         }
         if let Some(isolation) = &step.isolation {
-            return Err(self.invalid(isolation, "`isolation` applies to external plugin steps; built-in steps run in popgauge".into(), "remove the `isolation` line"));
+            return Err(self.invalid(
+                isolation,
+                "`isolation` applies to external plugin steps; built-in steps run in popgauge".into(),
+                "remove the `isolation` line",
+            ));
         }
         if let Some(timeout) = &step.timeout_seconds {
-            return Err(self.invalid(timeout, "`timeout_seconds` applies to external plugin steps only".into(), "remove the `timeout_seconds` line"));
+            return Err(self.invalid(
+                timeout,
+                "`timeout_seconds` applies to external plugin steps only".into(),
+                "remove the `timeout_seconds` line",
+            ));
         }
         let params = self.resolve_params(step, line, &implementation.descriptor())?;
         Ok(PlannedStep {
@@ -344,32 +445,55 @@ impl Resolver<'_> {
     fn plugin_spec(&self, step: &RawStep, path: &str) -> Result<PluginSpec, RecipeError> {
         let id = step.id.get_ref();
         if path.is_empty() {
-            return Err(self.invalid(&step.uses, "`uses = \"plugin:\"` names no library".into(), "write the library's path after `plugin:`, relative to the case folder"));
+            return Err(self.invalid(
+                &step.uses,
+                "`uses = \"plugin:\"` names no library".into(),
+                "write the library's path after `plugin:`, relative to the case folder",
+            ));
         }
         let written = Path::new(path);
         let escapes = written.is_absolute() || written.components().any(|c| matches!(c, Component::ParentDir));
         if escapes && !self.allow_outside {
-            return Err(self.invalid(&step.uses, format!("plugin path \"{path}\" leaves the case folder"), "copy the library into the case folder, or run with --allow-outside if this is intended"));
+            return Err(self.invalid(
+                &step.uses,
+                format!("plugin path \"{path}\" leaves the case folder"),
+                "copy the library into the case folder, or run with --allow-outside if this is intended",
+            ));
         }
         let expected_sha256 = match &step.sha256 {
             None => {
                 return Err(self.invalid(&step.uses, format!("step \"{id}\" uses a plugin library but pins no `sha256`"), &format!("review the library, then add `sha256 = \"…\"` with the hash that `popgauge steps --plugin {path}` prints")));
             }
             Some(sha) if !(sha.get_ref().len() == 64 && sha.get_ref().chars().all(|c| c.is_ascii_hexdigit())) => {
-                return Err(self.invalid(sha, format!("`sha256` is \"{}\", not 64 hexadecimal digits", sha.get_ref()), &format!("copy the hash that `popgauge steps --plugin {path}` prints")));
+                return Err(self.invalid(
+                    sha,
+                    format!("`sha256` is \"{}\", not 64 hexadecimal digits", sha.get_ref()),
+                    &format!("copy the hash that `popgauge steps --plugin {path}` prints"),
+                ));
             }
             Some(sha) => Some(sha.get_ref().to_ascii_lowercase()),
         };
         let isolation = match &step.isolation {
             None => Isolation::Process,
             Some(text) => Isolation::parse(text.get_ref()).ok_or_else(|| {
-                self.invalid(text, format!("`isolation` is \"{}\"", text.get_ref()), "write \"process\" (default: crashes and hangs fail only this step) or \"in-process\" (faster)")
+                self.invalid(
+                    text,
+                    format!("`isolation` is \"{}\"", text.get_ref()),
+                    "write \"process\" (default: crashes and hangs fail only this step) or \"in-process\" (faster)",
+                )
             })?,
         };
         let timeout = match &step.timeout_seconds {
             None => DEFAULT_TIMEOUT,
             Some(t) if !(1..=86_400).contains(t.get_ref()) => {
-                return Err(self.invalid(t, format!("`timeout_seconds` is {}, but it must be a whole number of seconds from 1 to 86400", t.get_ref()), "for example 600 (ten minutes, the default)"));
+                return Err(self.invalid(
+                    t,
+                    format!(
+                        "`timeout_seconds` is {}, but it must be a whole number of seconds from 1 to 86400",
+                        t.get_ref()
+                    ),
+                    "for example 600 (ten minutes, the default)",
+                ));
             }
             Some(t) => Duration::from_secs(*t.get_ref() as u64),
         };
@@ -381,7 +505,11 @@ impl Resolver<'_> {
             return Ok(Arc::clone(session));
         }
         let session = Session::new().map_err(|e| {
-            self.invalid(at, format!("cannot create a private temporary folder for plugin libraries: {e}"), "check that the temporary folder (TMPDIR) is writable")
+            self.invalid(
+                at,
+                format!("cannot create a private temporary folder for plugin libraries: {e}"),
+                "check that the temporary folder (TMPDIR) is writable",
+            )
         })?;
         Ok(Arc::clone(self.session.get_or_init(|| session)))
     }
@@ -395,7 +523,11 @@ impl Resolver<'_> {
         let mut lines = BTreeMap::new();
         for (key, value) in step.params.iter().flatten() {
             let json = serde_json::to_value(value.get_ref()).map_err(|e| {
-                self.invalid(value, format!("parameter `{}` cannot be read: {e}", key.get_ref()), "give a number, text, true/false or a list")
+                self.invalid(
+                    value,
+                    format!("parameter `{}` cannot be read: {e}", key.get_ref()),
+                    "give a number, text, true/false or a list",
+                )
             })?;
             given.insert(key.get_ref().clone(), json);
             lines.insert(key.get_ref().clone(), self.at(key));
@@ -410,7 +542,11 @@ impl Resolver<'_> {
                 let values = t.get_ref().clone();
                 let ascending = values.windows(2).all(|w| w[0] < w[1]);
                 if values.is_empty() || !ascending || values.iter().any(|v| !(v.is_finite() && *v > 0.0)) {
-                    return Err(self.invalid(t, format!("`thresholds` is {values:?}; it must list positive Ne values in ascending order"), "for example [50, 500] or [100, 1000]"));
+                    return Err(self.invalid(
+                        t,
+                        format!("`thresholds` is {values:?}; it must list positive Ne values in ascending order"),
+                        "for example [50, 500] or [100, 1000]",
+                    ));
                 }
                 values
             }
@@ -429,17 +565,29 @@ impl Resolver<'_> {
         let written = Path::new(relative);
         let escapes = written.is_absolute() || written.components().any(|c| matches!(c, Component::ParentDir));
         if escapes && !self.allow_outside {
-            return Err(self.invalid(path, format!("template folder \"{relative}\" leaves the case folder"), "copy the template folder into the case folder, or run with --allow-outside if this is intended"));
+            return Err(self.invalid(
+                path,
+                format!("template folder \"{relative}\" leaves the case folder"),
+                "copy the template folder into the case folder, or run with --allow-outside if this is intended",
+            ));
         }
         let canonical = self.case_dir.join(written).canonicalize().map_err(|e| {
             self.invalid(path, format!("template folder \"{relative}\" cannot be opened: {e}"), "give \"standard\" or a folder in the case that holds assessment.typ (copy templates/standard/ to start)")
         })?;
         if !canonical.is_dir() {
-            return Err(self.invalid(path, format!("template \"{relative}\" is not a folder"), "give \"standard\" or a folder in the case that holds assessment.typ"));
+            return Err(self.invalid(
+                path,
+                format!("template \"{relative}\" is not a folder"),
+                "give \"standard\" or a folder in the case that holds assessment.typ",
+            ));
         }
         let case_canonical = self.case_dir.canonicalize().unwrap_or_else(|_| self.case_dir.to_path_buf());
         if !self.allow_outside && !canonical.starts_with(&case_canonical) {
-            return Err(self.invalid(path, format!("template folder \"{relative}\" is a link to a folder outside the case folder"), "copy the template folder into the case folder, or run with --allow-outside if this is intended"));
+            return Err(self.invalid(
+                path,
+                format!("template folder \"{relative}\" is a link to a folder outside the case folder"),
+                "copy the template folder into the case folder, or run with --allow-outside if this is intended",
+            ));
         }
         if !canonical.join("assessment.typ").is_file() {
             return Err(self.invalid(path, format!("template folder \"{relative}\" has no assessment.typ"), "a template folder holds the main file assessment.typ (copy templates/standard/assessment.typ to start)"));

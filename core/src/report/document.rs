@@ -10,7 +10,10 @@
 //! bytes in `sys.inputs.data`, so user text (titles, population names, notes) is never
 //! spliced into Typst source and prints literally.
 
+mod methods_prose;
 mod ne_overview;
+mod quality;
+mod sampling;
 mod sections;
 mod summary;
 pub mod table;
@@ -37,6 +40,10 @@ pub const BODY_LIMIT: usize = 60;
 /// A longer table, such as one row per locus and group of a SNP panel, prints its first rows
 /// and names the file that holds every row: thousands of pages help no reader.
 pub const APPENDIX_ROWS: usize = 500;
+/// Rows of a step's table the appendix prints on about one page (twice as many in two columns,
+/// two thirds as many on a landscape page). A longer step table is summarised instead, and
+/// the document names its CSV file, which holds every row.
+pub const APPENDIX_PAGE_ROWS: usize = 60;
 
 /// The threshold references the document cites beside the steps' own: the 50/500 rule and its
 /// revision to 100/1000.
@@ -62,8 +69,12 @@ pub struct ReportData {
     pub populations: Vec<PopulationFacts>,
     /// Executive summary.
     pub summary: summary::Summary,
+    /// The sampling design.
+    pub sampling: sampling::SamplingSection,
     /// Data and validation.
     pub data: sections::DataSection,
+    /// Data quality per locus and group (`validate`), when in the recipe.
+    pub quality: Option<quality::QualitySection>,
     /// Diversity and inbreeding (`diversity`), when in the recipe.
     pub diversity: Option<sections::DiversitySection>,
     /// Hardy–Weinberg tests (`hwe`), when in the recipe.
@@ -155,6 +166,8 @@ pub struct FigureFacts {
     pub file: String,
     /// Text alternative for readers who cannot see the chart.
     pub alt: String,
+    /// Data marks drawn (estimates and points, infinite ones included).
+    pub marks: usize,
 }
 
 /// A table in the appendix.
@@ -170,6 +183,75 @@ pub struct AppendixTable {
     pub table: TableData,
     /// Set when rows were left out because of [`APPENDIX_ROWS`].
     pub excerpt: Option<Excerpt>,
+    /// Set instead of rows when a step's table is longer than a page: a summary of its
+    /// columns and the CSV file with every row.
+    pub summary: Option<AppendixSummary>,
+}
+
+/// A step's table too long for a page, summarised column by column.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AppendixSummary {
+    /// Rows in the table, display text.
+    pub rows: String,
+    /// The CSV file with every row.
+    pub file: String,
+    /// One row per column: its heading, how many values (or distinct texts), and the lowest,
+    /// median and highest value as the table prints them.
+    pub columns: TableData,
+}
+
+/// How many rows a table of this layout prints on about one page.
+fn page_capacity(layout: &str) -> usize {
+    match layout {
+        "two-columns" => 2 * APPENDIX_PAGE_ROWS,
+        "landscape" => APPENDIX_PAGE_ROWS * 2 / 3,
+        _ => APPENDIX_PAGE_ROWS,
+    }
+}
+
+/// A displayed number read back for ordering (`−0.082`, `1,234`, `∞`, `< 0.001`); `None`
+/// for text.
+fn display_value(text: &str) -> Option<f64> {
+    let t = text.trim().replace('−', "-").replace(',', "").replace(" %", "");
+    match t.as_str() {
+        "∞" => Some(f64::INFINITY),
+        "-∞" => Some(f64::NEG_INFINITY),
+        _ => t.strip_prefix("< ").map_or_else(|| t.parse().ok(), |v| v.parse::<f64>().ok().map(|v| v / 2.0)),
+    }
+}
+
+/// The column-by-column summary of a table (numbers: count, lowest, median, highest;
+/// text: how many distinct values).
+fn summarise(table: &TableData) -> TableData {
+    let mut out =
+        TableData::new(&[("Column", false), ("Values", true), ("Lowest", true), ("Median", true), ("Highest", true)]);
+    for (c, heading) in table.columns.iter().enumerate() {
+        let cells: Vec<&str> =
+            table.rows.iter().map(|r| r[c].as_str()).filter(|v| *v != format::UNDEFINED && !v.is_empty()).collect();
+        let numbers: Vec<(f64, &str)> = cells.iter().filter_map(|v| Some((display_value(v)?, *v))).collect();
+        if table.numeric[c] && !numbers.is_empty() && numbers.len() == cells.len() {
+            let mut sorted = numbers;
+            sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
+            let n = sorted.len();
+            out.push(vec![
+                heading.clone(),
+                format::count(n),
+                sorted[0].1.to_string(),
+                sorted[(n - 1) / 2].1.to_string(),
+                sorted[n - 1].1.to_string(),
+            ]);
+        } else {
+            let distinct: BTreeSet<&str> = cells.iter().copied().collect();
+            out.push(vec![
+                heading.clone(),
+                format!("{} distinct", format::count(distinct.len())),
+                format::UNDEFINED.into(),
+                format::UNDEFINED.into(),
+                format::UNDEFINED.into(),
+            ]);
+        }
+    }
+    out
 }
 
 /// What an appendix table that prints only its first rows leaves out.
@@ -217,6 +299,8 @@ pub struct MethodStep {
     pub seed: String,
     /// `name = value` for every resolved parameter.
     pub params: Vec<String>,
+    /// What the step does, in a few sentences with its papers.
+    pub prose: String,
     /// `ok` or `failed: …`.
     pub status: String,
 }
@@ -248,11 +332,28 @@ impl Extras {
     /// points to `full_table`, the output file with every row.
     pub(crate) fn appendix(&mut self, title: String, mut table: TableData, full_table: String) -> String {
         let key = format!("A{}", self.appendix.len() + 1);
+        for heading in &mut table.columns {
+            *heading = table::heading_for(&heading.replace('\u{200B}', ""));
+        }
+        let layout = appendix_layout(&table).to_string();
+        if full_table.starts_with("tables/") && table.rows.len() > page_capacity(&layout) {
+            let summary =
+                AppendixSummary { rows: format::count(table.rows.len()), file: full_table, columns: summarise(&table) };
+            let empty = TableData { rows: Vec::new(), ..table };
+            self.appendix.push(AppendixTable {
+                key: key.clone(),
+                title,
+                layout: "normal".into(),
+                table: empty,
+                excerpt: None,
+                summary: Some(summary),
+            });
+            return key;
+        }
         let excerpt = table
             .split_off(APPENDIX_ROWS)
             .map(|rest| Excerpt { omitted: format::count(rest.rows.len()), file: full_table });
-        let layout = appendix_layout(&table).to_string();
-        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table, excerpt });
+        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table, excerpt, summary: None });
         key
     }
 
@@ -289,7 +390,9 @@ pub fn build(source: &ReportSource<'_>) -> Built {
         generation_time: source.results.assessment.generation_time_years,
     };
     let summary = summary::summary(&context);
+    let sampling = sampling::sampling_section(&context);
     let data_section = sections::data_section(&context, &mut extras);
+    let quality = quality::quality_section(&context, &mut extras);
     let diversity = sections::diversity_section(&context, &mut extras);
     let hwe = sections::hwe_section(&context, &mut extras);
     let differentiation = sections::differentiation_section(&context, &mut extras);
@@ -301,7 +404,9 @@ pub fn build(source: &ReportSource<'_>) -> Built {
     let Extras { figures, appendix } = extras;
     let figure_facts = figures
         .iter()
-        .map(|(key, _, alt)| (key.clone(), FigureFacts { file: format!("figures/{key}.svg"), alt: alt.clone() }))
+        .map(|(key, figure, alt)| {
+            (key.clone(), FigureFacts { file: format!("figures/{key}.svg"), alt: alt.clone(), marks: figure.marks() })
+        })
         .collect();
     let data = ReportData {
         schema: REPORT_DATA_SCHEMA.into(),
@@ -311,7 +416,9 @@ pub fn build(source: &ReportSource<'_>) -> Built {
         thresholds: thresholds(&source.results.assessment.thresholds),
         populations,
         summary,
+        sampling,
         data: data_section,
+        quality,
         diversity,
         hwe,
         differentiation,
@@ -390,6 +497,12 @@ fn methods(source: &ReportSource<'_>, thresholds_shown: bool) -> Methods {
                 params: run
                     .map(|r| r.params.iter().map(|(name, value)| format!("{name} = {}", param_text(value))).collect())
                     .unwrap_or_default(),
+                prose: methods_prose::step_prose(
+                    &step.id,
+                    &step.uses,
+                    &run.map(|r| r.params.clone()).unwrap_or_default(),
+                    source.results.assessment.generation_time_years,
+                ),
                 status: match (&step.status, &step.error) {
                     (popgauge_abi::StepStatus::Ok, _) => "ok".into(),
                     (popgauge_abi::StepStatus::Failed, error) => {
@@ -525,13 +638,17 @@ mod tests {
         assert_eq!(data.methods.references.len(), 1, "no threshold references without an Ne or status result");
     }
 
-    /// A per-locus table of a SNP panel (here 1,200 rows, one per locus and group) is not
-    /// printed whole: the appendix keeps its first [`APPENDIX_ROWS`] rows and names the CSV file
-    /// that holds every row (a SNP panel of 20,000 SNPs × 12 groups would be 240,000 rows).
+    /// A per-locus table of a SNP panel (here 1,200 rows, one per locus and group) is longer
+    /// than a page: the appendix summarises its columns (lowest, median, highest) and names the
+    /// CSV file that holds every row; a table of any other source longer than
+    /// [`APPENDIX_ROWS`] prints its first rows.
     #[test]
-    fn long_appendix_tables_print_an_excerpt_and_name_the_full_table() {
-        let by_locus: Vec<serde_json::Value> =
-            (0..1200).map(|i| serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.5, 0.5, 0.0])).collect();
+    fn long_step_tables_are_summarised_and_name_their_csv_file() {
+        let by_locus: Vec<serde_json::Value> = (0..1200)
+            .map(|i| {
+                serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.3 + f64::from(i) / 10_000.0, 0.5, 0.0])
+            })
+            .collect();
         let results: crate::results::ResultsDocument = serde_json::from_value(serde_json::json!({
             "schema": "popgauge.results/1",
             "tool": {"name": "popgauge", "version": "0.1.0"},
@@ -548,15 +665,30 @@ mod tests {
         let key =
             built.data.diversity.as_ref().and_then(|d| d.by_locus.clone()).expect("per-locus table in the appendix");
         let table = built.data.appendix.iter().find(|t| t.key == key).expect("appendix table");
-        assert_eq!(table.table.rows.len(), APPENDIX_ROWS);
-        assert_eq!(table.table.rows[0][2], "snp00000", "the first rows are kept, in order");
-        let excerpt = table.excerpt.as_ref().expect("an excerpt");
-        assert_eq!(excerpt.omitted, "700");
-        assert_eq!(excerpt.file, "tables/div.by_locus.csv");
+        assert!(table.table.rows.is_empty(), "no rows are printed");
+        let summary = table.summary.as_ref().expect("a summary");
+        assert_eq!(summary.rows, "1,200");
+        assert_eq!(summary.file, "tables/div.by_locus.csv");
+        let ho = summary.columns.rows.iter().find(|r| r[0] == "Ho").expect("Ho summarised under its readable heading");
+        assert_eq!(ho[1..], ["1,200", "0.300", "0.360", "0.420"]);
+        let locus = summary.columns.rows.iter().find(|r| r[0] == "Locus").unwrap();
+        assert_eq!(locus[1], "1,200 distinct");
         let mut extras = Extras::default();
-        let whole = TableData { rows: vec![vec!["x".into()]; APPENDIX_ROWS], ..TableData::new(&[("c", false)]) };
-        extras.appendix("short".into(), whole, "results.json".into());
-        assert!(extras.appendix[0].excerpt.is_none(), "a table of APPENDIX_ROWS rows prints whole");
+        let long = TableData { rows: vec![vec!["x".into()]; APPENDIX_ROWS + 3], ..TableData::new(&[("c", false)]) };
+        extras.appendix("findings".into(), long, "results.json".into());
+        let excerpt = extras.appendix[0].excerpt.as_ref().expect("a table outside tables/ keeps an excerpt");
+        assert_eq!(excerpt.omitted, "3");
+        assert!(extras.appendix[0].summary.is_none());
+    }
+
+    #[test]
+    fn displayed_numbers_read_back_in_order() {
+        assert_eq!(display_value("−0.082"), Some(-0.082));
+        assert_eq!(display_value("1,234"), Some(1234.0));
+        assert_eq!(display_value("∞"), Some(f64::INFINITY));
+        assert_eq!(display_value("12.5 %"), Some(12.5));
+        assert!(display_value("< 0.001").is_some_and(|v| v < 0.001));
+        assert_eq!(display_value("Brennmoor"), None);
     }
 
     #[test]

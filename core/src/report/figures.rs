@@ -57,6 +57,9 @@ pub struct Series {
     /// A slope per x unit to draw as a straight line through the mean point, when a trend
     /// test gave one (a least-squares line passes through the mean of its points).
     pub slope: Option<f64>,
+    /// 95 % intervals to draw as vertical bars: (x, low, high), high may be +∞ (drawn to the
+    /// top edge with an arrow).
+    pub intervals: Vec<(f64, f64, f64)>,
 }
 
 /// What a chart shows.
@@ -84,19 +87,12 @@ pub enum Figure {
         /// Y axis from 0 (proportions) rather than fitted to the data.
         y_from_zero: bool,
     },
-    /// A square matrix of values between populations (lower triangle shown).
-    HeatMap {
-        /// Row and column labels.
-        labels: Vec<String>,
-        /// values[i][j]; the chart shows i > j.
-        values: Vec<Vec<Option<f64>>>,
-        /// What the values are.
-        value_label: String,
-    },
     /// Points (x, y) with a fitted line y = a + b·x, or y = a + b·ln x on a log x axis.
     Scatter {
         /// The points (x > 0 when `log_x`).
         points: Vec<(f64, f64)>,
+        /// A label per point (the population pair), drawn beside it when there are few points.
+        labels: Vec<String>,
         /// Intercept a and slope b of the fitted line, when a test gave them.
         fit: Option<(f64, f64)>,
         /// Logarithmic x axis, the line in ln x.
@@ -123,9 +119,8 @@ pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
             Figure::Lines { series, x_label, y_label, log_y, y_from_zero } => {
                 draw_lines(&root, series, x_label, y_label, *log_y, *y_from_zero)
             }
-            Figure::HeatMap { labels, values, value_label } => draw_heat_map(&root, labels, values, value_label),
-            Figure::Scatter { points, fit, log_x, x_label, y_label } => {
-                draw_scatter(&root, points, *fit, *log_x, x_label, y_label)
+            Figure::Scatter { points, labels, fit, log_x, x_label, y_label } => {
+                draw_scatter(&root, points, labels, *fit, *log_x, x_label, y_label)
             }
         });
         drawn
@@ -133,6 +128,24 @@ pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
             .map_err(|message| FigureError { figure: name.into(), message })?;
     }
     Ok(svg)
+}
+
+impl Figure {
+    /// How many data marks the chart draws: one per estimate or point, an infinite estimate
+    /// included (it is drawn as ∞ at the top edge). `assessment.json` records it with the
+    /// chart, so that a reader, and the tests, can check that no row of the table behind it
+    /// was dropped.
+    pub fn marks(&self) -> usize {
+        match self {
+            Figure::IntervalsAgainstThresholds { points, .. } => points.iter().filter(|p| !p.value.is_nan()).count(),
+            Figure::Lines { series, .. } => {
+                series.iter().map(|s| s.points.iter().filter(|p| !p.1.is_nan()).count()).sum()
+            }
+            Figure::Scatter { points, log_x, .. } => {
+                points.iter().filter(|p| p.0.is_finite() && p.1.is_finite() && (!log_x || p.0 > 0.0)).count()
+            }
+        }
+    }
 }
 
 type Area<'a> = DrawingArea<SVGBackend<'a>, Shift>;
@@ -209,20 +222,25 @@ where
     root.draw(&Text::new(text.to_string(), (px, py + 8), style)).map_err(|e| e.to_string())
 }
 
-/// A label right-aligned beside a y position, left of the plotting area.
-fn label_left<'a, Y>(root: &Area<'a>, chart: &NumericChart<'_, 'a, Y>, x: f64, y: f64, text: &str) -> Result<(), String>
-where
-    Y: Ranged<ValueType = f64>,
-{
-    let (px, py) = chart.backend_coord(&(x, y));
-    let style = font(15.0).pos(Pos::new(HPos::Right, VPos::Center));
-    root.draw(&Text::new(text.to_string(), (px - 8, py), style)).map_err(|e| e.to_string())
-}
-
 fn draw_intervals(root: &Area<'_>, points: &[IntervalPoint], thresholds: &[f64], y_label: &str) -> Result<(), String> {
     let all = points.iter().flat_map(|p| [Some(p.value), p.low, p.high]).flatten().chain(thresholds.iter().copied());
     let (low, high) = log_bounds(all);
     let count = points.len().max(1) as f64;
+    let (plot, key) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
+    let open = points.iter().any(|p| p.high == Some(f64::INFINITY) && p.value.is_finite());
+    let infinite = points.iter().any(|p| p.value == f64::INFINITY);
+    let mut entries = vec![KeyEntry::Marker("estimate".into()), KeyEntry::Bar("95 % interval".into())];
+    if open {
+        entries.push(KeyEntry::Arrow("no finite upper bound".into()));
+    }
+    if infinite {
+        entries.push(KeyEntry::Infinite("estimate ∞".into()));
+    }
+    if !thresholds.is_empty() {
+        entries.push(KeyEntry::Dashed("threshold".into()));
+    }
+    draw_key(&key, &entries, 30)?;
+    let root = &plot;
     let mut chart = ChartBuilder::on(root)
         .margin(14)
         .margin_right(24)
@@ -272,6 +290,13 @@ fn draw_intervals(root: &Area<'_>, points: &[IntervalPoint], thresholds: &[f64],
                     14,
                 )))
                 .map_err(|e| e.to_string())?;
+            if hi == f64::INFINITY && point.value.is_finite() {
+                chart
+                    .draw_series(std::iter::once(
+                        EmptyElement::at((x, high)) + TriangleMarker::new((0, 2), 7, colour(point.style).filled()),
+                    ))
+                    .map_err(|e| e.to_string())?;
+            }
         }
         if point.value.is_finite() {
             draw_markers!(chart, [(x, clamp(point.value))], point.style)?;
@@ -309,9 +334,28 @@ fn draw_lines(
     y_from_zero: bool,
 ) -> Result<(), String> {
     let (plot, key) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
-    draw_legend(&key, series)?;
+    let patterned = series.iter().all(|s| s.slope.is_none());
+    draw_legend(&key, series, patterned)?;
+    let mut entries = Vec::new();
+    if series.iter().any(|s| !s.intervals.is_empty()) {
+        entries.push(KeyEntry::Bar("95 % interval".into()));
+    }
+    if series.iter().any(|s| s.intervals.iter().any(|i| i.2 == f64::INFINITY)) {
+        entries.push(KeyEntry::Arrow("no finite upper bound".into()));
+    }
+    if series.iter().any(|s| s.points.iter().any(|p| p.1 == f64::INFINITY)) {
+        entries.push(KeyEntry::Infinite("estimate ∞".into()));
+    }
+    if series.iter().any(|s| s.slope.is_some()) {
+        entries.push(KeyEntry::Dashed("least-squares trend".into()));
+    }
+    draw_key(&key, &entries, 30 + series.len() as i32 * 26 + 16)?;
     let xs: Vec<f64> = series.iter().flat_map(|s| s.points.iter().map(|p| p.0)).collect();
-    let ys: Vec<f64> = series.iter().flat_map(|s| s.points.iter().map(|p| p.1)).filter(|y| y.is_finite()).collect();
+    let ys: Vec<f64> = series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p.1).chain(s.intervals.iter().flat_map(|i| [i.1, i.2])))
+        .filter(|y| y.is_finite())
+        .collect();
     let (x_min, x_max) = padded(&xs, 0.04);
     if log_y {
         let (y_min, y_max) = log_bounds(ys.iter().copied());
@@ -322,7 +366,7 @@ fn draw_lines(
             .build_cartesian_2d(x_min..x_max, (y_min..y_max).log_scale())
             .map_err(|e| e.to_string())?;
         configure_numeric(&mut chart, x_label, y_label, &|v| plain_number(*v))?;
-        draw_series_set(&mut chart, series, |y| y.clamp(y_min, y_max))
+        draw_series_set(&mut chart, series, |y| y.clamp(y_min, y_max), patterned, x_max - x_min)
     } else {
         let (mut y_min, y_max) = padded(&ys, 0.12);
         if y_from_zero {
@@ -336,16 +380,119 @@ fn draw_lines(
             .build_cartesian_2d(x_min..x_max, y_min..y_max)
             .map_err(|e| e.to_string())?;
         configure_numeric(&mut chart, x_label, y_label, &|v| format!("{v:.decimals$}"))?;
-        draw_series_set(&mut chart, series, |y| y)
+        draw_series_set(&mut chart, series, |y| y.clamp(y_min, y_max), patterned, x_max - x_min)
     }
 }
 
-/// The legend: one line with the population's colour and marker and its name per series.
-fn draw_legend(area: &Area<'_>, series: &[Series]) -> Result<(), String> {
+/// Dash and gap lengths of a population's line when lines are told apart by pattern
+/// (`None`: solid).
+fn dash_pattern(style: usize) -> Option<(u32, u32)> {
+    match style % 4 {
+        0 => None,
+        1 => Some((14, 6)),
+        2 => Some((4, 4)),
+        _ => Some((22, 5)),
+    }
+}
+
+/// A line from `from` to `to` in the population's colour, solid or in its dash pattern.
+fn pattern_line(
+    area: &Area<'_>,
+    from: (i32, i32),
+    to: (i32, i32),
+    style: usize,
+    patterned: bool,
+) -> Result<(), String> {
+    let stroke = colour(style).stroke_width(2);
+    match dash_pattern(style).filter(|_| patterned) {
+        None => area.draw(&PathElement::new(vec![from, to], stroke)).map_err(|e| e.to_string()),
+        Some((dash, gap)) => {
+            let mut x = from.0;
+            while x < to.0 {
+                let end = (x + dash as i32).min(to.0);
+                area.draw(&PathElement::new(vec![(x, from.1), (end, to.1)], stroke)).map_err(|e| e.to_string())?;
+                x = end + gap as i32;
+            }
+            Ok(())
+        }
+    }
+}
+
+/// One entry of a chart's key besides the populations.
+enum KeyEntry {
+    /// A population marker (grey): an estimate.
+    Marker(String),
+    /// A vertical bar: an interval.
+    Bar(String),
+    /// An arrow at the top edge: an interval open above.
+    Arrow(String),
+    /// The ∞ sign at the top edge: an infinite estimate.
+    Infinite(String),
+    /// A grey dashed line: a threshold or a trend.
+    Dashed(String),
+    /// A solid line in a palette colour: a fitted line.
+    Line(usize, String),
+}
+
+/// Draws the key entries from height `top` down.
+fn draw_key(area: &Area<'_>, entries: &[KeyEntry], top: i32) -> Result<(), String> {
+    let grey = RGBColor(90, 90, 90);
+    let text = |label: &str, y: i32| {
+        area.draw(&Text::new(label.to_string(), (44, y), font(14.0).pos(Pos::new(HPos::Left, VPos::Center))))
+            .map_err(|e| e.to_string())
+    };
+    for (index, entry) in entries.iter().enumerate() {
+        let y = top + index as i32 * 24;
+        let drawn = match entry {
+            KeyEntry::Marker(label) => {
+                area.draw(&(EmptyElement::at((20, y)) + Circle::new((0, 0), 5, grey.filled())))
+                    .map_err(|e| e.to_string())?;
+                label
+            }
+            KeyEntry::Bar(label) => {
+                area.draw(&PathElement::new(vec![(20, y - 9), (20, y + 9)], grey.stroke_width(2)))
+                    .map_err(|e| e.to_string())?;
+                area.draw(&PathElement::new(vec![(14, y - 9), (26, y - 9)], grey.stroke_width(2)))
+                    .map_err(|e| e.to_string())?;
+                area.draw(&PathElement::new(vec![(14, y + 9), (26, y + 9)], grey.stroke_width(2)))
+                    .map_err(|e| e.to_string())?;
+                label
+            }
+            KeyEntry::Arrow(label) => {
+                area.draw(&(EmptyElement::at((20, y)) + TriangleMarker::new((0, 0), 7, grey.filled())))
+                    .map_err(|e| e.to_string())?;
+                label
+            }
+            KeyEntry::Infinite(label) => {
+                area.draw(&Text::new("∞", (20, y), font(20.0).color(&grey).pos(Pos::new(HPos::Center, VPos::Center))))
+                    .map_err(|e| e.to_string())?;
+                label
+            }
+            KeyEntry::Line(style, label) => {
+                area.draw(&PathElement::new(vec![(4, y), (36, y)], colour(*style).stroke_width(2)))
+                    .map_err(|e| e.to_string())?;
+                label
+            }
+            KeyEntry::Dashed(label) => {
+                for x in [4, 18] {
+                    area.draw(&PathElement::new(vec![(x, y), (x + 10, y)], grey.stroke_width(2)))
+                        .map_err(|e| e.to_string())?;
+                }
+                label
+            }
+        };
+        text(drawn, y)?;
+    }
+    Ok(())
+}
+
+/// The legend: one line with the population's colour, line pattern and marker and its name
+/// per series.
+fn draw_legend(area: &Area<'_>, series: &[Series], patterned: bool) -> Result<(), String> {
     for (index, s) in series.iter().enumerate() {
         let y = 30 + index as i32 * 26;
         let style = colour(s.style);
-        area.draw(&PathElement::new(vec![(4, y), (36, y)], style.stroke_width(2))).map_err(|e| e.to_string())?;
+        pattern_line(area, (4, y), (36, y), s.style, patterned)?;
         let fill = style.filled();
         let at = (20, y);
         match marker_shape(s.style) {
@@ -408,20 +555,59 @@ fn draw_series_set<'a, 'b: 'a, Y>(
     chart: &mut NumericChart<'a, 'b, Y>,
     series: &[Series],
     clamp: impl Fn(f64) -> f64,
+    patterned: bool,
+    x_span: f64,
 ) -> Result<(), String>
 where
     Y: Ranged<ValueType = f64>,
 {
-    for s in series {
+    let count = series.len();
+    for (index, s) in series.iter().enumerate() {
         let finite: Vec<(f64, f64)> = s.points.iter().copied().filter(|p| p.1.is_finite()).collect();
         let style = colour(s.style);
         let width = if s.slope.is_some() { 1 } else { 2 };
-        chart
-            .draw_series(LineSeries::new(finite.iter().map(|&(x, y)| (x, clamp(y))), style.stroke_width(width)))
-            .map_err(|e| e.to_string())?;
-        // Dense curves (projections) are clearer without a marker at every point.
+        let line = finite.iter().map(|&(x, y)| (x, clamp(y)));
+        match dash_pattern(s.style).filter(|_| patterned) {
+            None => chart.draw_series(LineSeries::new(line, style.stroke_width(width))).map(|_| ()),
+            Some((dash, gap)) => {
+                chart.draw_series(DashedLineSeries::new(line, dash, gap, style.stroke_width(width))).map(|_| ())
+            }
+        }
+        .map_err(|e| e.to_string())?;
+        // Intervals of several populations at one x are set side by side, a little apart.
+        let shift = if count > 1 { (index as f64 - (count - 1) as f64 / 2.0) * x_span * 0.02 } else { 0.0 };
+        for &(x, lo, hi) in &s.intervals {
+            let middle = s.points.iter().find(|p| p.0 == x).map_or(lo, |p| p.1);
+            chart
+                .draw_series(std::iter::once(ErrorBar::new_vertical(
+                    x + shift,
+                    clamp(lo),
+                    clamp(middle),
+                    clamp(hi),
+                    style.stroke_width(1),
+                    8,
+                )))
+                .map_err(|e| e.to_string())?;
+            if hi == f64::INFINITY {
+                chart
+                    .draw_series(std::iter::once(
+                        EmptyElement::at((x + shift, clamp(hi))) + TriangleMarker::new((0, 2), 5, style.filled()),
+                    ))
+                    .map_err(|e| e.to_string())?;
+            }
+        }
+        // Dense curves (projections) carry a marker at a few points, staggered between
+        // populations so that lines lying on top of each other are still told apart.
         if finite.len() <= 12 {
             draw_markers!(chart, finite.iter().map(|&(x, y)| (x, clamp(y))), s.style)?;
+        } else {
+            let every = finite.len() / 5;
+            let offset = (index * every / count.max(1)).min(every.saturating_sub(1));
+            draw_markers!(
+                chart,
+                finite.iter().skip(offset).step_by(every.max(1)).map(|&(x, y)| (x, clamp(y))),
+                s.style
+            )?;
         }
         // An infinite estimate (a log axis clamps it to the top edge) is marked there with "∞",
         // never left out and never joined to the line.
@@ -461,89 +647,32 @@ fn mean_point(points: &[(f64, f64)]) -> Option<(f64, f64)> {
     Some((points.iter().map(|p| p.0).sum::<f64>() / n, points.iter().map(|p| p.1).sum::<f64>() / n))
 }
 
-/// The lower triangle without its empty first row and last column: rows are populations 2…n,
-/// columns populations 1…n−1.
-fn draw_heat_map(
-    root: &Area<'_>,
-    labels: &[String],
-    values: &[Vec<Option<f64>>],
-    value_label: &str,
-) -> Result<(), String> {
-    let size = labels.len().saturating_sub(1).max(1) as f64;
-    let max = values.iter().flatten().flatten().copied().filter(|v| v.is_finite()).fold(0.0_f64, f64::max);
-    let (plot, key) = root.split_horizontally(SIZE.0 - 150);
-    let mut chart = ChartBuilder::on(&plot)
-        .margin(14)
-        .x_label_area_size(44)
-        .y_label_area_size(120)
-        .build_cartesian_2d(0.0..size, 0.0..size)
-        .map_err(|e| e.to_string())?;
-    chart
-        .configure_mesh()
-        .disable_mesh()
-        .x_labels(0)
-        .y_labels(0)
-        .x_label_formatter(&|_| String::new())
-        .y_label_formatter(&|_| String::new())
-        .draw()
-        .map_err(|e| e.to_string())?;
-    for (column, label) in labels.iter().enumerate().take(labels.len().saturating_sub(1)) {
-        label_below(&plot, &chart, column as f64 + 0.5, 0.0, label)?;
+/// Round values 1, 2, 5 × 10ᵏ within [low, high], for the ticks of a logarithmic axis.
+fn round_log_ticks(low: f64, high: f64) -> Vec<f64> {
+    if !(low > 0.0 && high > low) {
+        return Vec::new();
     }
-    for (row, label) in labels.iter().enumerate().skip(1) {
-        // Row i (i ≥ 1) is drawn from the top: y runs from size − i to size − i + 1.
-        label_left(&plot, &chart, 0.0, size - row as f64 + 0.5, label)?;
-    }
-    let centred = font(15.0).pos(Pos::new(HPos::Center, VPos::Center));
-    for (i, row) in values.iter().enumerate().skip(1) {
-        for (j, value) in row.iter().enumerate().take(i) {
-            let Some(value) = value.filter(|v| v.is_finite()) else { continue };
-            let shade = if max > 0.0 { (value / max).clamp(0.0, 1.0) } else { 0.0 };
-            let (x, y) = (j as f64, size - i as f64);
-            chart
-                .draw_series(std::iter::once(Rectangle::new([(x, y + 1.0), (x + 1.0, y)], heat_colour(shade).filled())))
-                .map_err(|e| e.to_string())?;
-            let text_colour = if shade > 0.55 { WHITE } else { BLACK };
-            chart
-                .draw_series(std::iter::once(Text::new(
-                    format!("{value:.3}"),
-                    (x + 0.5, y + 0.5),
-                    centred.clone().color(&text_colour),
-                )))
-                .map_err(|e| e.to_string())?;
+    let mut ticks = Vec::new();
+    let mut decade = 10f64.powf(low.log10().floor());
+    while decade <= high {
+        for m in [1.0, 2.0, 5.0] {
+            let v = m * decade;
+            if v >= low && v <= high {
+                ticks.push(v);
+            }
         }
+        decade *= 10.0;
     }
-    draw_heat_key(&key, max, value_label)
+    ticks
 }
 
-/// White → dark blue.
-fn heat_colour(shade: f64) -> RGBColor {
-    let mix = |light: f64, dark: f64| (light + (dark - light) * shade).round() as u8;
-    RGBColor(mix(255.0, 8.0), mix(255.0, 48.0), mix(255.0, 107.0))
-}
-
-fn draw_heat_key(area: &Area<'_>, max: f64, value_label: &str) -> Result<(), String> {
-    let steps = 40;
-    let (top, bottom, left) = (40, SIZE.1 as i32 - 70, 20);
-    let height = bottom - top;
-    for k in 0..steps {
-        let shade = 1.0 - k as f64 / (steps - 1) as f64;
-        let y0 = top + height * k / steps;
-        let y1 = top + height * (k + 1) / steps;
-        area.draw(&Rectangle::new([(left, y0), (left + 22, y1)], heat_colour(shade).filled()))
-            .map_err(|e| e.to_string())?;
-    }
-    area.draw(&Rectangle::new([(left, top), (left + 22, bottom)], BLACK.stroke_width(1))).map_err(|e| e.to_string())?;
-    let beside = |y: i32| (left + 30, y);
-    let style = font(14.0).pos(Pos::new(HPos::Left, VPos::Center));
-    area.draw(&Text::new(format!("{max:.3}"), beside(top), style.clone())).map_err(|e| e.to_string())?;
-    area.draw(&Text::new("0", beside(bottom), style)).map_err(|e| e.to_string())?;
-    area.draw(&Text::new(value_label.to_string(), (left, bottom + 16), font(15.0))).map_err(|e| e.to_string())
-}
+/// Most point labels a scatter draws beside its points; with more they would hide the points.
+const MAX_POINT_LABELS: usize = 15;
 
 fn draw_scatter(
     root: &Area<'_>,
     points: &[(f64, f64)],
+    labels: &[String],
     fit: Option<(f64, f64)>,
     log_x: bool,
     x_label: &str,
@@ -551,12 +680,21 @@ fn draw_scatter(
 ) -> Result<(), String> {
     // A logarithmic x axis is drawn as ln x on a linear axis whose labels show x itself, so
     // that short ranges (less than a decade) still get several labels.
+    let (plot, key) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
+    let mut entries = vec![KeyEntry::Marker("population pair".into())];
+    if fit.is_some() {
+        entries.push(KeyEntry::Line(1, "least-squares fit".into()));
+    }
+    draw_key(&key, &entries, 30)?;
+    let root = &plot;
     let to_axis = |x: f64| if log_x { x.ln() } else { x };
     let placed: Vec<(f64, f64)> = points.iter().map(|&(x, y)| (to_axis(x), y)).collect();
     let (x_low, x_high) = padded(&placed.iter().map(|p| p.0).collect::<Vec<_>>(), 0.06);
     let (y_min, y_max) = padded(&placed.iter().map(|p| p.1).collect::<Vec<_>>(), 0.12);
     let decimals = decimals_for(y_max - y_min);
     let x_text = |v: &f64| if log_x { plain_number(v.exp()) } else { plain_number(*v) };
+    let ticks = if log_x { round_log_ticks(x_low.exp(), x_high.exp()) } else { Vec::new() };
+    let custom_ticks = ticks.len() >= 2;
     let mut chart = ChartBuilder::on(root)
         .margin(14)
         .margin_right(24)
@@ -568,9 +706,9 @@ fn draw_scatter(
         .configure_mesh()
         .light_line_style(WHITE)
         .bold_line_style(RGBColor(225, 225, 225))
-        .x_labels(8)
+        .x_labels(if custom_ticks { 0 } else { 8 })
         .y_labels(6)
-        .x_label_formatter(&x_text)
+        .x_label_formatter(&|v| if custom_ticks { String::new() } else { x_text(v) })
         .y_label_formatter(&|v| format!("{v:.decimals$}"))
         .x_desc(x_label)
         .y_desc(y_label)
@@ -578,7 +716,27 @@ fn draw_scatter(
         .axis_desc_style(font(16.0))
         .draw()
         .map_err(|e| e.to_string())?;
+    if custom_ticks {
+        for tick in &ticks {
+            let x = tick.ln();
+            chart
+                .draw_series(std::iter::once(PathElement::new(vec![(x, y_min), (x, y_max)], RGBColor(225, 225, 225))))
+                .map_err(|e| e.to_string())?;
+            label_below(root, &chart, x, y_min, &plain_number(*tick))?;
+        }
+    }
     draw_markers!(chart, placed.iter().copied(), 0)?;
+    if placed.len() <= MAX_POINT_LABELS {
+        // Labels of points in the right half run leftwards, so that none is cut at the edge.
+        let middle = (x_low + x_high) / 2.0;
+        for (point, label) in placed.iter().zip(labels) {
+            let (anchor, dx) = if point.0 > middle { (HPos::Right, -7) } else { (HPos::Left, 7) };
+            let style = font(12.0).color(&RGBColor(60, 60, 60)).pos(Pos::new(anchor, VPos::Bottom));
+            chart
+                .draw_series(std::iter::once(EmptyElement::at(*point) + Text::new(label.clone(), (dx, -4), style)))
+                .map_err(|e| e.to_string())?;
+        }
+    }
     if let Some((intercept, slope)) = fit {
         let first = placed.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
         let last = placed.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
@@ -603,12 +761,14 @@ mod tests {
                     style: 0,
                     points: vec![(2018.0, 0.61), (2021.0, 0.60), (2024.0, 0.57)],
                     slope: Some(-0.0065),
+                    intervals: vec![],
                 },
                 Series {
                     name: "South & <co>".into(),
                     style: 1,
                     points: vec![(2018.0, 0.70), (2024.0, 0.71)],
                     slope: None,
+                    intervals: vec![],
                 },
             ],
             x_label: "Year".into(),
@@ -643,19 +803,15 @@ mod tests {
             thresholds: vec![50.0, 500.0],
             y_label: "Ne".into(),
         };
-        let heat = Figure::HeatMap {
-            labels: vec!["A".into(), "B".into(), "C".into()],
-            values: vec![vec![None, None, None], vec![Some(0.05), None, None], vec![Some(0.1), Some(0.02), None]],
-            value_label: "FST".into(),
-        };
         let scatter = Figure::Scatter {
             points: vec![(10.0, 0.01), (30.0, 0.04), (50.0, 0.05)],
+            labels: vec!["A–B".into(), "A–C".into(), "B–C".into()],
             fit: Some((-0.05, 0.025)),
             log_x: true,
             x_label: "km".into(),
             y_label: "FST/(1−FST)".into(),
         };
-        for (name, figure) in [("ne", intervals), ("fst", heat), ("ibd", scatter)] {
+        for (name, figure) in [("ne", intervals), ("ibd", scatter)] {
             let svg = render(name, &figure).unwrap();
             assert!(svg.contains("</svg>"), "{name}");
         }
@@ -669,6 +825,7 @@ mod tests {
                 style: 0,
                 points: vec![(2018.0, 120.0), (2021.0, 90.0), (2024.0, last)],
                 slope: None,
+                intervals: vec![(2018.0, 60.0, 400.0), (2024.0, 70.0, f64::INFINITY)],
             }],
             x_label: "Sampling year".into(),
             y_label: "Ne (LD)".into(),

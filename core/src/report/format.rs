@@ -220,6 +220,9 @@ pub fn ne_preference(prefer: &[&str]) -> String {
             "ld" => "the linkage-disequilibrium method (alleles seen once left out when the harmonic-mean sample \
                      size S is 25 or less, alleles rarer than Pcrit = 0.02 left out above; Waples & Do 2010)"
                 .to_string(),
+            "temporal" => "the temporal method (Fs, the standardized variance of the change in allele frequencies \
+                           between two samples, corrected for sampling; Jorde & Ryman 2007)"
+                .to_string(),
             other => format!("the {}", ne_method(other)),
         })
         .collect();

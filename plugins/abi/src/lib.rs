@@ -72,6 +72,8 @@ pub use representative::{
     CriterionReason, IntervalKind, LdChoice, LdCriterion, NeKind, NeSource, NeSourceError, RepresentativeNe,
     estimated_groups, ne_columns, ne_steps, representative_ne,
 };
-pub use step::{AssessmentInfo, PopulationInfo, Seed, Step, StepContext, StepError, StepResult, StepStatus};
+pub use step::{
+    AssessmentInfo, Cohorts, PopulationInfo, SamplingInfo, Seed, Step, StepContext, StepError, StepResult, StepStatus,
+};
 pub use suggest::did_you_mean;
 pub use table_row::TableRow;

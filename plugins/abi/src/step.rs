@@ -63,6 +63,38 @@ pub struct PopulationInfo {
     pub area_km2: Option<f64>,
 }
 
+/// Whether a sample holds one cohort (animals born in the same breeding season) or several.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
+#[serde(rename_all = "lowercase")]
+pub enum Cohorts {
+    /// One cohort: an LD estimate then describes the effective number of breeders that
+    /// produced it (Nb), not Ne per generation.
+    Single,
+    /// Animals of several ages, as with overlapping generations.
+    Mixed,
+}
+
+/// How the animals were sampled: the recipe's optional `[sampling]` table. Every field is
+/// optional; the document says "not stated" for a missing one.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
+#[serde(deny_unknown_fields)]
+pub struct SamplingInfo {
+    /// Life stage sampled, in words (`adults at breeding ponds`, `larvae`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub life_stage: Option<String>,
+    /// Tissue taken (`tail tip`, `buccal swab`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tissue: Option<String>,
+    /// Whether sampling killed the animals.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lethal: Option<bool>,
+    /// One cohort or mixed ages per sample.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cohorts: Option<Cohorts>,
+}
+
 /// The assessment's own facts from the recipe, as steps and the report see them.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
@@ -81,6 +113,12 @@ pub struct AssessmentInfo {
     /// Generation time in years, when given.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub generation_time_years: Option<f64>,
+    /// Where the generation time comes from (a reference or a note), when given.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub generation_time_source: Option<String>,
+    /// How the animals were sampled (`[sampling]` of the recipe), when the recipe says.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sampling: Option<SamplingInfo>,
     /// Master seed.
     pub seed: u64,
     /// Ne thresholds, ascending.
@@ -144,7 +182,6 @@ impl StepResult {
         }
     }
 }
-
 
 /// Everything a step is given: a read-only view of the data in play, its resolved parameters,
 /// its seed, the results of earlier steps and the assessment facts.

@@ -198,17 +198,8 @@ pub(crate) fn data_section(ctx: &Context<'_>, extras: &mut Extras) -> DataSectio
         doc.steps.iter().flat_map(|s| s.exclusions.loci.iter().map(|e| e.name.as_str())).collect();
     let mut exclusions = exclusions_table(&doc.steps, validate);
     let exclusions_more = extras.overflow(&mut exclusions, "Exclusions (continued)".into(), RESULTS_FILE.into());
-    let mut findings: Vec<(String, &Finding)> = doc
-        .data
-        .findings
-        .iter()
-        .map(|f| ("input".to_string(), f))
-        .chain(doc.steps.iter().flat_map(|s| s.findings.iter().map(move |f| (s.id.clone(), f))))
-        .collect();
-    // A reader's finding that a step repeats (validate reports the bad cells it was given) is
-    // one finding for the reader of the document: counted and listed once, under its first source.
-    let mut seen = BTreeSet::new();
-    findings.retain(|(_, f)| seen.insert((f.level, f.code.clone(), f.message.clone(), where_text(&f.location))));
+    // A reader's finding that a step repeats is counted and listed once, as on the command line.
+    let findings: Vec<(String, &Finding)> = doc.distinct_findings();
     let count = |level| findings.iter().filter(|(_, f)| f.level == level).count();
     let serious: Vec<&(String, &Finding)> = findings.iter().filter(|(_, f)| f.level >= FindingLevel::Warning).collect();
     let mut body_findings = findings_table(serious.iter().copied());
@@ -527,7 +518,13 @@ fn series_by_population(
         .into_iter()
         .map(|(name, mut points)| {
             points.sort_by(|a, b| a.0.total_cmp(&b.0));
-            Series { style: ctx.style_of(&name), slope: slopes.get(&name).copied(), name, points }
+            Series {
+                style: ctx.style_of(&name),
+                slope: slopes.get(&name).copied(),
+                name,
+                points,
+                intervals: Vec::new(),
+            }
         })
         .collect()
 }
@@ -607,7 +604,7 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
     let step = ctx.results.step(uses::DIFFERENTIATION)?;
     let pairwise = table_of(step, table::PAIRWISE);
     let (matrix, matrix_years) = match &pairwise {
-        Some(p) => fst_matrix(ctx, p, extras),
+        Some(p) => fst_matrix(ctx, p),
         None => (None, String::new()),
     };
     let global = table_of(step, table::GLOBAL).and_then(|g| {
@@ -646,7 +643,7 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
 
 /// The FST matrix of the pooled rows (year `null`), or of the latest year when every row has
 /// one; FST below the diagonal, permutation p above.
-fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (Option<HeatTable>, String) {
+fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>) -> (Option<HeatTable>, String) {
     let pooled: Vec<Row<'_>> = pairwise.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
     let (rows, years) = if pooled.is_empty() {
         let latest = pairwise.iter().filter_map(|r| r.int(col::YEAR)).max();
@@ -697,17 +694,6 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>, extras: &mut Extras) -> (O
                 .collect()
         })
         .collect();
-    let alt = format!(
-        "Heat map of pairwise FST between {} populations ({}); darker cells are more differentiated, the largest value is {}.",
-        names.len(),
-        years,
-        format::fixed(max, 3)
-    );
-    extras.figure(
-        "fst-heatmap",
-        Figure::HeatMap { labels: names.clone(), values: fst, value_label: "FST".into() },
-        alt,
-    );
     (Some(HeatTable { labels: names, cells, max: format::fixed(max, 3) }), years)
 }
 
@@ -746,14 +732,21 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
     let (Some(x), Some(y)) = (x, y) else { return };
     let pooled: Vec<Row<'_>> = ibd.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
     let rows = if pooled.is_empty() { ibd.iter().collect() } else { pooled };
-    let points: Vec<(f64, f64)> = rows
+    let labelled: Vec<(f64, f64, String)> = rows
         .iter()
-        .filter_map(|r| Some((r.num(x)?, r.num(y)?)))
+        .filter_map(|r| {
+            let pair =
+                format!("{}–{}", r.label(col::POP_A).unwrap_or_default(), r.label(col::POP_B).unwrap_or_default());
+            Some((r.num(x)?, r.num(y)?, pair))
+        })
         .filter(|p| p.0.is_finite() && p.0 > 0.0 && p.1.is_finite())
         .collect();
-    if points.len() < 3 {
+    let left_out = rows.len() - labelled.len();
+    if labelled.len() < 3 {
         return;
     }
+    let points: Vec<(f64, f64)> = labelled.iter().map(|p| (p.0, p.1)).collect();
+    let labels: Vec<String> = labelled.into_iter().map(|p| p.2).collect();
     // The test regresses on ln(distance) (Rousset 1997), so the chart's distance axis is
     // logarithmic and the fitted line straight on it.
     let test_row = test.and_then(|t| t.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| t.iter().next()));
@@ -761,8 +754,18 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
     let x_label =
         if x.contains("km") { "Geographic distance (km, logarithmic axis)".to_string() } else { x.replace('_', " ") };
     let y_label = if y.contains("lin") { "FST/(1 − FST)".to_string() } else { y.replace('_', " ") };
-    let alt = format!("Isolation by distance: {y_label} against {x_label} for {} population pairs.", points.len());
-    extras.figure("ibd", Figure::Scatter { points, fit, log_x: x.contains("dist"), x_label, y_label }, alt);
+    let alt = format!(
+        "Isolation by distance: {y_label} against {x_label} for {} population pairs{}.",
+        points.len(),
+        if left_out > 0 {
+            format!(
+                " ({left_out} pair(s) without a positive distance or a finite value cannot be placed and are not drawn)"
+            )
+        } else {
+            String::new()
+        }
+    );
+    extras.figure("ibd", Figure::Scatter { points, labels, fit, log_x: x.contains("dist"), x_label, y_label }, alt);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -1013,14 +1016,25 @@ fn ne_over_years(ctx: &Context<'_>, extras: &mut Extras) {
     let Some(step) = ctx.results.step(uses::NE_LD) else { return };
     let ld_only = [NeSource::Ld(LdChoice::BySampleSize)];
     let slopes = trend_slopes(ctx, &format!("ne:{}", step.id));
-    let values = estimated_groups(step).into_iter().filter_map(|(population, year)| {
-        let chosen = representative_ne(std::slice::from_ref(step), &population, year, &ld_only)?;
-        Some((population, f64::from(year), Some(chosen.ne).filter(|v| !v.is_nan())?))
-    });
-    let series = series_by_population(ctx, values, &slopes);
+    let chosen: Vec<(String, f64, popgauge_abi::RepresentativeNe)> = estimated_groups(step)
+        .into_iter()
+        .filter_map(|(population, year)| {
+            let chosen = representative_ne(std::slice::from_ref(step), &population, year, &ld_only)?;
+            (!chosen.ne.is_nan()).then_some((population, f64::from(year), chosen))
+        })
+        .collect();
+    let values = chosen.iter().map(|(p, year, c)| (p.clone(), *year, c.ne));
+    let mut series = series_by_population(ctx, values, &slopes);
+    for s in &mut series {
+        s.intervals = chosen
+            .iter()
+            .filter(|(p, _, _)| *p == s.name)
+            .filter_map(|(_, year, c)| Some((*year, c.low?, c.high?)))
+            .collect();
+    }
     if series.iter().any(|s| s.points.len() >= 2) {
         let alt = format!(
-            "LD estimates of Ne per population and sampling year (step \"{}\") on a logarithmic axis; an infinite estimate is marked ∞ at the top edge.",
+            "LD estimates of Ne per population and sampling year (step \"{}\") with their 95 % intervals on a logarithmic axis; an infinite estimate is marked ∞ at the top edge, and an interval without a finite upper bound ends in an arrow there.",
             step.id
         );
         extras.figure(
@@ -1203,11 +1217,10 @@ mod tests {
     fn findings_with_other_reasons_codes_or_sources_stay_apart() {
         let mut findings: Vec<(String, Finding)> = vec![temporal_inf("A"), temporal_inf("B")];
         findings.push(("ne-ld".into(), findings[0].1.clone()));
-        findings.push((
-            "ne-temporal".into(),
-            Finding::warning("infinite-estimate", "C: another reason", Where::default()),
-        ));
-        findings.push(("ne-temporal".into(), Finding::info("infinite-estimate", "D: another reason", Where::default())));
+        findings
+            .push(("ne-temporal".into(), Finding::warning("infinite-estimate", "C: another reason", Where::default())));
+        findings
+            .push(("ne-temporal".into(), Finding::info("infinite-estimate", "D: another reason", Where::default())));
         findings.push(("ne-temporal".into(), Finding::warning("no-estimate", "E: another reason", Where::default())));
         let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
         let entries = grouped_findings(refs.iter());
@@ -1234,8 +1247,12 @@ mod tests {
 
     #[test]
     fn a_sentence_without_a_subject_is_never_merged() {
-        let sentence = |code: &str| Finding::info(code, "Estimates carry uncertainty. Read the intervals.", Where::default());
-        let findings = [("status".to_string(), sentence("decision-caution")), ("status".to_string(), sentence("decision-caution"))];
+        let sentence =
+            |code: &str| Finding::info(code, "Estimates carry uncertainty. Read the intervals.", Where::default());
+        let findings = [
+            ("status".to_string(), sentence("decision-caution")),
+            ("status".to_string(), sentence("decision-caution")),
+        ];
         let refs: Vec<(String, &Finding)> = findings.iter().map(|(s, f)| (s.clone(), f)).collect();
         assert_eq!(grouped_findings(refs.iter()).len(), 2);
     }

@@ -49,6 +49,10 @@ pub struct PopulationSummary {
     pub trend_detail: Option<String>,
     /// Projected drift over the horizon.
     pub drift: Option<DriftFacts>,
+    /// Census size with its year from the population sheet (`260 (2024)`), when given.
+    pub census: Option<String>,
+    /// The census year, when given.
+    pub census_year: Option<i32>,
 }
 
 /// Ne and category of one population.
@@ -145,6 +149,14 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
         .map(|name| {
             let status_row = status_rows.iter().find(|r| r.text(col::POPULATION) == Some(name.as_str()));
             let diversity_row = diversity_rows.iter().find(|r| r.text(col::POPULATION) == Some(name.as_str()));
+            let census = ctx
+                .results
+                .doc()
+                .assessment
+                .populations
+                .iter()
+                .find(|p| &p.population == name)
+                .and_then(|p| Some((p.census_size?, p.census_year)));
             PopulationSummary {
                 name: name.clone(),
                 status: status_row.map(|r| StatusFacts { low_precision: low_precision(ctx, r), ..status_facts(r) }),
@@ -152,6 +164,11 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
                 trend: he_trend(ctx, name),
                 trend_detail: he_trend_detail(ctx, name),
                 drift: status_row.and_then(drift_facts),
+                census: census.map(|(size, year)| match year {
+                    Some(year) => format!("{} ({year})", format::effective_size(size)),
+                    None => format::effective_size(size),
+                }),
+                census_year: census.and_then(|(_, year)| year),
             }
         })
         .collect();
@@ -351,6 +368,7 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
         ("Estimate", false),
         ("S", true),
         ("Category", false),
+        ("Nc (year)", true),
         ("Ne/Nc", true),
         ("Ho", true),
         ("He", true),
@@ -381,7 +399,8 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
             estimate.unwrap_or_else(undefined),
             status.and_then(|s| s.s.clone()).unwrap_or_else(undefined),
             status.map_or_else(undefined, |s| s.category.clone()),
-            status.and_then(|s| s.ne_nc.clone()).unwrap_or_else(undefined),
+            p.census.clone().unwrap_or_else(undefined),
+            ne_nc_cell(p),
             d.map_or_else(undefined, |d| d.ho.clone()),
             d.map_or_else(undefined, |d| d.he.clone()),
             d.map_or_else(undefined, |d| d.f.clone()),
@@ -390,6 +409,20 @@ fn status_table(populations: &[PopulationSummary]) -> TableData {
     }
     t.drop_empty_columns(&["Population", "Ho", "He", "F"]);
     t
+}
+
+/// Ne/Nc, or `—‡` when there is a census whose year differs from the year of the estimate
+/// (the ratio compares like with like only when the years match).
+fn ne_nc_cell(p: &PopulationSummary) -> String {
+    let status = p.status.as_ref();
+    if let Some(ratio) = status.and_then(|s| s.ne_nc.clone()) {
+        return ratio;
+    }
+    let estimate_year = status.and_then(|s| s.year.as_deref()).and_then(|y| y.parse::<i32>().ok());
+    match (p.census_year, estimate_year) {
+        (Some(census), Some(estimate)) if census != estimate => format!("{}‡", format::UNDEFINED),
+        _ => format::UNDEFINED.into(),
+    }
 }
 
 /// The rule by which the status step chose each population's Ne, in a sentence.
@@ -468,7 +501,7 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
                 .into_iter()
                 .map(|(name, mut points)| {
                     points.sort_by(|a, b| a.0.total_cmp(&b.0));
-                    Series { style: ctx.style_of(&name), name, points, slope: None }
+                    Series { style: ctx.style_of(&name), name, points, slope: None, intervals: Vec::new() }
                 })
                 .collect()
         }
@@ -492,6 +525,7 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
                         style: ctx.style_of(name),
                         points: points.collect(),
                         slope: None,
+                        intervals: Vec::new(),
                     })
                 })
                 .collect()

@@ -104,8 +104,8 @@ pub fn generic(rows: &Rows<'_>) -> TableData {
     }
 }
 
-/// Headings a reader of the body understands, for contract columns that body tables show
-/// through [`generic`] (the appendix keeps the contract names, which match the CSV files).
+/// Headings a reader understands, for contract columns shown through [`generic`] in the body
+/// and the appendix (the CSV files keep the contract names).
 const READABLE_HEADINGS: &[(&str, &str)] = &[
     ("threshold", "Threshold Ne"),
     ("populations", "Populations"),
@@ -143,17 +143,89 @@ const READABLE_HEADINGS: &[(&str, &str)] = &[
     ("change_low", "95 % CI low"),
     ("change_high", "95 % CI high"),
     ("replicates", "Bootstrap replicates"),
+    ("locus", "Locus"),
+    ("n", "n"),
+    ("alleles", "Alleles"),
+    ("ho", "Ho"),
+    ("he", "He"),
+    ("f", "F"),
+    ("fis", "FIS"),
+    ("fis_low", "FIS low"),
+    ("fis_high", "FIS high"),
+    ("effective_alleles", "Effective alleles"),
+    ("ar", "Ar"),
+    ("par", "PAr"),
+    ("rarefaction_copies", "Ar gene copies"),
+    ("par_rarefaction_copies", "PAr gene copies"),
+    ("method", "Method"),
+    ("draws", "Random tables"),
+    ("p_se", "p s.e."),
+    ("p_mid", "mid-p"),
+    ("p_deficit", "p (deficit)"),
+    ("p_excess", "p (excess)"),
+    ("q_value", "q"),
+    ("direction", "Direction"),
+    ("null_allele_r", "Null allele r"),
+    ("pop_a", "Population A"),
+    ("pop_b", "Population B"),
+    ("fst", "FST"),
+    ("fst_low", "FST low"),
+    ("fst_high", "FST high"),
+    ("fst_p", "FST p"),
+    ("gst", "GST"),
+    ("gst_p", "G′ST"),
+    ("hs", "HS"),
+    ("ht", "HT"),
+    ("distance_km", "Distance (km)"),
+    ("fst_linearised", "FST/(1 − FST)"),
+    ("n_a", "n A"),
+    ("n_b", "n B"),
+    ("s_start", "S first"),
+    ("s_end", "S second"),
+    ("jack_df", "df (jackknife)"),
+    ("resample_df", "df (resampling)"),
+    ("census_size", "Census size"),
+    ("plan", "Plan"),
+    ("pcrit", "Pcrit"),
+    ("s", "S"),
+    ("ne", "Ne"),
+    ("ne_low", "Ne low"),
+    ("ne_high", "Ne high"),
+    ("ne_param_low", "Ne low (parametric)"),
+    ("ne_param_high", "Ne high (parametric)"),
+    ("ne_jack_low", "Ne low (jackknife)"),
+    ("ne_jack_high", "Ne high (jackknife)"),
+    ("ne_resample_low", "Ne low (resampling)"),
+    ("ne_resample_high", "Ne high (resampling)"),
+    ("r2", "r²"),
+    ("r2_sample", "E(r²) sampling"),
+    ("r2_drift", "r² drift"),
+    ("pairs_used", "Locus pairs"),
+    ("comparisons", "Allele comparisons"),
+    ("generations", "Generations"),
+    ("ne_fs", "Ne (Fs)"),
+    ("ne_fc", "Ne (Fc)"),
+    ("ne_fk", "Ne (Fk)"),
+    ("fs", "Fs"),
+    ("fc", "Fc"),
+    ("fk", "Fk"),
 ];
+
+/// The heading a reader understands for a contract column (`gst_pp` → `G″ST`); a name not in
+/// [`READABLE_HEADINGS`] keeps its words, spaced at underscores.
+pub fn heading_for(column: &str) -> String {
+    READABLE_HEADINGS
+        .iter()
+        .find(|(name, _)| *name == column)
+        .map_or_else(|| column.replace('_', " "), |(_, label)| (*label).to_string())
+}
 
 /// [`generic`] with the readable headings of [`READABLE_HEADINGS`] (other columns keep their
 /// contract names, spaced at underscores), for tables shown in the body.
 pub fn readable(rows: &Rows<'_>) -> TableData {
     let mut data = generic(rows);
     for (heading, column) in data.columns.iter_mut().zip(&rows.table().columns) {
-        *heading = READABLE_HEADINGS
-            .iter()
-            .find(|(name, _)| name == column)
-            .map_or_else(|| column.replace('_', " "), |(_, label)| (*label).to_string());
+        *heading = heading_for(column);
     }
     data
 }
