@@ -266,8 +266,15 @@ pub struct Excerpt {
 /// How an appendix table is best set: on its side when it has many columns, in two columns
 /// when its rows are many and short.
 fn appendix_layout(table: &TableData) -> &'static str {
-    let widest_row =
-        table.rows.iter().map(|r| r.iter().map(|c| c.chars().count() + 2).sum::<usize>()).max().unwrap_or(0);
+    // A heading wraps at its spaces, so its longest word is what it needs at the least.
+    let heading_width = |h: &String| h.split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0);
+    let widths: Vec<usize> = (0..table.columns.len())
+        .map(|c| {
+            let cells = table.rows.iter().map(|r| r[c].chars().count()).max().unwrap_or(0);
+            cells.max(heading_width(&table.columns[c])) + 2
+        })
+        .collect();
+    let widest_row = widths.iter().sum::<usize>();
     if table.columns.len() > 14 {
         "landscape"
     } else if table.rows.len() > 30 && widest_row <= 64 {

@@ -308,6 +308,13 @@ pub fn style_for_column(name: &str) -> NumberStyle {
         "jost_d_high",
         "gst_pp_low",
         "gst_pp_high",
+        "gst",
+        "gst_p",
+        "hs",
+        "ht",
+        "fst_linearised",
+        "effective_alleles",
+        "null_allele_r",
         "ne_nc",
         "null_allele",
     ]) {
