@@ -28,9 +28,11 @@ pub mod uses {
     pub const TREND: &str = "trend";
     /// Thresholds and projections.
     pub const STATUS: &str = "status";
+    /// Inbreeding of individuals.
+    pub const INBREEDING: &str = "inbreeding";
     /// Every name above: a step with another `uses` is an additional analysis.
-    pub const KNOWN: [&str; 9] =
-        [VALIDATE, DIVERSITY, HWE, DIFFERENTIATION, NE_LD, NE_TEMPORAL, NE_HETX, TREND, STATUS];
+    pub const KNOWN: [&str; 10] =
+        [VALIDATE, DIVERSITY, HWE, DIFFERENTIATION, NE_LD, NE_TEMPORAL, NE_HETX, TREND, STATUS, INBREEDING];
 }
 
 /// Contract column names.

@@ -10,6 +10,7 @@
 //! bytes in `sys.inputs.data`, so user text (titles, population names, notes) is never
 //! spliced into Typst source and prints literally.
 
+mod inbreeding;
 mod methods_prose;
 mod ne_overview;
 mod quality;
@@ -77,6 +78,8 @@ pub struct ReportData {
     pub quality: Option<quality::QualitySection>,
     /// Diversity and inbreeding (`diversity`), when in the recipe.
     pub diversity: Option<sections::DiversitySection>,
+    /// Inbreeding of individuals (`inbreeding`), when in the recipe.
+    pub inbreeding: Option<inbreeding::InbreedingSection>,
     /// Hardy–Weinberg tests (`hwe`), when in the recipe.
     pub hwe: Option<sections::HweSection>,
     /// Differentiation (`differentiation`), when in the recipe.
@@ -401,6 +404,7 @@ pub fn build(source: &ReportSource<'_>) -> Built {
     let data_section = sections::data_section(&context, &mut extras);
     let quality = quality::quality_section(&context, &mut extras);
     let diversity = sections::diversity_section(&context, &mut extras);
+    let inbreeding = inbreeding::inbreeding_section(&context, &mut extras);
     let hwe = sections::hwe_section(&context, &mut extras);
     let differentiation = sections::differentiation_section(&context, &mut extras);
     let ne = sections::ne_section(&context, &mut extras);
@@ -427,6 +431,7 @@ pub fn build(source: &ReportSource<'_>) -> Built {
         data: data_section,
         quality,
         diversity,
+        inbreeding,
         hwe,
         differentiation,
         ne,

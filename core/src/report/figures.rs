@@ -62,6 +62,17 @@ pub struct Series {
     pub intervals: Vec<(f64, f64, f64)>,
 }
 
+/// One group's values for a strip chart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StripGroup {
+    /// Category label (`population year`): the last word goes on a second line.
+    pub label: String,
+    /// Colour and marker index of the population.
+    pub style: usize,
+    /// One value per animal.
+    pub values: Vec<f64>,
+}
+
 /// What a chart shows.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Figure {
@@ -86,6 +97,13 @@ pub enum Figure {
         log_y: bool,
         /// Y axis from 0 (proportions) rather than fitted to the data.
         y_from_zero: bool,
+    },
+    /// Every value of each group as a point, with the group mean as a bar.
+    Strip {
+        /// The groups, left to right.
+        groups: Vec<StripGroup>,
+        /// Y axis title.
+        y_label: String,
     },
     /// Points (x, y) with a fitted line y = a + b·x, or y = a + b·ln x on a log x axis.
     Scatter {
@@ -122,6 +140,7 @@ pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
             Figure::Scatter { points, labels, fit, log_x, x_label, y_label } => {
                 draw_scatter(&root, points, labels, *fit, *log_x, x_label, y_label)
             }
+            Figure::Strip { groups, y_label } => draw_strip(&root, groups, y_label),
         });
         drawn
             .and_then(|()| root.present().map_err(|e| e.to_string()))
@@ -141,6 +160,7 @@ impl Figure {
             Figure::Lines { series, .. } => {
                 series.iter().map(|s| s.points.iter().filter(|p| !p.1.is_nan()).count()).sum()
             }
+            Figure::Strip { groups, .. } => groups.iter().map(|g| g.values.iter().filter(|v| v.is_finite()).count()).sum(),
             Figure::Scatter { points, log_x, .. } => {
                 points.iter().filter(|p| p.0.is_finite() && p.1.is_finite() && (!log_x || p.0 > 0.0)).count()
             }
@@ -645,6 +665,56 @@ fn mean_point(points: &[(f64, f64)]) -> Option<(f64, f64)> {
     }
     let n = points.len() as f64;
     Some((points.iter().map(|p| p.0).sum::<f64>() / n, points.iter().map(|p| p.1).sum::<f64>() / n))
+}
+
+fn draw_strip(root: &Area<'_>, groups: &[StripGroup], y_label: &str) -> Result<(), String> {
+    let (plot, key) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
+    draw_key(&key, &[KeyEntry::Marker("one animal".into()), KeyEntry::Line(6, "group mean".into())], 30)?;
+    let values: Vec<f64> = groups.iter().flat_map(|g| g.values.iter().copied()).filter(|v| v.is_finite()).collect();
+    let (mut y_min, mut y_max) = padded(&values, 0.08);
+    y_min = y_min.min(0.0);
+    y_max = y_max.max(0.0);
+    let count = groups.len().max(1) as f64;
+    let decimals = decimals_for(y_max - y_min);
+    let mut chart = ChartBuilder::on(&plot)
+        .margin(14)
+        .x_label_area_size(52)
+        .y_label_area_size(64)
+        .build_cartesian_2d(-0.5..count - 0.5, y_min..y_max)
+        .map_err(|e| e.to_string())?;
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(RGBColor(225, 225, 225))
+        .x_labels(0)
+        .x_label_formatter(&|_| String::new())
+        .y_labels(6)
+        .y_label_formatter(&|v| format!("{v:.decimals$}"))
+        .y_desc(y_label)
+        .label_style(font(15.0))
+        .axis_desc_style(font(16.0))
+        .draw()
+        .map_err(|e| e.to_string())?;
+    for (index, group) in groups.iter().enumerate() {
+        let x = index as f64;
+        let (first, last) = group.label.rsplit_once(' ').unwrap_or((group.label.as_str(), ""));
+        let (px, py) = chart.backend_coord(&(x, y_min));
+        let style = font(12.0).pos(Pos::new(HPos::Center, VPos::Top));
+        plot.draw(&Text::new(first.to_string(), (px, py + 6), style.clone())).map_err(|e| e.to_string())?;
+        plot.draw(&Text::new(last.to_string(), (px, py + 20), style)).map_err(|e| e.to_string())?;
+        // A fixed spread by rank (golden-ratio steps), so the chart is the same on every run.
+        let finite: Vec<f64> = group.values.iter().copied().filter(|v| v.is_finite()).collect();
+        let placed = finite.iter().enumerate().map(|(k, &v)| (x + ((k as f64 * 0.618_034) % 1.0 - 0.5) * 0.5, v));
+        draw_markers!(chart, placed, group.style)?;
+        if !finite.is_empty() {
+            let mean = finite.iter().sum::<f64>() / finite.len() as f64;
+            chart
+                .draw_series(std::iter::once(PathElement::new(vec![(x - 0.35, mean), (x + 0.35, mean)], colour(6).stroke_width(3))))
+                .map_err(|e| e.to_string())?;
+        }
+    }
+    Ok(())
 }
 
 /// Round values 1, 2, 5 × 10ᵏ within [low, high], for the ticks of a logarithmic axis.

@@ -89,6 +89,17 @@ pub(crate) fn step_prose(
             p.sources(),
             p.text("horizon_years")
         ),
+        uses::INBREEDING => format!(
+            "Step {id} measured each animal's heterozygosity and inbreeding: standardised multilocus heterozygosity sMLH (Coltman et al. 1999), internal relatedness (Amos et al. 2001) and homozygosity by locus (Aparicio, Ortego & Cordero 2006) at any marker, and at loci with two alleles the genomic inbreeding coefficients F̂I, F̂II and F̂III of Yang et al. (2011), relative to the allele frequencies of the animal's population and year. Where loci have positions, runs of homozygosity of at least {} bp and {} loci (at most {} heterozygous and {} untyped calls, gaps up to {} bp, at least {} loci per Mb) give FROH, the share of the genome in runs (McQuillan et al. 2008). Identity disequilibrium g2 (David et al. 2007) has a 95 % interval from {} bootstrap draws of animals and a p-value from {} permutations of genotypes among animals.",
+            p.text("roh_min_length_bp"),
+            p.text("roh_min_snps"),
+            p.text("roh_max_heterozygous"),
+            p.text("roh_max_missing"),
+            p.text("roh_max_gap_bp"),
+            p.text("roh_min_density"),
+            p.text("g2_bootstrap"),
+            p.text("g2_permutations")
+        ),
         other => format!(
             "Step {id} ran {}; popgauge reports its tables as the step gave them. Its method is described in its own documentation and the references it cites.",
             other

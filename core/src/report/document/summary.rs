@@ -117,6 +117,20 @@ pub struct DriftFacts {
     pub f_drift: String,
     /// Its range over the Ne interval, when given.
     pub f_drift_ci: Option<String>,
+    /// Expected fitness relative to today after that inbreeding, exp(−B·F_drift) (Morton,
+    /// Crow & Muller 1956), when the status step gives it.
+    pub fitness: Option<FitnessFacts>,
+}
+
+/// The cost of drift inbreeding in fitness, as the status step gives it.
+#[derive(Debug, Clone, Serialize)]
+pub struct FitnessFacts {
+    /// Fitness retained at the point estimate and the lethal equivalents used.
+    pub retained: String,
+    /// Its range over the Ne interval.
+    pub over_ne: Option<String>,
+    /// Its range over the range of lethal equivalents.
+    pub over_b: Option<String>,
 }
 
 /// The projections section.
@@ -133,6 +147,9 @@ pub struct ProjectionSection {
     pub retain_target: Option<String>,
     /// The Ne that keeps that share.
     pub ne_required: Option<String>,
+    /// The diploid lethal equivalents the cost of inbreeding uses, and the range shown beside
+    /// them (`12 (range 3.1–30.3)`), when the status step computes that cost.
+    pub lethal_equivalents: Option<String>,
     /// Per population: Ne, heterozygosity retained, F now and projected.
     pub table: TableData,
 }
@@ -268,8 +285,22 @@ fn drift_facts(status: &Row<'_>) -> Option<DriftFacts> {
         h_lost: format::percent(1.0 - retained),
         f_drift: format::fixed(f_drift, 3),
         f_drift_ci: interval_text(status, col::F_DRIFT_LOW, col::F_DRIFT_HIGH, NumberStyle::Fixed(3)),
+        fitness: status.num(FITNESS_RETAINED).map(|w| FitnessFacts {
+            retained: format::percent(w),
+            over_ne: interval_text(status, FITNESS_RETAINED_LOW, FITNESS_RETAINED_HIGH, NumberStyle::Percent),
+            over_b: interval_text(status, FITNESS_RETAINED_B_HIGH, FITNESS_RETAINED_B_LOW, NumberStyle::Percent),
+        }),
     })
 }
+
+/// The status step's fitness columns (Morton, Crow & Muller 1956): at the point estimate, over
+/// the Ne interval (its lower bound gives the lowest fitness), and over the range of lethal
+/// equivalents (the high end gives the lowest fitness).
+const FITNESS_RETAINED: &str = "fitness_retained";
+const FITNESS_RETAINED_LOW: &str = "fitness_retained_low";
+const FITNESS_RETAINED_HIGH: &str = "fitness_retained_high";
+const FITNESS_RETAINED_B_LOW: &str = "fitness_retained_b_low";
+const FITNESS_RETAINED_B_HIGH: &str = "fitness_retained_b_high";
 
 /// The He trend of a population in words, from the trend step's Mann–Kendall test, or from
 /// the least-squares interval when there are too few points for it.
@@ -425,6 +456,21 @@ fn ne_nc_cell(p: &PopulationSummary) -> String {
     }
 }
 
+/// The status step's diploid lethal equivalents and their range, when it computes the cost of
+/// inbreeding (its table has a fitness column).
+fn lethal_equivalents(ctx: &Context<'_>) -> Option<String> {
+    let rows = ctx.results.table(uses::STATUS, table::POPULATIONS)?;
+    if !rows.has(FITNESS_RETAINED) {
+        return None;
+    }
+    let value = |name: &str| ctx.param(uses::STATUS, name).and_then(serde_json::Value::as_f64).map(|v| format::short(v, 3));
+    let used = value("lethal_equivalents")?;
+    Some(match (value("lethal_equivalents_low"), value("lethal_equivalents_high")) {
+        (Some(low), Some(high)) => format!("{used} (range {low}–{high})"),
+        _ => used,
+    })
+}
+
 /// The rule by which the status step chose each population's Ne, in a sentence.
 fn ne_rule(ctx: &Context<'_>) -> Option<String> {
     let prefer = ctx.param(uses::STATUS, "prefer")?.as_array()?;
@@ -443,6 +489,7 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
         ("H retained (over the Ne CI)", true),
         ("H lost", true),
         ("F drift (over the Ne CI)", true),
+        ("Fitness retained (over the Ne CI; over B)", true),
     ]);
     for row in &latest {
         let population = row.text(col::POPULATION).unwrap_or("");
@@ -459,6 +506,14 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             drift.as_ref().map_or_else(undefined, |d| with_range(d.h_retained.clone(), d.h_retained_ci.clone())),
             drift.as_ref().map_or_else(undefined, |d| d.h_lost.clone()),
             drift.as_ref().map_or_else(undefined, |d| with_range(d.f_drift.clone(), d.f_drift_ci.clone())),
+            drift.as_ref().and_then(|d| d.fitness.as_ref()).map_or_else(undefined, |w| {
+                match (&w.over_ne, &w.over_b) {
+                    (Some(ne), Some(b)) => format!("{} ({ne}; {b})", w.retained),
+                    (Some(ne), None) => format!("{} ({ne})", w.retained),
+                    (None, Some(b)) => format!("{} (B: {b})", w.retained),
+                    (None, None) => w.retained.clone(),
+                }
+            }),
         ]);
     }
     t.drop_empty_columns(&["Population", "Ne (95 % CI)", "H retained (over the Ne CI)"]);
@@ -472,6 +527,7 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
         horizon_generations,
         retain_target: retain_target.map(format::percent),
         ne_required: ne_required.map(format::effective_size),
+        lethal_equivalents: lethal_equivalents(ctx),
         table: t,
     })
 }
