@@ -40,7 +40,7 @@ fn matrix() -> GenotypeMatrix {
         .map(|s| SampleMeta { id: format!("s{s}"), population: format!("P{}", s % 2), year: 2020 + (s / 500) as i32 })
         .collect();
     let loci = (0..LOCI)
-        .map(|l| LocusMeta { name: format!("snp{l}"), alleles: vec!["A".into(), "G".into()], chromosome: Some(format!("chr{}", l % 20)) })
+        .map(|l| LocusMeta { name: format!("snp{l}"), alleles: vec!["A".into(), "G".into()], chromosome: Some(format!("chr{}", l % 20)), position: Some(1 + 5_000 * l as u64) })
         .collect();
     let mut codes = Vec::with_capacity(SAMPLES * LOCI * 2);
     for l in 0..LOCI {

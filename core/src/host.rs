@@ -364,8 +364,8 @@ mod tests {
         let e = LoadError::Sha256 { path: "libx.so".into(), expected: "3f07".into(), found: "9b41".into() };
         assert_eq!(e.to_string(), "libx.so has SHA-256 9b41 but the recipe pins 3f07");
         assert_eq!(e.help(), "rebuild the library you reviewed, or update `sha256` after reviewing the change");
-        let e = LoadError::AbiVersion { path: "libx.so".into(), expected: 1, found: 99 };
-        assert_eq!(e.to_string(), "libx.so speaks plugin ABI version 99 but this popgauge speaks version 1");
+        let e = LoadError::AbiVersion { path: "libx.so".into(), expected: 2, found: 99 };
+        assert_eq!(e.to_string(), "libx.so speaks plugin ABI version 99 but this popgauge speaks version 2");
         let e = LoadError::EntrySymbol { path: "libx.so".into(), expected: ENTRY_SYMBOL.into() };
         assert_eq!(e.to_string(), "libx.so does not export the entry symbol `popgauge_plugin_entry`");
     }

@@ -346,7 +346,7 @@ impl<'a> Builder<'a> {
             .loci
             .iter()
             .zip(self.labels)
-            .map(|((_, name), (alleles, _))| LocusMeta { name: name.clone(), alleles, chromosome: None })
+            .map(|((_, name), (alleles, _))| LocusMeta { name: name.clone(), alleles, chromosome: None, position: None })
             .collect();
         let codes: Vec<AlleleCode> = self.codes.into_iter().flatten().collect();
         let matrix = GenotypeMatrix::new(self.samples, loci, codes).map_err(|e| match e {

@@ -48,6 +48,8 @@ pub struct LocusMeta {
     pub alleles: Vec<String>,
     /// Chromosome or contig, when the input says it.
     pub chromosome: Option<String>,
+    /// Position on the chromosome in base pairs (1-based, as VCF POS), when the input says it.
+    pub position: Option<u64>,
 }
 
 /// Why a matrix could not be built from its parts.
@@ -419,7 +421,7 @@ mod tests {
             SampleMeta { id: "b".into(), population: "P".into(), year: 2020 },
             SampleMeta { id: "c".into(), population: "Q".into(), year: 2019 },
         ];
-        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into(), "2".into()], chromosome: None }];
+        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into(), "2".into()], chromosome: None, position: None }];
         let codes = [1, 1, 1, 2, 0, 0].into_iter().map(AlleleCode).collect();
         GenotypeMatrix::new(samples, loci, codes).unwrap()
     }
@@ -457,7 +459,7 @@ mod tests {
 
     #[test]
     fn rejects_wrong_length_and_bad_codes() {
-        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into()], chromosome: None }];
+        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into()], chromosome: None, position: None }];
         let samples = vec![SampleMeta { id: "a".into(), population: "P".into(), year: 1 }];
         let err = GenotypeMatrix::new(samples.clone(), loci.clone(), vec![AlleleCode(1)]).unwrap_err();
         assert!(matches!(err, MatrixError::WrongLength { expected: 2, found: 1, .. }));

@@ -227,7 +227,7 @@ mod tests {
 
     fn call(seed: u64) -> (i32, String) {
         let samples = vec![SampleMeta { id: "a".into(), population: "P".into(), year: 1 }];
-        let loci = vec![LocusMeta { name: "L".into(), alleles: vec!["x".into()], chromosome: None }];
+        let loci = vec![LocusMeta { name: "L".into(), alleles: vec!["x".into()], chromosome: None, position: None }];
         let m = GenotypeMatrix::new(samples, loci, vec![AlleleCode(1), AlleleCode(1)]).unwrap();
         let (s, l) = (m.all_sample_indices(), m.all_locus_indices());
         let foreign = ForeignView::new(&m.full_view(&s, &l)).unwrap();

@@ -89,7 +89,7 @@ fn structs_match_field_by_field() {
         ("pg_str", rust_layout!(PgStr { ptr, len })),
         ("pg_buf", rust_layout!(PgBuf { ptr, len, capacity })),
         ("pg_sample", rust_layout!(PgSample { id, population, year, reserved })),
-        ("pg_locus", rust_layout!(PgLocus { name, chromosome, alleles, n_alleles })),
+        ("pg_locus", rust_layout!(PgLocus { name, chromosome, alleles, n_alleles, position, has_position, reserved })),
         (
             "pg_genotype_view",
             rust_layout!(PgGenotypeView {

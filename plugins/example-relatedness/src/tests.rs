@@ -12,6 +12,7 @@ fn matrix(samples: &[(&str, &str, i32)], genotypes: &[Vec<(u16, u16)>], alleles_
             name: format!("L{}", l + 1),
             alleles: (1..=alleles_per_locus).map(|a| a.to_string()).collect(),
             chromosome: None,
+            position: None,
         })
         .collect();
     let mut codes = Vec::new();
