@@ -79,8 +79,8 @@
 //! bound used) is. Lethal equivalents vary among species, traits and environments, and purging
 //! is not modelled: the `inbreeding-depression` finding says so.
 //!
-//! An infinite Ne keeps everything (`h_retained` = 1, `f_drift` = 0, `fitness_retained` = 1). A population that is not
-//! estimable (interval ∞–∞) has no projection. Without `generation_time_years` the projection
+//! An infinite Ne keeps everything (`h_retained` = 1, `f_drift` = 0, `fitness_retained` = 1). A
+//! population that is not estimable (interval ∞–∞) has no projection. Without `generation_time_years` the projection
 //! columns are `null` and a finding says how to set it.
 //!
 //! # Tables
@@ -108,8 +108,8 @@
 //! `ld-criterion` (info) and `ld-criterion-missing` (warning) per population with an LD
 //! estimate; `census-year-mismatch`, `census-year-unknown`, `ne-nc-context`;
 //! `no-generation-time`; `thresholds` and `horizon` (info) naming the sources of the thresholds
-//! and the horizon; `inbreeding-depression` (info) on the cost of inbreeding and its limits. Special values, one finding per reason naming the rows and the columns
-//! concerned: `infinite-ne` (an infinite point), `infinite-upper-bound` (only `ne_high` is
+//! and the horizon; `inbreeding-depression` (info) on the cost of inbreeding and its limits.
+//! Special values, one finding per reason naming the rows and the columns concerned: `infinite-ne` (an infinite point), `infinite-upper-bound` (only `ne_high` is
 //! `"inf"`), `not-estimable` (warning: interval ∞–∞), `no-fis`, `no-fis-interval`,
 //! `s-not-applicable`.
 
