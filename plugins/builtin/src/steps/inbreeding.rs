@@ -90,6 +90,7 @@ mod tables;
 mod tests;
 
 use popgauge_abi::{Descriptor, ParamKind, Step, StepContext, StepError, StepOutput};
+use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
@@ -228,8 +229,9 @@ impl Step for Inbreeding {
         let groups = ctx.view.groups();
         let tallies = tally_view(&ctx.view, &groups);
         let runs = scan_view(&ctx.view, &params.run_settings());
+        // Groups in parallel; each draws from its own named streams and `collect` keeps the order.
         let disequilibria: Vec<IdentityDisequilibrium> = groups
-            .iter()
+            .par_iter()
             .zip(&tallies.group_heterozygosity)
             .map(|(group, hets)| estimate_identity_disequilibrium(hets, group, &params, ctx.seed))
             .collect();
