@@ -283,7 +283,8 @@ pub fn simulate_pedigrees(study: &PedigreeStudy) -> Result<PedigreeSample, Matri
             animals.push(PedigreeAnimal {
                 id: format!("{}{number:03}", mating.prefix()),
                 mating,
-                realised_inbreeding: identical as f64 / (genome.chromosome_length_bp * genome.chromosomes as u64) as f64,
+                realised_inbreeding: identical as f64
+                    / (genome.chromosome_length_bp * genome.chromosomes as u64) as f64,
             });
             diploids.push(diploid);
         }

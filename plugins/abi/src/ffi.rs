@@ -263,7 +263,12 @@ impl<'a> ForeignView<'a> {
         let samples = matrix
             .samples()
             .iter()
-            .map(|s| PgSample { id: PgStr::new(&s.id), population: PgStr::new(&s.population), year: s.year, reserved: 0 })
+            .map(|s| PgSample {
+                id: PgStr::new(&s.id),
+                population: PgStr::new(&s.population),
+                year: s.year,
+                reserved: 0,
+            })
             .collect();
         let labels: Vec<Vec<PgStr>> =
             matrix.loci().iter().map(|l| l.alleles.iter().map(|a| PgStr::new(a)).collect()).collect();

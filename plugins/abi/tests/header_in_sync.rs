@@ -68,7 +68,10 @@ fn parse_header() -> BTreeMap<String, Layout> {
 }
 
 fn define(name: &str) -> String {
-    let line = HEADER.lines().find(|l| l.starts_with(&format!("#define {name} "))).unwrap_or_else(|| panic!("no #define {name}"));
+    let line = HEADER
+        .lines()
+        .find(|l| l.starts_with(&format!("#define {name} ")))
+        .unwrap_or_else(|| panic!("no #define {name}"));
     line[format!("#define {name} ").len()..].trim().to_string()
 }
 

@@ -56,7 +56,8 @@
 //! replicates drawing individuals with replacement; `g2_p`: one-sided permutation p-value
 //! (large g2 extreme) over `g2_permutations` arrangements that shuffle each locus's genotypes
 //! among the group's individuals. Draws come from the step seed, in streams named after the
-//! group (docs/methods.md, "Identity disequilibrium").
+//! group (the permutations in chunks of 16, each chunk its own stream, so the result does not
+//! depend on the number of threads; docs/methods.md, "Identity disequilibrium").
 //!
 //! # Null values
 //! Every `null` has a finding: an individual with no typed locus (`no-typed-loci`); no locus
@@ -183,12 +184,7 @@ pub fn descriptor() -> Descriptor {
         json!(1),
         "heterozygous calls a run may hold (genotyping errors)",
     )
-    .param(
-        "roh_max_missing",
-        ParamKind::Integer { min: 0, max: 1000 },
-        json!(5),
-        "untyped calls a run may hold",
-    )
+    .param("roh_max_missing", ParamKind::Integer { min: 0, max: 1000 }, json!(5), "untyped calls a run may hold")
     .param(
         "roh_max_gap_bp",
         ParamKind::Integer { min: 1_000, max: 100_000_000 },

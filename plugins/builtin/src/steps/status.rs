@@ -318,7 +318,8 @@ impl Setting {
             low: params.lethal_equivalents_low,
             high: params.lethal_equivalents_high,
         };
-        if !(lethal_equivalents.low <= lethal_equivalents.point && lethal_equivalents.point <= lethal_equivalents.high) {
+        if !(lethal_equivalents.low <= lethal_equivalents.point && lethal_equivalents.point <= lethal_equivalents.high)
+        {
             return Err(StepError::new(format!(
                 "parameters `lethal_equivalents_low` = {}, `lethal_equivalents` = {} and `lethal_equivalents_high` = {} \
                  must be in ascending order\n  help: give a range around the value used, for example 3.1, 12 and 30.3",

@@ -587,7 +587,12 @@ fn cline_of(populations: usize, rise: f64) -> GenotypeMatrix {
         }
     }
     let loci = (0..12)
-        .map(|l| LocusMeta { name: format!("L{l}"), alleles: vec!["A".into(), "G".into()], chromosome: None, position: None })
+        .map(|l| LocusMeta {
+            name: format!("L{l}"),
+            alleles: vec!["A".into(), "G".into()],
+            chromosome: None,
+            position: None,
+        })
         .collect();
     GenotypeMatrix::new(samples, loci, codes).expect("simulated matrix is well formed")
 }

@@ -16,8 +16,8 @@
 
 use popgauge_abi::{Group, Seed};
 use rand::{Rng, RngExt};
-use rayon::prelude::*;
 use rand_chacha::ChaCha8Rng;
+use rayon::prelude::*;
 
 use super::{INTERVAL_LEVEL, Params};
 use crate::stats::bootstrap::{Interval, percentile_interval, rng};
@@ -95,7 +95,8 @@ impl GroupHeterozygosity {
         for i in 0..n {
             let row_i = self.row(bits, i);
             for j in i..n {
-                let shared: u64 = row_i.iter().zip(self.row(bits, j)).map(|(a, b)| u64::from((a & b).count_ones())).sum();
+                let shared: u64 =
+                    row_i.iter().zip(self.row(bits, j)).map(|(a, b)| u64::from((a & b).count_ones())).sum();
                 matrix[i * n + j] = shared as f64;
                 matrix[j * n + i] = shared as f64;
             }

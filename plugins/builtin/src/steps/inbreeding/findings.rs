@@ -99,8 +99,7 @@ fn sample_name(row: &Row<'_>) -> String {
 /// One finding per reason for the null cells of `individuals` and `groups`.
 pub(super) fn special_values(individuals: &Table, groups: &Table, params: &Params) -> Vec<Finding> {
     let untyped = rows_where(individuals, |r| r.text("loci") == "0", sample_name);
-    let no_biallelic =
-        rows_where(individuals, |r| r.text("loci") != "0" && r.is_null("f_hom"), sample_name);
+    let no_biallelic = rows_where(individuals, |r| r.text("loci") != "0" && r.is_null("f_hom"), sample_name);
     let undefined = rows_where(
         individuals,
         |r| r.text("loci") != "0" && (r.is_null("smlh") || r.is_null("ir") || r.is_null("hl")),
@@ -114,9 +113,11 @@ pub(super) fn special_values(individuals: &Table, groups: &Table, params: &Param
         |r| summary_names.iter().any(|c| r.is_null(c)),
         |r| format!("{} ({})", group_name(r), r.columns_where(&summary_names, |r, c| r.is_null(c))),
     );
-    let no_g2 = rows_where(groups, |r| r.is_null("g2"), |r| {
-        format!("{} (n = {}, {} polymorphic loci)", group_name(r), r.text("n"), r.text("g2_loci"))
-    });
+    let no_g2 = rows_where(
+        groups,
+        |r| r.is_null("g2"),
+        |r| format!("{} (n = {}, {} polymorphic loci)", group_name(r), r.text("n"), r.text("g2_loci")),
+    );
     let no_interval = rows_where(
         groups,
         |r| params.g2_bootstrap > 0 && r.is_finite("g2") && r.is_null("g2_low"),

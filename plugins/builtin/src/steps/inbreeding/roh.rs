@@ -98,7 +98,9 @@ impl Panel {
         for locus in 0..view.n_loci() {
             let meta = view.locus(locus);
             match (meta.chromosome.as_deref(), meta.position) {
-                (Some(chromosome), Some(position)) => by_chromosome.entry(chromosome).or_default().push((position, locus)),
+                (Some(chromosome), Some(position)) => {
+                    by_chromosome.entry(chromosome).or_default().push((position, locus))
+                }
                 _ => unplaced += 1,
             }
         }

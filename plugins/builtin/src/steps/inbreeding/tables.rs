@@ -131,7 +131,9 @@ pub(super) fn group_columns() -> Vec<String> {
         columns.push(format!("{measure}_sd"));
     }
     columns.extend(
-        ["g2_loci", "g2", "g2_low", "g2_high", "g2_replicates", "g2_p", "g2_permutations"].iter().map(|c| c.to_string()),
+        ["g2_loci", "g2", "g2_low", "g2_high", "g2_replicates", "g2_p", "g2_permutations"]
+            .iter()
+            .map(|c| c.to_string()),
     );
     columns
 }
@@ -149,8 +151,7 @@ pub(super) fn groups(
         let mut row = vec![Cell::text(&group.population), Cell::Int(group.year.into()), count(group.samples.len())];
         for measure in SUMMARISED {
             let index = individuals.column(measure).expect("the individuals table has every summarised column");
-            let values: Vec<f64> =
-                group.samples.iter().filter_map(|&s| individuals.rows[s][index].as_f64()).collect();
+            let values: Vec<f64> = group.samples.iter().filter_map(|&s| individuals.rows[s][index].as_f64()).collect();
             row.push(Cell::maybe(mean(values.iter().copied())));
             row.push(Cell::maybe(standard_deviation(&values)));
         }

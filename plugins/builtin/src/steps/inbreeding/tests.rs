@@ -206,7 +206,10 @@ fn f_roh_is_run_length_over_panel_length() {
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let found = roh::scan_view(&matrix.full_view(&samples, &loci), &settings);
     assert_eq!(found.panel.length_bp(), 10_000);
-    assert_eq!(found.runs[0], vec![Run { chromosome: 0, start: 1000, end: 6000, snps: 6, heterozygous: 0, missing: 0 }]);
+    assert_eq!(
+        found.runs[0],
+        vec![Run { chromosome: 0, start: 1000, end: 6000, snps: 6, heterozygous: 0, missing: 0 }]
+    );
     assert_eq!(found.f_roh(0), Some(0.5));
     assert_eq!(found.f_roh(1), Some(0.0));
     let panel = table(&output, "panel");
@@ -337,7 +340,12 @@ fn g2_needs_two_individuals_and_runs_are_deterministic() {
 /// 25 kb (16,000 SNPs), `per_class` animals of each mating type (or only unrelated ones).
 fn pedigree_study(per_class: usize, matings: &[Mating], seed: u64) -> PedigreeStudy {
     PedigreeStudy {
-        genome: Genome { chromosomes: 4, chromosome_length_bp: 100_000_000, snp_spacing_bp: 25_000, centimorgans_per_mb: 1.0 },
+        genome: Genome {
+            chromosomes: 4,
+            chromosome_length_bp: 100_000_000,
+            snp_spacing_bp: 25_000,
+            centimorgans_per_mb: 1.0,
+        },
         animals: matings.iter().map(|&m| (m, per_class)).collect(),
         population: "Hollin Moor".into(),
         year: 2024,
@@ -376,7 +384,10 @@ fn f_roh_and_f_uni_track_realised_inbreeding_of_known_pedigrees() {
         let members: Vec<usize> = (0..sample.animals.len()).filter(|&i| sample.animals[i].mating == mating).collect();
         let mean_of = |v: &[f64]| members.iter().map(|&i| v[i]).sum::<f64>() / members.len() as f64;
         let (truth, roh, uni) = (mean_of(&realised), mean_of(&f_roh), mean_of(&f_uni));
-        println!("{mating:?}: pedigree F {}, realised {truth:.4}, F_ROH {roh:.4}, f_uni {uni:.4}", mating.pedigree_inbreeding());
+        println!(
+            "{mating:?}: pedigree F {}, realised {truth:.4}, F_ROH {roh:.4}, f_uni {uni:.4}",
+            mating.pedigree_inbreeding()
+        );
         assert!((roh - truth).abs() <= 0.03, "{mating:?}: F_ROH mean {roh}, realised {truth}");
         assert!((uni - truth).abs() <= 0.05, "{mating:?}: f_uni mean {uni}, realised {truth}");
     }
