@@ -49,7 +49,7 @@ impl GroupHeterozygosity {
     }
 
     /// Records a polymorphic locus with `heterozygotes` of `typed` members.
-    pub(crate) fn add_locus(&mut self, _locus: usize, heterozygotes: u32, typed: u32) {
+    pub(crate) fn add_locus(&mut self, heterozygotes: u32, typed: u32) {
         self.loci.push((heterozygotes, typed));
     }
 

@@ -129,7 +129,7 @@ pub(super) fn tally_view(view: &GenotypeView<'_>, groups: &[Group]) -> Tallies {
             view.allele_counts_into(locus, &group.samples, &mut counts);
             let Some(here) = LocusInGroup::of(&counts) else { continue };
             if here.polymorphic {
-                hets.add_locus(locus, counts.heterozygotes, counts.typed);
+                hets.add_locus(counts.heterozygotes, counts.typed);
             }
             for (member, &sample) in group.samples.iter().enumerate() {
                 let Some((a, b)) = view.genotype(sample, locus) else { continue };

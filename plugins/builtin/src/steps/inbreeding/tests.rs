@@ -240,7 +240,7 @@ fn g2_matches_the_hand_value() {
     let mut hets = GroupHeterozygosity::new(3, 3);
     for locus in 0..3 {
         let heterozygotes = rows.iter().filter(|r| r[locus]).count() as u32;
-        hets.add_locus(locus, heterozygotes, 3);
+        hets.add_locus(heterozygotes, 3);
         for (member, row) in rows.iter().enumerate() {
             hets.mark(member, locus, row[locus]);
         }
@@ -281,7 +281,7 @@ fn g2_with_missing_calls_counts_typed_pairs_only() {
     for locus in 0..4 {
         let typed = calls.iter().filter(|c| c[locus].is_some()).count() as u32;
         let heterozygotes = calls.iter().filter(|c| c[locus] == Some(true)).count() as u32;
-        hets.add_locus(locus, heterozygotes, typed);
+        hets.add_locus(heterozygotes, typed);
         for (member, row) in calls.iter().enumerate() {
             if let Some(h) = row[locus] {
                 hets.mark(member, locus, h);
