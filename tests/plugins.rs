@@ -147,7 +147,7 @@ fn refuses_another_abi_version() {
     recipe_with(&case, &plugin_step("ext", "libwrongabi.so", &sha, ""));
     assert_refused(
         &case,
-        "error: case.toml:16: step \"ext\": plugins/libwrongabi.so speaks plugin ABI version 99 but this popgauge speaks version 1\n  help: rebuild the plugin against a popgauge-abi of ABI version 1, or use a popgauge that speaks version 99\n",
+        "error: case.toml:16: step \"ext\": plugins/libwrongabi.so speaks plugin ABI version 99 but this popgauge speaks version 2\n  help: rebuild the plugin against a popgauge-abi of ABI version 2, or use a popgauge that speaks version 99\n",
     );
 }
 
@@ -386,7 +386,7 @@ fn steps_plugin_refuses_with_the_same_messages() {
     assert_eq!(out.code, 2);
     assert_eq!(
         out.stderr,
-        "error: case/plugins/libwrongabi.so speaks plugin ABI version 99 but this popgauge speaks version 1\n  help: rebuild the plugin against a popgauge-abi of ABI version 1, or use a popgauge that speaks version 99\n"
+        "error: case/plugins/libwrongabi.so speaks plugin ABI version 99 but this popgauge speaks version 2\n  help: rebuild the plugin against a popgauge-abi of ABI version 2, or use a popgauge that speaks version 99\n"
     );
 }
 

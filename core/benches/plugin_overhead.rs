@@ -40,7 +40,12 @@ fn matrix() -> GenotypeMatrix {
         .map(|s| SampleMeta { id: format!("s{s}"), population: format!("P{}", s % 2), year: 2020 + (s / 500) as i32 })
         .collect();
     let loci = (0..LOCI)
-        .map(|l| LocusMeta { name: format!("snp{l}"), alleles: vec!["A".into(), "G".into()], chromosome: Some(format!("chr{}", l % 20)) })
+        .map(|l| LocusMeta {
+            name: format!("snp{l}"),
+            alleles: vec!["A".into(), "G".into()],
+            chromosome: Some(format!("chr{}", l % 20)),
+            position: Some(1 + 5_000 * l as u64),
+        })
         .collect();
     let mut codes = Vec::with_capacity(SAMPLES * LOCI * 2);
     for l in 0..LOCI {
@@ -61,13 +66,22 @@ fn matrix() -> GenotypeMatrix {
 fn plugin_library() -> PathBuf {
     let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..");
     let mut command = Command::new(env!("CARGO"));
-    command.args(["build", "--release", "-p", "popgauge-test-plugin-diversity-external", "--message-format=json-render-diagnostics"]);
+    command.args([
+        "build",
+        "--release",
+        "-p",
+        "popgauge-test-plugin-diversity-external",
+        "--message-format=json-render-diagnostics",
+    ]);
     let output = command.current_dir(root).output().expect("run cargo");
     assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
     String::from_utf8_lossy(&output.stdout)
         .lines()
         .filter_map(|l| serde_json::from_str::<serde_json::Value>(l).ok())
-        .filter(|m| m["reason"] == "compiler-artifact" && m["target"]["kind"].as_array().is_some_and(|k| k.iter().any(|k| k == "cdylib")))
+        .filter(|m| {
+            m["reason"] == "compiler-artifact"
+                && m["target"]["kind"].as_array().is_some_and(|k| k.iter().any(|k| k == "cdylib"))
+        })
         .flat_map(|m| m["filenames"].as_array().cloned().unwrap_or_default())
         .filter_map(|f| f.as_str().map(PathBuf::from))
         .find(|f| f.extension().is_some_and(|e| e == "so" || e == "dylib"))
@@ -91,7 +105,12 @@ fn external(library: &PathBuf, isolation: Isolation) -> popgauge::host::External
 fn memory_kib() -> (u64, u64) {
     let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
     let field = |name: &str| {
-        status.lines().find(|l| l.starts_with(name)).and_then(|l| l.split_whitespace().nth(1)).and_then(|v| v.parse().ok()).unwrap_or(0)
+        status
+            .lines()
+            .find(|l| l.starts_with(name))
+            .and_then(|l| l.split_whitespace().nth(1))
+            .and_then(|v| v.parse().ok())
+            .unwrap_or(0)
     };
     (field("VmHWM:"), field("VmRSS:"))
 }
@@ -139,7 +158,8 @@ fn main() {
     assert_eq!(in_process.run(&ctx).expect("in-process plugin runs"), reference, "same results in process");
     assert_eq!(child.run(&ctx).expect("child plugin runs"), reference, "same results in a child");
 
-    let mut criterion = Criterion::default().configure_from_args().sample_size(10).measurement_time(Duration::from_secs(10));
+    let mut criterion =
+        Criterion::default().configure_from_args().sample_size(10).measurement_time(Duration::from_secs(10));
     let mut group = criterion.benchmark_group("diversity 10k SNPs x 1k samples");
     group.bench_function("built-in", |b| b.iter(|| black_box(builtin.run(&ctx).expect("runs"))));
     group.bench_function("plugin in-process", |b| b.iter(|| black_box(in_process.run(&ctx).expect("runs"))));

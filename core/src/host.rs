@@ -252,16 +252,14 @@ impl Step for ExternalStep {
         let request = request_json(ctx).map_err(|e| StepError::new(format!("the request cannot be written: {e}")))?;
         let (status, bytes) = match &self.runner {
             Runner::InProcess(library) => library.run(&ctx.view, &request)?,
-            Runner::Process { library, session, timeout } => {
-                worker::run_in_child(worker::RunCall {
+            Runner::Process { library, session, timeout } => worker::run_in_child(worker::RunCall {
                 library,
                 shown: &self.record.path,
                 session,
                 view: &ctx.view,
                 request: &request,
                 timeout: *timeout,
-            })?
-            }
+            })?,
         };
         interpret_output(status, &bytes)
     }
@@ -289,10 +287,14 @@ fn verified_copy(spec: &PluginSpec, session: &Session) -> Result<(PathBuf, Strin
     let file_name = spec.path.file_name().map_or_else(|| "plugin".into(), |n| n.to_string_lossy().into_owned());
     let slot = std::fs::read_dir(session.dir()).map_or(0, |d| d.count());
     let copy = session.dir().join(format!("{slot}-{file_name}"));
-    std::fs::write(&copy, &bytes)
-        .map_err(|e| LoadError::FileMissing { path: spec.shown.clone(), reason: format!("cannot copy it: {}", io_reason(&e)) })?;
-    let on_disk = std::fs::read(&copy)
-        .map_err(|e| LoadError::FileMissing { path: spec.shown.clone(), reason: format!("cannot read the copy: {}", io_reason(&e)) })?;
+    std::fs::write(&copy, &bytes).map_err(|e| LoadError::FileMissing {
+        path: spec.shown.clone(),
+        reason: format!("cannot copy it: {}", io_reason(&e)),
+    })?;
+    let on_disk = std::fs::read(&copy).map_err(|e| LoadError::FileMissing {
+        path: spec.shown.clone(),
+        reason: format!("cannot read the copy: {}", io_reason(&e)),
+    })?;
     let found = sha256_hex(&on_disk);
     match &spec.expected_sha256 {
         Some(expected) if !expected.eq_ignore_ascii_case(&found) => {
@@ -338,7 +340,9 @@ pub fn load_plugin(spec: &PluginSpec, session: &Arc<Session>) -> Result<External
 pub fn parse_descriptor(bytes: &[u8], shown: &str) -> Result<Descriptor, LoadError> {
     let invalid = |reason: String| LoadError::Descriptor { path: shown.into(), reason };
     let descriptor: Descriptor = serde_json::from_slice(bytes).map_err(|e| invalid(e.to_string()))?;
-    if descriptor.uses.is_empty() || !descriptor.uses.chars().all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-') {
+    if descriptor.uses.is_empty()
+        || !descriptor.uses.chars().all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-')
+    {
         return Err(invalid(format!("its `uses` name \"{}\" is not kebab-case", descriptor.uses)));
     }
     descriptor.check_defaults().map_err(|e| invalid(format!("a default does not fit its own declaration: {e}")))?;
@@ -364,8 +368,8 @@ mod tests {
         let e = LoadError::Sha256 { path: "libx.so".into(), expected: "3f07".into(), found: "9b41".into() };
         assert_eq!(e.to_string(), "libx.so has SHA-256 9b41 but the recipe pins 3f07");
         assert_eq!(e.help(), "rebuild the library you reviewed, or update `sha256` after reviewing the change");
-        let e = LoadError::AbiVersion { path: "libx.so".into(), expected: 1, found: 99 };
-        assert_eq!(e.to_string(), "libx.so speaks plugin ABI version 99 but this popgauge speaks version 1");
+        let e = LoadError::AbiVersion { path: "libx.so".into(), expected: 2, found: 99 };
+        assert_eq!(e.to_string(), "libx.so speaks plugin ABI version 99 but this popgauge speaks version 2");
         let e = LoadError::EntrySymbol { path: "libx.so".into(), expected: ENTRY_SYMBOL.into() };
         assert_eq!(e.to_string(), "libx.so does not export the entry symbol `popgauge_plugin_entry`");
     }
@@ -374,7 +378,10 @@ mod tests {
     fn outputs_are_interpreted_by_status() {
         assert_eq!(interpret_output(STATUS_OK, br#"{"tables":{}}"#), Ok(StepOutput::default()));
         assert_eq!(interpret_output(STATUS_STEP_ERROR, b"too few loci").unwrap_err().message, "too few loci");
-        assert_eq!(interpret_output(STATUS_PANIC, b"panicked at x.rs:1:2: boom").unwrap_err().message, "the plugin panicked at x.rs:1:2: boom");
+        assert_eq!(
+            interpret_output(STATUS_PANIC, b"panicked at x.rs:1:2: boom").unwrap_err().message,
+            "the plugin panicked at x.rs:1:2: boom"
+        );
         assert_eq!(
             interpret_output(STATUS_OK, b"{oops").unwrap_err().message,
             "the plugin returned a result that is not valid output JSON: key must be a string at line 1 column 2"
@@ -385,9 +392,15 @@ mod tests {
     #[test]
     fn descriptors_are_checked() {
         let e = parse_descriptor(b"42", "libx.so").unwrap_err();
-        assert_eq!(e.to_string(), "libx.so: the plugin's descriptor is not valid: invalid type: integer `42`, expected struct Descriptor at line 1 column 2");
+        assert_eq!(
+            e.to_string(),
+            "libx.so: the plugin's descriptor is not valid: invalid type: integer `42`, expected struct Descriptor at line 1 column 2"
+        );
         let e = parse_descriptor(br#"{"uses":"Bad Name","version":"1","summary":"s"}"#, "libx.so").unwrap_err();
-        assert_eq!(e.to_string(), "libx.so: the plugin's descriptor is not valid: its `uses` name \"Bad Name\" is not kebab-case");
+        assert_eq!(
+            e.to_string(),
+            "libx.so: the plugin's descriptor is not valid: its `uses` name \"Bad Name\" is not kebab-case"
+        );
         assert!(parse_descriptor(br#"{"uses":"ok-name","version":"1","summary":"s"}"#, "x").is_ok());
     }
 }

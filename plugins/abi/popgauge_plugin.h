@@ -28,7 +28,7 @@
 extern "C" {
 #endif
 
-#define POPGAUGE_ABI_VERSION 1
+#define POPGAUGE_ABI_VERSION 2
 #define POPGAUGE_ENTRY_SYMBOL "popgauge_plugin_entry"
 #define POPGAUGE_STATUS_OK 0
 #define POPGAUGE_STATUS_STEP_ERROR 1
@@ -52,11 +52,16 @@ typedef struct pg_sample {
     uint32_t reserved;
 } pg_sample;
 
+/* chromosome: a null pointer means unknown. position: 1-based base pair (VCF POS), valid only
+ * when has_position is 1 (0 = unknown); both added in ABI version 2. reserved is always 0. */
 typedef struct pg_locus {
     pg_str name;
     pg_str chromosome;
     const pg_str *alleles;
     uint64_t n_alleles;
+    uint64_t position;
+    uint32_t has_position;
+    uint32_t reserved;
 } pg_locus;
 
 typedef struct pg_genotype_view {

@@ -22,6 +22,9 @@
 //! - [`SampleSet`]: the sampled genotypes; [`write_wide_table`] writes popgauge's wide CSV
 //!   table (`sample,population,year,<loci>…`, cells `152/156`, untyped cells empty), and
 //!   [`WideTable`] lets a caller add columns or edit cells before writing.
+//! - [`simulate_pedigrees`]: animals of known pedigree ([`Mating`]: offspring of full sibs, half
+//!   sibs, first cousins, unrelated parents) on linked chromosomes ([`Genome`]), with each
+//!   animal's realised inbreeding tracked through founder-haplotype labels.
 //! - [`SnpPanel`]: a seeded SNP-panel case at genomic scale for benchmarks (VCF, sample and
 //!   population sheets, full recipe), written by [`write_case`].
 //!
@@ -57,6 +60,7 @@ mod cohort;
 mod error;
 mod markers;
 mod matrix;
+mod pedigree;
 mod random;
 mod sample;
 mod schedule;
@@ -67,6 +71,7 @@ mod wide_table;
 pub use cohort::IndividualId;
 pub use error::SimError;
 pub use markers::{Locus, LocusKind, LocusSpec, MarkerModel, MicrosatelliteModel, SnpModel};
+pub use pedigree::{BIN_BP, Genome, Mating, PedigreeAnimal, PedigreeSample, PedigreeStudy, simulate_pedigrees};
 pub use sample::{SampleRequest, SampleSet, SampledIndividual};
 pub use schedule::{MAX_POPULATION_SIZE, MigrationPhase, MigrationRates, MigrationSchedule, SizeSchedule};
 pub use simulation::{BurnIn, PopulationIdx, PopulationSpec, Simulation, SimulationConfig};

@@ -38,7 +38,7 @@ impl SampleSet {
                 }
             }
             let alleles = distinct.iter().map(|&a| locus.label(a)).collect();
-            loci.push(LocusMeta { name: locus.name.clone(), alleles, chromosome: None });
+            loci.push(LocusMeta { name: locus.name.clone(), alleles, chromosome: None, position: None });
         }
         GenotypeMatrix::new(samples, loci, codes)
     }

@@ -6,7 +6,8 @@
 //! (`accept_filters`, default `PASS` or `.`) and the site filters becomes one locus:
 //! - named by its ID when set and not used before, otherwise `CHROM:POS` (`CHROM:POS:2`, … for
 //!   further records at the same position);
-//! - with CHROM as the locus's chromosome (so `ne-ld` can skip same-chromosome pairs);
+//! - with CHROM as the locus's chromosome (so `ne-ld` can skip same-chromosome pairs) and POS as
+//!   its position (so `inbreeding` can find runs of homozygosity);
 //! - with the alleles that the read samples carry, coded 1, 2, … in REF/ALT order; their labels
 //!   are the allele sequences when every allele of the record is 1–32 characters from
 //!   `A–Z a–z 0–9 . _ -`, otherwise the allele indices `0` (REF), `1`, ….
@@ -444,7 +445,12 @@ impl<'a> MatrixBuilder<'a> {
         }
         self.names.insert(name.clone());
         self.codes.extend_from_slice(&site_codes);
-        self.loci.push(LocusMeta { name, alleles: labels, chromosome: Some(chromosome.to_string()) });
+        self.loci.push(LocusMeta {
+            name,
+            alleles: labels,
+            chromosome: Some(chromosome.to_string()),
+            position: u64::try_from(position).ok(),
+        });
         Ok(())
     }
 

@@ -80,7 +80,12 @@ impl Layout {
         let mut first_seen: HashMap<&str, usize> = HashMap::new();
         for (i, name) in header.iter().enumerate() {
             if let Some(first) = first_seen.insert(name.as_str(), i) {
-                return Err(DataError::DuplicateColumn { at: Location::line(options.file, 1), column: excerpt(name), first: first + 1, second: i + 1 });
+                return Err(DataError::DuplicateColumn {
+                    at: Location::line(options.file, 1),
+                    column: excerpt(name),
+                    first: first + 1,
+                    second: i + 1,
+                });
             }
         }
         for ignored in options.ignore_columns {
@@ -89,12 +94,15 @@ impl Layout {
                     Some(s) => format!("did you mean `{s}`? Otherwise remove it from `ignore_columns`"),
                     None => "remove it from `ignore_columns`, or check the header row".into(),
                 };
-                return Err(DataError::UnknownIgnoredColumn { file: options.file.into(), column: ignored.clone(), help });
+                return Err(DataError::UnknownIgnoredColumn {
+                    file: options.file.into(),
+                    column: ignored.clone(),
+                    help,
+                });
             }
         }
-        let find = |column: &str| {
-            first_seen.get(column).copied().ok_or_else(|| missing_column(options.file, column, header))
-        };
+        let find =
+            |column: &str| first_seen.get(column).copied().ok_or_else(|| missing_column(options.file, column, header));
         let (sample, population, year) = (find("sample")?, find("population")?, find("year")?);
         let loci: Vec<(usize, String)> = header
             .iter()
@@ -115,10 +123,18 @@ impl Layout {
             return Err(DataError::NoLoci { file: options.file.into() });
         }
         if exceeds(Limited::Loci, loci.len() as u64) {
-            return Err(DataError::TooLarge { at: Location::line(options.file, 1), what: Limited::Loci, found: loci.len() as u64 });
+            return Err(DataError::TooLarge {
+                at: Location::line(options.file, 1),
+                what: Limited::Loci,
+                found: loci.len() as u64,
+            });
         }
         if let Some((_, name)) = loci.iter().find(|(_, name)| name.chars().count() > MAX_NAME_CHARS) {
-            return Err(DataError::LongName { at: Location::line(options.file, 1), what: "locus name", text: excerpt(name) });
+            return Err(DataError::LongName {
+                at: Location::line(options.file, 1),
+                what: "locus name",
+                text: excerpt(name),
+            });
         }
         Ok(Layout { sample, population, year, loci })
     }
@@ -128,7 +144,9 @@ fn missing_column(file: &str, column: &str, header: &[String]) -> DataError {
     let found = header_excerpt(header);
     let help = match did_you_mean(column, header.iter().map(String::as_str)) {
         Some(s) => format!("rename the column `{s}` to `{column}`, or fix the header row"),
-        None => format!("add a `{column}` column (the wide table needs sample, population and year), or fix the header row"),
+        None => {
+            format!("add a `{column}` column (the wide table needs sample, population and year), or fix the header row")
+        }
     };
     DataError::MissingColumn { file: file.into(), column: column.into(), found, help }
 }
@@ -143,7 +161,13 @@ pub fn sample_meta(file: &str, line: usize, [id, population, year_text]: [&str; 
     let at = || Location::line(file, line);
     let required = |text: &str, column: &str| -> Result<String, DataError> {
         if text.is_empty() {
-            return Err(DataError::BadField { at: at(), column: column.into(), text: String::new(), problem: "the cell is empty".into(), help: format!("every sample needs a {column}") });
+            return Err(DataError::BadField {
+                at: at(),
+                column: column.into(),
+                text: String::new(),
+                problem: "the cell is empty".into(),
+                help: format!("every sample needs a {column}"),
+            });
         }
         Ok(text.to_string())
     };
@@ -181,8 +205,12 @@ impl CellProblem {
             CellProblem::OneAlleleMissing => "one allele missing".into(),
             CellProblem::Haploid => "a single allele; diploid cells are written a/b".into(),
             CellProblem::TooManyAlleles(n) => format!("{n} alleles; diploid cells have two"),
-            CellProblem::BadLabel(l) => format!("allele label \"{}\" has characters other than letters, digits, `.`, `_` and `-`", excerpt(l)),
-            CellProblem::LongLabel(l) => format!("allele label \"{}\" is longer than {MAX_LABEL_LEN} characters", excerpt(l)),
+            CellProblem::BadLabel(l) => {
+                format!("allele label \"{}\" has characters other than letters, digits, `.`, `_` and `-`", excerpt(l))
+            }
+            CellProblem::LongLabel(l) => {
+                format!("allele label \"{}\" is longer than {MAX_LABEL_LEN} characters", excerpt(l))
+            }
         }
     }
 
@@ -269,7 +297,11 @@ impl<'a> Builder<'a> {
         self.check_size(line)?;
         let meta = self.sample_meta(line, cells)?;
         if let Some(first_line) = self.first_line.insert(meta.id.clone(), line) {
-            return Err(DataError::DuplicateSample { at: Location::line(self.options.file, line), id: meta.id, first_line });
+            return Err(DataError::DuplicateSample {
+                at: Location::line(self.options.file, line),
+                id: meta.id,
+                first_line,
+            });
         }
         for locus in 0..self.layout.loci.len() {
             let (a, b) = self.genotype(line, &meta.id, locus, &cells[self.layout.loci[locus].0])?;
@@ -284,7 +316,8 @@ impl<'a> Builder<'a> {
     fn check_size(&self, line: usize) -> Result<(), DataError> {
         let samples = self.samples.len() as u64 + 1;
         let genotypes = samples * self.layout.loci.len() as u64;
-        let too_large = |what, found| Err(DataError::TooLarge { at: Location::line(self.options.file, line), what, found });
+        let too_large =
+            |what, found| Err(DataError::TooLarge { at: Location::line(self.options.file, line), what, found });
         if exceeds(Limited::Samples, samples) {
             return too_large(Limited::Samples, samples);
         }
@@ -299,7 +332,13 @@ impl<'a> Builder<'a> {
         sample_meta(self.options.file, line, fields.map(String::as_str))
     }
 
-    fn genotype(&mut self, line: usize, sample: &str, locus: usize, text: &str) -> Result<(AlleleCode, AlleleCode), DataError> {
+    fn genotype(
+        &mut self,
+        line: usize,
+        sample: &str,
+        locus: usize,
+        text: &str,
+    ) -> Result<(AlleleCode, AlleleCode), DataError> {
         match parse_cell(text, self.options.missing) {
             ParsedCell::Untyped => Ok((AlleleCode::UNTYPED, AlleleCode::UNTYPED)),
             ParsedCell::Typed(a, b) => Ok((self.intern(locus, a)?, self.intern(locus, b)?)),
@@ -310,18 +349,36 @@ impl<'a> Builder<'a> {
         }
     }
 
-    fn bad_cell(&mut self, line: usize, sample: &str, locus: usize, text: &str, problem: CellProblem) -> Result<(), DataError> {
+    fn bad_cell(
+        &mut self,
+        line: usize,
+        sample: &str,
+        locus: usize,
+        text: &str,
+        problem: CellProblem,
+    ) -> Result<(), DataError> {
         let file = self.options.file;
         let column = self.layout.loci[locus].1.clone();
         if self.options.strict {
-            return Err(DataError::BadCell { at: Location::line(file, line), column, text: excerpt(text), problem: problem.describe() });
+            return Err(DataError::BadCell {
+                at: Location::line(file, line),
+                column,
+                text: excerpt(text),
+                problem: problem.describe(),
+            });
         }
         let message = format!(
             "{file} line {line}, column {column}, cell \"{}\": {}; treated as untyped (set strict = true to stop instead)",
             excerpt(text),
             problem.describe()
         );
-        let location = Where { file: Some(file.into()), line: Some(line as u64), column: Some(column), sample: Some(sample.into()), ..Where::default() };
+        let location = Where {
+            file: Some(file.into()),
+            line: Some(line as u64),
+            column: Some(column),
+            sample: Some(sample.into()),
+            ..Where::default()
+        };
         self.findings.push(Finding::warning(problem.code(), message, location));
         Ok(())
     }
@@ -346,13 +403,22 @@ impl<'a> Builder<'a> {
             .loci
             .iter()
             .zip(self.labels)
-            .map(|((_, name), (alleles, _))| LocusMeta { name: name.clone(), alleles, chromosome: None })
+            .map(|((_, name), (alleles, _))| LocusMeta {
+                name: name.clone(),
+                alleles,
+                chromosome: None,
+                position: None,
+            })
             .collect();
         let codes: Vec<AlleleCode> = self.codes.into_iter().flatten().collect();
         let matrix = GenotypeMatrix::new(self.samples, loci, codes).map_err(|e| match e {
-            MatrixError::TooManyAlleles { locus, .. } => DataError::TooManyAlleles { file: self.options.file.into(), locus },
+            MatrixError::TooManyAlleles { locus, .. } => {
+                DataError::TooManyAlleles { file: self.options.file.into(), locus }
+            }
             // The builder writes exactly two codes per sample and locus, each interned above.
-            other => DataError::Csv { at: Location::file(self.options.file), message: format!("internal error: {other}") },
+            other => {
+                DataError::Csv { at: Location::file(self.options.file), message: format!("internal error: {other}") }
+            }
         })?;
         Ok(WideTable { matrix, findings: sort_findings(self.findings) })
     }

@@ -67,6 +67,7 @@ struct WireLocus {
     name: String,
     alleles: Vec<String>,
     chromosome: Option<String>,
+    position: Option<u64>,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -154,7 +155,12 @@ pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
         loci: matrix
             .loci()
             .iter()
-            .map(|l| WireLocus { name: l.name.clone(), alleles: l.alleles.clone(), chromosome: l.chromosome.clone() })
+            .map(|l| WireLocus {
+                name: l.name.clone(),
+                alleles: l.alleles.clone(),
+                chromosome: l.chromosome.clone(),
+                position: l.position,
+            })
             .collect(),
         active_samples: call.view.sample_indices().to_vec(),
         active_loci: call.view.locus_indices().to_vec(),
@@ -379,7 +385,7 @@ fn run_payload(library: &LoadedLibrary, payload: RunPayload) -> WorkerResponse {
     let loci = payload
         .loci
         .into_iter()
-        .map(|l| LocusMeta { name: l.name, alleles: l.alleles, chromosome: l.chromosome })
+        .map(|l| LocusMeta { name: l.name, alleles: l.alleles, chromosome: l.chromosome, position: l.position })
         .collect();
     // SAFETY: `map` outlives `matrix` (both local; `matrix` is declared later, dropped first).
     let matrix = match unsafe { GenotypeMatrix::from_borrowed_codes(samples, loci, codes) } {

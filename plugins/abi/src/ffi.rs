@@ -30,7 +30,7 @@ use crate::params::Params;
 use crate::step::{AssessmentInfo, Seed, StepContext, StepResult};
 
 /// The ABI version this crate speaks; the host refuses a library with any other.
-pub const ABI_VERSION: u32 = 1;
+pub const ABI_VERSION: u32 = 2;
 
 /// The name of the one symbol a plugin library exports.
 pub const ENTRY_SYMBOL: &str = "popgauge_plugin_entry";
@@ -117,6 +117,13 @@ pub struct PgLocus {
     pub alleles: *const PgStr,
     /// Number of allele labels.
     pub n_alleles: u64,
+    /// Position on the chromosome (1-based base pairs, as VCF POS); meaningful only when
+    /// `has_position` is 1 (ABI version 2).
+    pub position: u64,
+    /// 1 when `position` is known, 0 when it is not.
+    pub has_position: u32,
+    /// Always 0 (explicit padding).
+    pub reserved: u32,
 }
 
 /// The genotype data a step sees: the whole matrix plus the samples and loci still in play.
@@ -256,7 +263,12 @@ impl<'a> ForeignView<'a> {
         let samples = matrix
             .samples()
             .iter()
-            .map(|s| PgSample { id: PgStr::new(&s.id), population: PgStr::new(&s.population), year: s.year, reserved: 0 })
+            .map(|s| PgSample {
+                id: PgStr::new(&s.id),
+                population: PgStr::new(&s.population),
+                year: s.year,
+                reserved: 0,
+            })
             .collect();
         let labels: Vec<Vec<PgStr>> =
             matrix.loci().iter().map(|l| l.alleles.iter().map(|a| PgStr::new(a)).collect()).collect();
@@ -269,6 +281,9 @@ impl<'a> ForeignView<'a> {
                 chromosome: l.chromosome.as_deref().map_or(PgStr::NULL, PgStr::new),
                 alleles: alleles.as_ptr(),
                 n_alleles: alleles.len() as u64,
+                position: l.position.unwrap_or(0),
+                has_position: u32::from(l.position.is_some()),
+                reserved: 0,
             })
             .collect();
         // `AlleleCode` is `repr(transparent)` over `u16`.
@@ -357,6 +372,7 @@ pub unsafe fn borrow_matrix(view: &PgGenotypeView) -> Result<BorrowedMatrix, Vie
                 name: unsafe { text(l.name)? },
                 alleles: labels.iter().map(|a| unsafe { text(*a) }).collect::<Result<_, _>>()?,
                 chromosome: if l.chromosome.ptr.is_null() { None } else { Some(unsafe { text(l.chromosome)? }) },
+                position: (l.has_position != 0).then_some(l.position),
             })
         })
         .collect::<Result<Vec<_>, ViewError>>()?;
@@ -409,8 +425,13 @@ mod tests {
             SampleMeta { id: "c".into(), population: "Q".into(), year: 2019 },
         ];
         let loci = vec![
-            LocusMeta { name: "L1".into(), alleles: vec!["1".into(), "2".into()], chromosome: Some("chr1".into()) },
-            LocusMeta { name: "L2".into(), alleles: vec!["A".into()], chromosome: None },
+            LocusMeta {
+                name: "L1".into(),
+                alleles: vec!["1".into(), "2".into()],
+                chromosome: Some("chr1".into()),
+                position: Some(15_001),
+            },
+            LocusMeta { name: "L2".into(), alleles: vec!["A".into()], chromosome: None, position: None },
         ];
         let codes = [1, 1, 1, 2, 0, 0, 1, 1, 1, 1, 1, 1].into_iter().map(AlleleCode).collect();
         GenotypeMatrix::new(samples, loci, codes).unwrap()
@@ -435,6 +456,8 @@ mod tests {
         assert_eq!(v.genotype(0, 0), Some((AlleleCode(1), AlleleCode(1))));
         assert_eq!(v.locus(0).chromosome.as_deref(), Some("chr1"));
         assert_eq!(v.locus(1).chromosome, None);
+        assert_eq!(v.locus(0).position, Some(15_001));
+        assert_eq!(v.locus(1).position, None);
     }
 
     #[test]

@@ -48,6 +48,8 @@ pub struct LocusMeta {
     pub alleles: Vec<String>,
     /// Chromosome or contig, when the input says it.
     pub chromosome: Option<String>,
+    /// Position on the chromosome in base pairs (1-based, as VCF POS), when the input says it.
+    pub position: Option<u64>,
 }
 
 /// Why a matrix could not be built from its parts.
@@ -144,11 +146,7 @@ impl GenotypeMatrix {
     ///
     /// # Errors
     /// [`MatrixError`] when the buffer length or a code does not fit the metadata.
-    pub fn new(
-        samples: Vec<SampleMeta>,
-        loci: Vec<LocusMeta>,
-        codes: Vec<AlleleCode>,
-    ) -> Result<Self, MatrixError> {
+    pub fn new(samples: Vec<SampleMeta>, loci: Vec<LocusMeta>, codes: Vec<AlleleCode>) -> Result<Self, MatrixError> {
         check_codes(&samples, &loci, &codes)?;
         Ok(GenotypeMatrix { samples, loci, codes: CodeBuffer::Owned(codes) })
     }
@@ -216,10 +214,7 @@ fn check_codes(samples: &[SampleMeta], loci: &[LocusMeta], codes: &[AlleleCode])
     let per_locus = samples.len() * 2;
     for (l, locus) in loci.iter().enumerate() {
         if locus.alleles.len() > u16::MAX as usize {
-            return Err(MatrixError::TooManyAlleles {
-                locus: locus.name.clone(),
-                labels: locus.alleles.len(),
-            });
+            return Err(MatrixError::TooManyAlleles { locus: locus.name.clone(), labels: locus.alleles.len() });
         }
         let block = &codes[l * per_locus..(l + 1) * per_locus];
         if let Some(bad) = block.iter().find(|c| c.0 as usize > locus.alleles.len()) {
@@ -419,7 +414,12 @@ mod tests {
             SampleMeta { id: "b".into(), population: "P".into(), year: 2020 },
             SampleMeta { id: "c".into(), population: "Q".into(), year: 2019 },
         ];
-        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into(), "2".into()], chromosome: None }];
+        let loci = vec![LocusMeta {
+            name: "L1".into(),
+            alleles: vec!["1".into(), "2".into()],
+            chromosome: None,
+            position: None,
+        }];
         let codes = [1, 1, 1, 2, 0, 0].into_iter().map(AlleleCode).collect();
         GenotypeMatrix::new(samples, loci, codes).unwrap()
     }
@@ -457,7 +457,7 @@ mod tests {
 
     #[test]
     fn rejects_wrong_length_and_bad_codes() {
-        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into()], chromosome: None }];
+        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into()], chromosome: None, position: None }];
         let samples = vec![SampleMeta { id: "a".into(), population: "P".into(), year: 1 }];
         let err = GenotypeMatrix::new(samples.clone(), loci.clone(), vec![AlleleCode(1)]).unwrap_err();
         assert!(matches!(err, MatrixError::WrongLength { expected: 2, found: 1, .. }));

@@ -29,7 +29,7 @@
 //! let samples: Vec<SampleMeta> = (0..3)
 //!     .map(|i| SampleMeta { id: format!("s{i}"), population: "P".into(), year: 2024 })
 //!     .collect();
-//! let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["A".into(), "G".into()], chromosome: None }];
+//! let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["A".into(), "G".into()], chromosome: None, position: None }];
 //! let codes = [1, 1, 1, 2, 0, 0].into_iter().map(AlleleCode).collect();
 //! let matrix = GenotypeMatrix::new(samples, loci, codes).unwrap();
 //! let (s, l) = (matrix.all_sample_indices(), matrix.all_locus_indices());

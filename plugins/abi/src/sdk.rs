@@ -145,7 +145,12 @@ pub unsafe fn describe<S: Step>(step: fn() -> &'static S, out: *mut PgBuf) -> i3
 /// # Safety
 /// `view` must point to a valid [`PgGenotypeView`] whose memory stays unmodified during the
 /// call, `request` must be readable, and `out` null or writable.
-pub unsafe fn run<S: Step>(step: fn() -> &'static S, view: *const PgGenotypeView, request: PgStr, out: *mut PgBuf) -> i32 {
+pub unsafe fn run<S: Step>(
+    step: fn() -> &'static S,
+    view: *const PgGenotypeView,
+    request: PgStr,
+    out: *mut PgBuf,
+) -> i32 {
     // SAFETY: forwarded.
     unsafe {
         guarded(out, || {
@@ -227,7 +232,7 @@ mod tests {
 
     fn call(seed: u64) -> (i32, String) {
         let samples = vec![SampleMeta { id: "a".into(), population: "P".into(), year: 1 }];
-        let loci = vec![LocusMeta { name: "L".into(), alleles: vec!["x".into()], chromosome: None }];
+        let loci = vec![LocusMeta { name: "L".into(), alleles: vec!["x".into()], chromosome: None, position: None }];
         let m = GenotypeMatrix::new(samples, loci, vec![AlleleCode(1), AlleleCode(1)]).unwrap();
         let (s, l) = (m.all_sample_indices(), m.all_locus_indices());
         let foreign = ForeignView::new(&m.full_view(&s, &l)).unwrap();
@@ -246,7 +251,10 @@ mod tests {
     /// Common practice: results, step errors and panics each come back with their status.
     #[test]
     fn statuses_and_panic_capture() {
-        assert_eq!(call(0), (STATUS_OK, r#"{"tables":{"counts":{"columns":["n"],"rows":[[1]]}},"findings":[],"citations":[]}"#.into()));
+        assert_eq!(
+            call(0),
+            (STATUS_OK, r#"{"tables":{"counts":{"columns":["n"],"rows":[[1]]}},"findings":[],"citations":[]}"#.into())
+        );
         assert_eq!(call(2), (STATUS_STEP_ERROR, "refused".into()));
         let (status, message) = call(1);
         assert_eq!(status, STATUS_PANIC);

@@ -68,7 +68,10 @@ fn parse_header() -> BTreeMap<String, Layout> {
 }
 
 fn define(name: &str) -> String {
-    let line = HEADER.lines().find(|l| l.starts_with(&format!("#define {name} "))).unwrap_or_else(|| panic!("no #define {name}"));
+    let line = HEADER
+        .lines()
+        .find(|l| l.starts_with(&format!("#define {name} ")))
+        .unwrap_or_else(|| panic!("no #define {name}"));
     line[format!("#define {name} ").len()..].trim().to_string()
 }
 
@@ -89,7 +92,7 @@ fn structs_match_field_by_field() {
         ("pg_str", rust_layout!(PgStr { ptr, len })),
         ("pg_buf", rust_layout!(PgBuf { ptr, len, capacity })),
         ("pg_sample", rust_layout!(PgSample { id, population, year, reserved })),
-        ("pg_locus", rust_layout!(PgLocus { name, chromosome, alleles, n_alleles })),
+        ("pg_locus", rust_layout!(PgLocus { name, chromosome, alleles, n_alleles, position, has_position, reserved })),
         (
             "pg_genotype_view",
             rust_layout!(PgGenotypeView {

@@ -72,7 +72,7 @@ fn simulated(
             }
         }
         let labels = (0..k).map(|a| (100 + 2 * a).to_string()).collect();
-        locus_meta.push(LocusMeta { name: format!("L{locus}"), alleles: labels, chromosome: None });
+        locus_meta.push(LocusMeta { name: format!("L{locus}"), alleles: labels, chromosome: None, position: None });
     }
     GenotypeMatrix::new(samples, locus_meta, codes).expect("simulated matrix is well formed")
 }

@@ -54,6 +54,7 @@ fn simulated(loci: usize, alleles: std::ops::RangeInclusive<usize>, samples: usi
             name: format!("L{l}"),
             alleles: (1..=count).map(|a| a.to_string()).collect(),
             chromosome: None,
+            position: None,
         });
     }
     GenotypeMatrix::new(sample_meta, locus_meta, codes).expect("a well-formed simulated matrix")

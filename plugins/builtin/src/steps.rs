@@ -6,6 +6,7 @@ use popgauge_abi::Step;
 pub mod differentiation;
 pub mod diversity;
 pub mod hwe;
+pub mod inbreeding;
 pub mod ne_hetx;
 pub mod ne_ld;
 pub mod ne_temporal;
@@ -22,6 +23,7 @@ pub const BUILTIN: &[&dyn Step] = &[
     &ne_ld::NeLd,
     &ne_temporal::NeTemporal,
     &ne_hetx::NeHetx,
+    &inbreeding::Inbreeding,
     &trend::Trend,
     &status::Status,
 ];

@@ -65,7 +65,7 @@ impl MatrixBuilder {
             .loci
             .iter()
             .zip(labels)
-            .map(|(name, alleles)| LocusMeta { name: name.clone(), alleles, chromosome: None })
+            .map(|(name, alleles)| LocusMeta { name: name.clone(), alleles, chromosome: None, position: None })
             .collect();
         GenotypeMatrix::new(self.samples, loci, codes).expect("test matrix is well formed")
     }

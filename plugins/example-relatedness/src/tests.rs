@@ -6,12 +6,16 @@ use crate::resample::SplitMix64;
 /// Builds a matrix from per-sample genotypes given as allele codes (1-based, 0 untyped).
 fn matrix(samples: &[(&str, &str, i32)], genotypes: &[Vec<(u16, u16)>], alleles_per_locus: usize) -> GenotypeMatrix {
     let n_loci = genotypes[0].len();
-    let meta = samples.iter().map(|(id, p, y)| SampleMeta { id: id.to_string(), population: p.to_string(), year: *y }).collect();
+    let meta = samples
+        .iter()
+        .map(|(id, p, y)| SampleMeta { id: id.to_string(), population: p.to_string(), year: *y })
+        .collect();
     let loci = (0..n_loci)
         .map(|l| LocusMeta {
             name: format!("L{}", l + 1),
             alleles: (1..=alleles_per_locus).map(|a| a.to_string()).collect(),
             chromosome: None,
+            position: None,
         })
         .collect();
     let mut codes = Vec::new();
@@ -129,7 +133,8 @@ fn parent_offspring_near_one_half_unrelated_near_zero() {
     let po: Vec<f64> =
         parents.iter().enumerate().flat_map(|(c, &(m, f))| [r_of(founders + c, m), r_of(founders + c, f)]).collect();
     let mean_po = po.iter().sum::<f64>() / po.len() as f64;
-    let unrelated: Vec<f64> = (0..founders).flat_map(|a| ((a + 1)..founders).map(move |b| (a, b))).map(|(a, b)| r_of(a, b)).collect();
+    let unrelated: Vec<f64> =
+        (0..founders).flat_map(|a| ((a + 1)..founders).map(move |b| (a, b))).map(|(a, b)| r_of(a, b)).collect();
     let mean_unrelated = unrelated.iter().sum::<f64>() / unrelated.len() as f64;
     eprintln!("simulated: parent–offspring mean r = {mean_po:.4}, unrelated mean r = {mean_unrelated:.4}");
     assert!((mean_po - 0.5).abs() < 0.05, "parent–offspring mean r = {mean_po}");

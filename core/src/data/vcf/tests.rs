@@ -51,7 +51,7 @@ fn codes_of(data: &VcfData, locus: usize) -> Vec<u16> {
 
 /// Hand-made records (common practice for VCF 4.3 GT coding: 0 = REF, k = k-th ALT).
 #[test]
-fn reads_biallelic_and_multiallelic_sites_with_names_labels_and_chromosomes() {
+fn reads_biallelic_and_multiallelic_sites_with_names_labels_chromosomes_and_positions() {
     let body = "chr1\t100\trs1\tA\tG\t.\tPASS\t.\tGT\t0/0\t0|1\t1/1\n\
                 chr1\t200\t.\tC\tT,G\t.\t.\t.\tGT:DP\t0/2:5\t2/2:7\t./.:0\n\
                 chr2\t300\trs1\tAT\t<DEL>\t.\tPASS\t.\tGT\t0/1\t1/1\t0/0\n\
@@ -61,6 +61,8 @@ fn reads_biallelic_and_multiallelic_sites_with_names_labels_and_chromosomes() {
     assert_eq!(names, ["rs1", "chr1:200", "chr2:300", "chr2:300:2"]);
     let chromosomes: Vec<_> = data.matrix.loci().iter().map(|l| l.chromosome.as_deref()).collect();
     assert_eq!(chromosomes, [Some("chr1"), Some("chr1"), Some("chr2"), Some("chr2")]);
+    let positions: Vec<_> = data.matrix.loci().iter().map(|l| l.position).collect();
+    assert_eq!(positions, [Some(100), Some(200), Some(300), Some(300)]);
     assert_eq!(data.matrix.loci()[0].alleles, ["A", "G"]);
     assert_eq!(codes_of(&data, 0), [1, 1, 1, 2, 2, 2]);
     // Allele T (index 1) is carried by nobody: C and G keep codes 1 and 2 in REF/ALT order.

@@ -18,6 +18,7 @@ fn matrix(labels: usize, cells: &[Vec<(u16, u16)>]) -> GenotypeMatrix {
             name: format!("L{l}"),
             alleles: (1..=labels).map(|a| a.to_string()).collect(),
             chromosome: None,
+            position: None,
         })
         .collect();
     let codes = cells.iter().flatten().flat_map(|&(a, b)| [AlleleCode(a), AlleleCode(b)]).collect();

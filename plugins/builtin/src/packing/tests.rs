@@ -73,6 +73,7 @@ fn simulate(shape: Shape) -> GenotypeMatrix {
             name: format!("L{l}"),
             alleles: vec!["A".into(), "C".into(), "G".into()],
             chromosome: None,
+            position: None,
         })
         .collect();
     GenotypeMatrix::new(samples, loci, codes).expect("a well-formed simulated matrix")

@@ -29,6 +29,14 @@
 //! Wright S (1951) The genetical structure of populations. *Ann Eugen* 15:323–354.
 //! Falconer DS, Mackay TFC (1996) *Introduction to Quantitative Genetics*, 4th ed. Longman.
 
+/// The share of fitness retained after inbreeding ΔF rises by `inbreeding`, with
+/// `lethal_equivalents` diploid lethal equivalents (2B): W_F/W₀ = exp(−B·ΔF) with B = 2B/2 the
+/// lethal equivalents per gamete of Morton, Crow & Muller (1956), whose regression
+/// ln W = ln W₀ − B·F counts them per haploid gamete. NaN when `inbreeding` is NaN.
+pub fn fitness_retained(lethal_equivalents: f64, inbreeding: f64) -> f64 {
+    (-(lethal_equivalents / 2.0) * inbreeding).exp()
+}
+
 /// The full reference of the decay formulas, for a step's citations.
 pub const WRIGHT_1931: &str = "Wright S (1931) Evolution in Mendelian populations. Genetics 16:97–159.";
 
@@ -118,6 +126,15 @@ mod tests {
         assert_close(generations_to_lose(0.1, 50.0), 10.483_283, 1e-6);
         assert_eq!(generations_to_lose(0.1, f64::INFINITY), f64::INFINITY);
         assert_eq!(generations_to_lose(0.0, 50.0), 0.0);
+    }
+
+    /// By hand from Morton, Crow & Muller (1956), W/W₀ = exp(−B·F) with B per gamete: 12 diploid
+    /// lethal equivalents (B = 6) at F = 0.1 keep exp(−0.6) = 0.548812; at F = 0 everything.
+    #[test]
+    fn fitness_retained_uses_lethal_equivalents_per_gamete() {
+        assert_close(fitness_retained(12.0, 0.1), 0.548_812, 1e-6);
+        assert_eq!(fitness_retained(12.0, 0.0), 1.0);
+        assert!(fitness_retained(12.0, f64::NAN).is_nan());
     }
 
     /// Degenerate sizes never give a negative or >1 proportion (common practice: a retention

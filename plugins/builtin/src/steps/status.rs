@@ -67,15 +67,28 @@
 //!   1/{2[1 − 0.9^{T/L}]}, T the generation time and L the horizon in years (Soulé et al. 1986,
 //!   who proposed 200 years; 100 years is a later variant of their rule, hence the parameter).
 //!
-//! An infinite Ne keeps everything (`h_retained` = 1, `f_drift` = 0). A population that is not
-//! estimable (interval ∞–∞) has no projection. Without `generation_time_years` the projection
+//! # Cost of inbreeding (docs/methods.md, "Cost of inbreeding")
+//! `fitness_retained` = W_t/W₀ = exp(−B·ΔF) (Morton, Crow & Muller 1956) with ΔF = `f_drift` and
+//! B = `lethal_equivalents`/2, the lethal equivalents per gamete (the parameter counts them per
+//! diploid genome, 2B; default 12, the mean over the life history in wild mammals and birds of
+//! O'Grady et al. 2006). `fitness_retained_low`/`_high` use `f_drift_high`/`f_drift_low` (the
+//! Ne interval's lower and upper bounds); `fitness_retained_b_low`/`_b_high` use
+//! `lethal_equivalents_low` (default 3.1) and `lethal_equivalents_high` (default 30.3), the median
+//! and the largest estimate for juvenile survival in 40 captive mammal populations (Ralls,
+//! Ballou & Templeton 1988), at the point Ne. They are `null` exactly where `f_drift` (or the
+//! bound used) is. Lethal equivalents vary among species, traits and environments, and purging
+//! is not modelled: the `inbreeding-depression` finding says so.
+//!
+//! An infinite Ne keeps everything (`h_retained` = 1, `f_drift` = 0, `fitness_retained` = 1). A
+//! population that is not estimable (interval ∞–∞) has no projection. Without `generation_time_years` the projection
 //! columns are `null` and a finding says how to set it.
 //!
 //! # Tables
 //! - `populations`: population, year, ne_year, ne, ne_low, ne_high, ne_method, ci_method, s,
 //!   category, interval_reaches, interval_note, census_size, census_year, ne_nc, fis, fis_low,
 //!   fis_high, generations, h_retained, h_retained_low, h_retained_high, f_drift, f_drift_low,
-//!   f_drift_high, generations_to_lose_10, years_to_lose_10.
+//!   f_drift_high, generations_to_lose_10, years_to_lose_10, fitness_retained,
+//!   fitness_retained_low, fitness_retained_high, fitness_retained_b_low, fitness_retained_b_high.
 //! - `projection`: population, generation, years_ahead, year (sampling year + years ahead),
 //!   h_retained, f_drift — one point per generation from now to the horizon (one per 5 years
 //!   when that would exceed 100 generations), plus the horizon itself.
@@ -95,8 +108,8 @@
 //! `ld-criterion` (info) and `ld-criterion-missing` (warning) per population with an LD
 //! estimate; `census-year-mismatch`, `census-year-unknown`, `ne-nc-context`;
 //! `no-generation-time`; `thresholds` and `horizon` (info) naming the sources of the thresholds
-//! and the horizon. Special values, one finding per reason naming the rows and the columns
-//! concerned: `infinite-ne` (an infinite point), `infinite-upper-bound` (only `ne_high` is
+//! and the horizon; `inbreeding-depression` (info) on the cost of inbreeding and its limits.
+//! Special values, one finding per reason naming the rows and the columns concerned: `infinite-ne` (an infinite point), `infinite-upper-bound` (only `ne_high` is
 //! `"inf"`), `not-estimable` (warning: interval ∞–∞), `no-fis`, `no-fis-interval`,
 //! `s-not-applicable`.
 
@@ -115,7 +128,7 @@ use popgauge_abi::{
 use serde::Deserialize;
 use serde_json::{Value, json};
 
-use crate::stats::drift::{drift_inbreeding, heterozygosity_retained};
+use crate::stats::drift::{drift_inbreeding, fitness_retained, heterozygosity_retained};
 use crate::steps::trend::sources::diversity_points;
 pub use category::{Category, categorise, default_labels};
 use findings::{collect_findings, special_value_findings};
@@ -132,8 +145,12 @@ const MAX_GENERATION_POINTS: f64 = 100.0;
 /// Spacing of projection points in years when there are too many generations.
 const COARSE_STEP_YEARS: f64 = 5.0;
 
+/// Diploid lethal equivalents by default: 12, the mean over the life history in wild mammals
+/// and birds of O'Grady et al. (2006).
+pub const DEFAULT_LETHAL_EQUIVALENTS: f64 = 12.0;
+
 /// Full references of the thresholds and rules of thumb, for the step's citations.
-pub const CITATIONS: [&str; 11] = [
+pub const CITATIONS: [&str; 15] = [
     "Franklin IR (1980) Evolutionary change in small populations. In Soulé ME, Wilcox BA (eds) Conservation \
      Biology: An Evolutionary-Ecological Perspective. Sinauer, Sunderland MA, 135–149.",
     "Soulé ME (1980) Thresholds for survival: maintaining fitness and evolutionary potential. Ibid., 151–169.",
@@ -152,6 +169,14 @@ pub const CITATIONS: [&str; 11] = [
     "Lande R (1995) Mutation and conservation. Conserv Biol 9:782–791.",
     "Waples RS, Do C (2010) Linkage disequilibrium estimates of contemporary Ne using highly variable genetic \
      markers: a largely untapped resource for applied conservation and evolution. Evol Appl 3:244–262.",
+    "Morton NE, Crow JF, Muller HJ (1956) An estimate of the mutational damage in man from data on consanguineous \
+     marriages. Proc Natl Acad Sci USA 42:855–863.",
+    "O'Grady JJ, Brook BW, Reed DH, Ballou JD, Tonkyn DW, Frankham R (2006) Realistic levels of inbreeding \
+     depression strongly affect extinction risk in wild populations. Biol Conserv 133:42–51.",
+    "Ralls K, Ballou JD, Templeton A (1988) Estimates of lethal equivalents and the cost of inbreeding in mammals. \
+     Conserv Biol 2:185–193.",
+    "Nietlisbach P, Muff S, Reid JM, Whitlock MC, Keller LF (2019) Nonequivalent lethal equivalents: models and \
+     inbreeding metrics for unbiased estimation of inbreeding load. Evol Appl 12:266–279.",
 ];
 
 /// Parameters of `status`, as resolved from the descriptor (defaults live there).
@@ -166,15 +191,21 @@ pub struct Params {
     pub labels: Option<Vec<String>>,
     /// The sampling year assessed for every population; `None` for each one's latest.
     pub year: Option<i32>,
+    /// Diploid lethal equivalents (2B) for the cost of inbreeding.
+    pub lethal_equivalents: f64,
+    /// The low end of the range of diploid lethal equivalents shown beside it.
+    pub lethal_equivalents_low: f64,
+    /// The high end of that range.
+    pub lethal_equivalents_high: f64,
 }
 
 /// The descriptor of `status`: its name, version and parameters with defaults.
 pub fn descriptor() -> Descriptor {
     Descriptor::new(
         "status",
-        "0.2.0",
+        "0.3.0",
         "Ne against the thresholds with its interval, Ne/Nc, FIS, projected loss of heterozygosity and inbreeding \
-         by drift over a horizon, and the share of populations above each threshold",
+         by drift over a horizon with its cost in fitness, and the share of populations above each threshold",
     )
     .param(
         "prefer",
@@ -200,6 +231,27 @@ pub fn descriptor() -> Descriptor {
         ParamKind::Integer { min: 0, max: 9999 },
         Value::Null,
         "sampling year assessed for every population; null = each population's latest sampling year",
+    )
+    .param(
+        "lethal_equivalents",
+        ParamKind::Number { min: 0.0, max: 100.0 },
+        json!(DEFAULT_LETHAL_EQUIVALENTS),
+        "diploid lethal equivalents (2B) for the fitness cost of f_drift, exp(−(2B/2)·f_drift); 12 = mean over the \
+         life history in wild mammals and birds (O'Grady et al. 2006)",
+    )
+    .param(
+        "lethal_equivalents_low",
+        ParamKind::Number { min: 0.0, max: 100.0 },
+        json!(3.1),
+        "low end of the range of diploid lethal equivalents shown (fitness_retained_b_low); 3.1 = median for \
+         juvenile survival in 40 captive mammal populations (Ralls, Ballou & Templeton 1988)",
+    )
+    .param(
+        "lethal_equivalents_high",
+        ParamKind::Number { min: 0.0, max: 100.0 },
+        json!(30.3),
+        "high end of that range (fitness_retained_b_high); 30.3 = the largest of those 40 estimates (Ralls, Ballou \
+         & Templeton 1988)",
     )
 }
 
@@ -236,6 +288,16 @@ struct Setting {
     horizon_years: f64,
     generation_time: Option<f64>,
     year: Option<i32>,
+    /// Diploid lethal equivalents: the value used and the range shown.
+    lethal_equivalents: LethalEquivalents,
+}
+
+/// Diploid lethal equivalents (2B): the value used for `fitness_retained` and the range shown.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct LethalEquivalents {
+    pub point: f64,
+    pub low: f64,
+    pub high: f64,
 }
 
 impl Setting {
@@ -251,7 +313,23 @@ impl Setting {
             None => default_labels(&thresholds),
         };
         let generation_time = ctx.assessment.generation_time_years.filter(|g| g.is_finite() && *g > 0.0);
+        let lethal_equivalents = LethalEquivalents {
+            point: params.lethal_equivalents,
+            low: params.lethal_equivalents_low,
+            high: params.lethal_equivalents_high,
+        };
+        if !(lethal_equivalents.low <= lethal_equivalents.point && lethal_equivalents.point <= lethal_equivalents.high)
+        {
+            return Err(StepError::new(format!(
+                "parameters `lethal_equivalents_low` = {}, `lethal_equivalents` = {} and `lethal_equivalents_high` = {} \
+                 must be in ascending order\n  help: give a range around the value used, for example 3.1, 12 and 30.3",
+                format_number(lethal_equivalents.low),
+                format_number(lethal_equivalents.point),
+                format_number(lethal_equivalents.high)
+            )));
+        }
         Ok(Setting {
+            lethal_equivalents,
             sources,
             thresholds,
             labels,
@@ -374,6 +452,14 @@ fn fis_reader(diversity: Option<&StepResult>) -> impl Fn(&str, i32) -> Fis {
 struct Projection {
     retained: f64,
     drift_inbreeding: f64,
+}
+
+impl Projection {
+    /// W_t/W₀ = exp(−(2B/2)·F_drift) with `lethal_equivalents` diploid lethal equivalents
+    /// (Morton, Crow & Muller 1956).
+    fn fitness_retained(&self, lethal_equivalents: f64) -> f64 {
+        fitness_retained(lethal_equivalents, self.drift_inbreeding)
+    }
 }
 
 fn project(ne: f64, generations: f64) -> Projection {

@@ -481,6 +481,7 @@ fn pairs_matrix(
             name: format!("L{l}"),
             alleles: (1..=alleles).map(|a| (100 + 2 * a).to_string()).collect(),
             chromosome: None,
+            position: None,
         })
         .collect();
     GenotypeMatrix::new(samples, locus_meta, codes).expect("simulated matrix is well formed")
@@ -586,7 +587,12 @@ fn cline_of(populations: usize, rise: f64) -> GenotypeMatrix {
         }
     }
     let loci = (0..12)
-        .map(|l| LocusMeta { name: format!("L{l}"), alleles: vec!["A".into(), "G".into()], chromosome: None })
+        .map(|l| LocusMeta {
+            name: format!("L{l}"),
+            alleles: vec!["A".into(), "G".into()],
+            chromosome: None,
+            position: None,
+        })
         .collect();
     GenotypeMatrix::new(samples, loci, codes).expect("simulated matrix is well formed")
 }

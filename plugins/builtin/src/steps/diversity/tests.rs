@@ -467,7 +467,7 @@ fn simulated_inbreeding_matrix(individuals: usize, loci: usize) -> GenotypeMatri
             }
         }
         let alleles = (1..=allele_count).map(|a| a.to_string()).collect();
-        locus_meta.push(LocusMeta { name: format!("L{l}"), alleles, chromosome: None });
+        locus_meta.push(LocusMeta { name: format!("L{l}"), alleles, chromosome: None, position: None });
     }
     GenotypeMatrix::new(samples, locus_meta, codes).expect("simulated matrix is well formed")
 }

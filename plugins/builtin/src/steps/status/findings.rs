@@ -23,7 +23,32 @@ pub(super) fn collect_findings(assessed: &[Assessed], setting: &Setting) -> Vec<
         ));
     }
     findings.push(horizon_finding(setting));
+    findings.push(inbreeding_depression_finding(setting));
     findings
+}
+
+/// How the cost of inbreeding is computed, and why it is a rough guide.
+fn inbreeding_depression_finding(setting: &Setting) -> Finding {
+    let b = setting.lethal_equivalents;
+    Finding::info(
+        "inbreeding-depression",
+        format!(
+            "fitness_retained = exp(−(2B/2)·f_drift), the share of today's fitness expected to remain after the drift \
+             inbreeding of the horizon (Morton, Crow & Muller 1956, with 2B = {} diploid lethal equivalents, the \
+             mean over the life history in wild mammals and birds of O'Grady et al. 2006); fitness_retained_low and \
+             _high take f_drift at the Ne interval's bounds, fitness_retained_b_low and _b_high take {} and {} \
+             diploid lethal equivalents at the point Ne (the median and the largest estimate for juvenile survival \
+             in 40 captive mammal populations, Ralls, Ballou & Templeton 1988). The number of lethal equivalents \
+             varies among species, populations, traits and environments (wild vertebrates average about 3.5 per \
+             gamete for survival to sexual maturity alone, Nietlisbach et al. 2019), and purging of deleterious \
+             alleles, selection and gene flow are not modelled: read these columns as an order of magnitude for \
+             a constant Ne, not a prediction",
+            format_number(b.point),
+            format_number(b.low),
+            format_number(b.high)
+        ),
+        Where::default(),
+    )
 }
 
 fn caution_finding() -> Finding {

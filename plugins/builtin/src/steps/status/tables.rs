@@ -4,12 +4,13 @@ use popgauge_abi::{Cell, StepError, Table};
 
 use super::category::{interval_note, reached_text, thresholds_reached};
 use super::{
-    Assessed, COARSE_STEP_YEARS, LOSS_REPORTED, MAX_GENERATION_POINTS, RETAIN_TARGET, Setting, ne_to_retain, project,
+    Assessed, COARSE_STEP_YEARS, LOSS_REPORTED, MAX_GENERATION_POINTS, Projection, RETAIN_TARGET, Setting,
+    ne_to_retain, project,
 };
 use crate::stats::drift::generations_to_lose;
 
 /// The columns of `populations`, in order.
-pub(super) const POPULATION_COLUMNS: [&str; 27] = [
+pub(super) const POPULATION_COLUMNS: [&str; 32] = [
     "population",
     "year",
     "ne_year",
@@ -37,6 +38,11 @@ pub(super) const POPULATION_COLUMNS: [&str; 27] = [
     "f_drift_high",
     "generations_to_lose_10",
     "years_to_lose_10",
+    "fitness_retained",
+    "fitness_retained_low",
+    "fitness_retained_high",
+    "fitness_retained_b_low",
+    "fitness_retained_b_high",
 ];
 
 pub(super) fn populations_table(assessed: &[Assessed], setting: &Setting) -> Result<Table, StepError> {
@@ -83,7 +89,8 @@ fn census_and_fis_cells(a: &Assessed) -> Vec<Cell> {
     ]
 }
 
-/// generations … years_to_lose_10. The upper Ne bound gives the lower F_drift and vice versa.
+/// generations … fitness_retained_b_high. The upper Ne bound gives the lower F_drift (and the
+/// higher fitness) and vice versa; the range of lethal equivalents is taken at the point Ne.
 fn projection_cells(a: &Assessed, setting: &Setting) -> Vec<Cell> {
     let generations = setting.horizon_generations();
     let e = a.estimable();
@@ -100,6 +107,27 @@ fn projection_cells(a: &Assessed, setting: &Setting) -> Vec<Cell> {
         Cell::maybe(at_low.as_ref().map(|p| p.drift_inbreeding)),
         Cell::maybe(to_lose),
         Cell::maybe(to_lose.zip(setting.generation_time).map(|(t, g)| t * g)),
+    ]
+    .into_iter()
+    .chain(fitness_cells(&point, &at_low, &at_high, setting))
+    .collect()
+}
+
+/// fitness_retained … fitness_retained_b_high.
+fn fitness_cells(
+    point: &Option<Projection>,
+    at_low: &Option<Projection>,
+    at_high: &Option<Projection>,
+    setting: &Setting,
+) -> [Cell; 5] {
+    let b = setting.lethal_equivalents;
+    let fitness = |p: &Option<Projection>, b: f64| Cell::maybe(p.as_ref().map(|p| p.fitness_retained(b)));
+    [
+        fitness(point, b.point),
+        fitness(at_low, b.point),
+        fitness(at_high, b.point),
+        fitness(point, b.low),
+        fitness(point, b.high),
     ]
 }
 

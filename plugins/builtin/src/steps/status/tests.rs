@@ -293,6 +293,46 @@ fn populations_table_through_the_step() {
     assert!(s_null[0].message.ends_with(": South 2020 (temporal)"), "{}", s_null[0].message);
 }
 
+/// The cost of inbreeding, by hand from Morton, Crow & Muller (1956), W_t/W₀ = exp(−B·ΔF) with
+/// B = 2B/2 lethal equivalents per gamete and ΔF = f_drift: North (f_drift 0.099121 at Ne 120,
+/// 0.145074 at 80, 0.060660 at 200) with the default 12 diploid lethal equivalents keeps
+/// exp(−6·0.099121) = 0.551714, at the lower Ne bound 0.418766, at the upper 0.694917; with 3.1
+/// and 30.3 (the default range) 0.857583 and 0.222755. West has no Ne, so no cost; the
+/// finding says that B varies and purging is not modelled.
+#[test]
+fn fitness_retained_follows_drift_inbreeding_and_lethal_equivalents() {
+    let output = default_run();
+    let pops = table(&output, "populations");
+    let north = row_with(pops, "population", "North");
+    assert_close(number(pops, north, "fitness_retained").unwrap(), 0.551714, 1e-6);
+    assert_close(number(pops, north, "fitness_retained_low").unwrap(), 0.418766, 1e-6);
+    assert_close(number(pops, north, "fitness_retained_high").unwrap(), 0.694917, 1e-6);
+    assert_close(number(pops, north, "fitness_retained_b_low").unwrap(), 0.857583, 1e-6);
+    assert_close(number(pops, north, "fitness_retained_b_high").unwrap(), 0.222755, 1e-6);
+    let west = row_with(pops, "population", "West");
+    assert_eq!(number(pops, west, "fitness_retained"), None);
+    let caution = findings_with(&output, "inbreeding-depression");
+    assert_eq!(caution.len(), 1);
+    assert!(caution[0].message.contains("purging") && caution[0].message.contains("12"), "{}", caution[0].message);
+}
+
+/// STYLE: a range of lethal equivalents out of order is refused with a help line.
+#[test]
+fn lethal_equivalents_out_of_order_are_refused() {
+    let error = run_on(
+        &matrix(),
+        &earlier_results(),
+        &assessment(&[50.0, 500.0], Some(4.0)),
+        json!({"lethal_equivalents": 2.0, "lethal_equivalents_low": 3.1}),
+    )
+    .unwrap_err();
+    assert_eq!(
+        error.message,
+        "parameters `lethal_equivalents_low` = 3.1, `lethal_equivalents` = 2 and `lethal_equivalents_high` = 30.3 must \
+         be in ascending order\n  help: give a range around the value used, for example 3.1, 12 and 30.3"
+    );
+}
+
 /// Wright (1931): F_drift(t) = 1 − (1 − 1/(2Ne))ᵗ is by construction the share of
 /// heterozygosity lost, so h_retained + f_drift = 1 at the point, and at each bound with the
 /// bounds swapped (the lower Ne gives the higher F_drift); likewise in `projection`.
