@@ -1,8 +1,9 @@
 //! The optional locus sheet: `locus` plus any of `marker` (the marker type in words:
 //! `microsatellite`, `SNP`), `motif` (the repeat motif of a microsatellite, e.g. `GATA`),
 //! `chromosome` and `position` (base pairs). The document's data-quality table prints them
-//! beside each locus; `chromosome` fills in the chromosome of a locus whose genotype file does
-//! not give one (a wide table), so that `ne-ld` can leave out pairs on the same chromosome.
+//! beside each locus; `chromosome` and `position` fill in those of a locus whose genotype file
+//! does not give them (a wide table), so that `ne-ld` can leave out pairs on the same
+//! chromosome and `inbreeding` can scan runs of homozygosity.
 
 use std::collections::{BTreeMap, BTreeSet};
 
@@ -163,6 +164,24 @@ pub fn apply_locus_sheet(
     let mut loci: Vec<LocusMeta> = matrix.loci().to_vec();
     for meta in &mut loci {
         let Some((line, row)) = by_name.get(meta.name.as_str()) else { continue };
+        if let Some(sheet_position) = row.position {
+            match meta.position {
+                None => {
+                    meta.position = Some(sheet_position);
+                    changed = true;
+                }
+                Some(read) if read != sheet_position => {
+                    return Err(DataError::BadField {
+                        at: Location::line(file, *line),
+                        column: "position".into(),
+                        text: sheet_position.to_string(),
+                        problem: format!("locus {} is at position {read} in the genotype file", meta.name),
+                        help: "correct the locus sheet, or leave its position cell empty to use the genotype file's".into(),
+                    });
+                }
+                Some(_) => {}
+            }
+        }
         let Some(sheet_chromosome) = &row.chromosome else { continue };
         match &meta.chromosome {
             None => {
@@ -214,6 +233,7 @@ mod tests {
                 name: (*name).into(),
                 alleles: vec!["1".into()],
                 chromosome: chromosome.map(String::from),
+                position: None,
             })
             .collect();
         GenotypeMatrix::new(samples, loci, vec![AlleleCode(1); 4]).unwrap()
@@ -254,6 +274,16 @@ mod tests {
         let codes: Vec<&str> = findings.iter().map(|f| f.code.as_str()).collect();
         assert_eq!(codes, ["unknown-locus", "locus-not-in-sheet"]);
         assert!(findings[0].message.contains("L9") && findings[1].message.contains("L2"));
+    }
+
+    /// A wide table has no positions: the sheet's fill them in, so that runs of homozygosity
+    /// can be scanned.
+    #[test]
+    fn fills_missing_positions() {
+        let sheet = read_locus_sheet(b"locus,chromosome,position\nL1,1,1500\nL2,1,90000\n", "loci.csv").unwrap();
+        let (m, _) = apply_locus_sheet(matrix([None, None]), &sheet, "loci.csv").unwrap();
+        assert_eq!(m.loci()[0].position, Some(1500));
+        assert_eq!(m.loci()[1].position, Some(90000));
     }
 
     #[test]

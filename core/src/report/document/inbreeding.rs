@@ -29,7 +29,12 @@ pub struct InbreedingSection {
     pub panel: Option<String>,
     /// What g2 says, in sentences per group where it is significant, or one sentence.
     pub g2_sentences: Vec<String>,
-    /// The measure the chart shows (`F_ROH` or `f_uni`).
+    /// Whether F̂III is shown (enough loci with two alleles), and if not, the most such loci
+    /// an animal was typed at, display text.
+    pub f_uni_shown: bool,
+    /// The most loci with two alleles any animal was typed at.
+    pub biallelic_max: String,
+    /// The measure the chart shows (`F_ROH`, `F̂III` or `sMLH`).
     pub chart_measure: Option<String>,
     /// The CSV file of every animal's values.
     pub individuals_file: String,
@@ -38,6 +43,10 @@ pub struct InbreedingSection {
 }
 
 const F_UNI: &str = "f_uni";
+/// Fewest loci with two alleles at which the document shows an animal's F̂III: a display rule
+/// of the document (the step computes it from any number), since with a handful of such loci,
+/// as in a microsatellite panel with one two-allele locus, the estimate says little.
+pub const MIN_BIALLELIC_LOCI: f64 = 20.0;
 const F_ROH: &str = "f_roh";
 const SMLH: &str = "smlh";
 
@@ -54,6 +63,10 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     let groups = table_of(step, "groups")?;
     let individuals = table_of(step, "individuals");
     let has_roh = groups.iter().any(|r| r.num("f_roh_mean").is_some());
+    let biallelic_max = individuals
+        .map(|rows| rows.iter().filter_map(|r| r.num("loci_biallelic")).fold(0.0_f64, f64::max))
+        .unwrap_or(0.0);
+    let f_uni_shown = biallelic_max >= MIN_BIALLELIC_LOCI;
     let mut t = TableData::new(&[
         ("Population", false),
         ("Year", true),
@@ -89,7 +102,7 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             whole(&row, "year"),
             whole(&row, "n"),
             mean_sd(&row, SMLH),
-            mean_sd(&row, F_UNI),
+            if f_uni_shown { mean_sd(&row, F_UNI) } else { format::UNDEFINED.into() },
             mean_sd(&row, F_ROH),
             g2,
             format::maybe(row.num("g2_p"), NumberStyle::PValue),
@@ -139,7 +152,14 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             whole(&row, "loci"),
         ))
     });
-    let chart_measure = individuals.and_then(|rows| strip_chart(ctx, &rows, has_roh, extras));
+    let measure = if has_roh {
+        Measure::Roh
+    } else if f_uni_shown {
+        Measure::Uni
+    } else {
+        Measure::Smlh
+    };
+    let chart_measure = individuals.and_then(|rows| strip_chart(ctx, &rows, measure, extras));
     Some(InbreedingSection {
         step: step.id.clone(),
         groups: t,
@@ -147,16 +167,33 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
         has_roh,
         panel: panel.filter(|_| has_roh),
         g2_sentences,
+        f_uni_shown,
+        biallelic_max: format!("{biallelic_max:.0}"),
         chart_measure,
         individuals_file: table_file(&step.id, "individuals"),
         runs_file: has_roh.then(|| table_file(&step.id, "runs")),
     })
 }
 
-/// Every animal's F_ROH (or f_uni without positions) per group, as points with the group mean.
-fn strip_chart(ctx: &Context<'_>, rows: &Rows<'_>, has_roh: bool, extras: &mut Extras) -> Option<String> {
-    let (column, label, name) =
-        if has_roh { (F_ROH, "FROH (share of the genome in runs)", "FROH") } else { (F_UNI, "F̂III (Yang et al. 2011)", "F̂III") };
+/// What the chart of animals shows.
+#[derive(Debug, Clone, Copy)]
+enum Measure {
+    /// F_ROH, with positions.
+    Roh,
+    /// F̂III, with enough loci of two alleles.
+    Uni,
+    /// sMLH otherwise (microsatellites).
+    Smlh,
+}
+
+/// Every animal's F_ROH (F̂III without positions, sMLH without enough two-allele loci) per
+/// group, as points with the group mean.
+fn strip_chart(ctx: &Context<'_>, rows: &Rows<'_>, measure: Measure, extras: &mut Extras) -> Option<String> {
+    let (column, label, name) = match measure {
+        Measure::Roh => (F_ROH, "FROH (share of the genome in runs)", "FROH"),
+        Measure::Uni => (F_UNI, "F̂III (Yang et al. 2011)", "F̂III"),
+        Measure::Smlh => (SMLH, "sMLH (Coltman et al. 1999)", "sMLH"),
+    };
     let mut groups: BTreeMap<(String, i64), Vec<f64>> = BTreeMap::new();
     for row in rows.iter() {
         let (Some(population), Some(year)) = (row.text("population"), row.int("year")) else { continue };
