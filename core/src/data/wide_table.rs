@@ -493,10 +493,10 @@ impl<'a> Builder<'a> {
     fn intern(&mut self, locus: usize, label: &str) -> Result<AlleleCode, DataError> {
         let packed = pack_label(label);
         let first = &mut self.first_labels[locus];
-        if packed != 0 {
-            if let Some(k) = first.iter().position(|&p| p == packed) {
-                return Ok(AlleleCode(k as u16 + 1));
-            }
+        if packed != 0
+            && let Some(k) = first.iter().position(|&p| p == packed)
+        {
+            return Ok(AlleleCode(k as u16 + 1));
         }
         let labels = &mut self.labels[locus];
         if let Some(code) = labels.code(label) {
