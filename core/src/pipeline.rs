@@ -2,6 +2,8 @@
 
 use std::path::{Path, PathBuf};
 
+use rayon::prelude::*;
+
 use popgauge_abi::{Finding, FindingLevel};
 
 use crate::data::{DataError, LoadedData, load_data};
@@ -9,10 +11,10 @@ use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
-use crate::provenance::prov::ProvDocument;
 use crate::provenance::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
+use crate::provenance::prov::ProvDocument;
 use crate::provenance::record::{
-    AssessmentEntry, FileEntry, PluginEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
+    AssessmentEntry, FileEntry, PROVENANCE_SCHEMA, PluginEntry, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
 };
 use crate::recipe::{InputFile, Recipe, RecipeError, load_recipe};
 use crate::report::template::Template;
@@ -95,10 +97,8 @@ pub struct LoadedCase {
 /// [`RunError::Recipe`] or [`RunError::Data`].
 pub fn load_case(case_dir: &Path, allow_outside: bool, progress: &mut dyn Progress) -> Result<LoadedCase, RunError> {
     let recipe = load_recipe(case_dir, allow_outside)?;
-    let recipe_bytes = std::fs::read(&recipe.recipe_file.path).map_err(|source| RecipeError::Unreadable {
-        path: recipe.recipe_file.path.display().to_string(),
-        source,
-    })?;
+    let recipe_bytes = std::fs::read(&recipe.recipe_file.path)
+        .map_err(|source| RecipeError::Unreadable { path: recipe.recipe_file.path.display().to_string(), source })?;
     let mut data = load_data(&recipe, progress)?;
     let template = load_template(&recipe)?;
     data.digests.extend(template_digests(&recipe, &template));
@@ -121,7 +121,8 @@ fn template_digests(recipe: &Recipe, template: &Template) -> Vec<(InputFile, Fil
         .files
         .iter()
         .map(|(name, bytes)| {
-            let file = InputFile { role: "template".into(), relative: format!("{folder}/{name}"), path: dir.join(name) };
+            let file =
+                InputFile { role: "template".into(), relative: format!("{folder}/{name}"), path: dir.join(name) };
             (file, digest_bytes(bytes))
         })
         .collect()
@@ -154,7 +155,12 @@ pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progre
     progress.task("typesetting the assessment");
     let (results, mut files) = render_outputs(&case, &engine)?;
     let case_folder = relative_path(&absolute_path(&out), &absolute_path(case_dir));
-    let provenance = provenance_record(&case, &engine, &files, RunFacts { started, case_folder, operator: options.operator.clone() });
+    let provenance = provenance_record(
+        &case,
+        &engine,
+        &files,
+        RunFacts { started, case_folder, operator: options.operator.clone() },
+    );
     files.push(("provenance.json".into(), pretty_json(&provenance)));
     write_folder(&out, &files, options.force)?;
     progress.finish();
@@ -176,19 +182,41 @@ fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
 /// compile, named by file and line).
 pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(ResultsDocument, OutputFiles), RunError> {
     let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, engine);
-    let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
-    files.extend(results.table_files());
+    // The results file and tables, and the document, depend only on `results`: made side by
+    // side (the document's typesetting is single-threaded).
+    let (mut files, document) = rayon::join(
+        || {
+            let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
+            files.extend(results.table_files());
+            files
+        },
+        || render_document(case, engine, &results),
+    );
+    files.extend(document?);
+    Ok((results, files))
+}
+
+/// The document's files (PDF, figures, document data) from the results.
+fn render_document(
+    case: &LoadedCase,
+    engine: &EngineOutput,
+    results: &ResultsDocument,
+) -> Result<OutputFiles, RunError> {
     let fingerprint = assessment_fingerprint(case, engine);
-    let facts = |file: &InputFile, digest: &FileDigest| FileFacts { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() };
+    let facts = |file: &InputFile, digest: &FileDigest| FileFacts {
+        role: file.role.clone(),
+        path: file.relative.clone(),
+        size: digest.size,
+        sha256: digest.sha256.clone(),
+    };
     let source = ReportSource {
-        results: &results,
+        results,
         runs: &engine.runs,
         recipe: facts(&case.recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| facts(file, digest)).collect(),
         fingerprint: &fingerprint,
     };
-    files.extend(crate::report::render(&source, &case.template)?.into_files());
-    Ok((results, files))
+    Ok(crate::report::render(&source, &case.template)?.into_files())
 }
 
 /// The run facts that are not in the case: when, where, by whom.
@@ -216,12 +244,19 @@ fn file_entry(file: &InputFile, digest: &FileDigest) -> FileEntry {
     FileEntry { role: file.role.clone(), path: file.relative.clone(), size: digest.size, sha256: digest.sha256.clone() }
 }
 
-fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFiles, facts: RunFacts) -> ProvenanceRecord {
+fn provenance_record(
+    case: &LoadedCase,
+    engine: &EngineOutput,
+    files: &OutputFiles,
+    facts: RunFacts,
+) -> ProvenanceRecord {
     let recipe = &case.recipe;
     let outputs = files
-        .iter()
+        .par_iter()
         .map(|(path, bytes)| FileEntry {
-            role: crate::report::output_role(path).unwrap_or(if path.starts_with("tables/") { "table" } else { "results" }).into(),
+            role: crate::report::output_role(path)
+                .unwrap_or(if path.starts_with("tables/") { "table" } else { "results" })
+                .into(),
             path: path.clone(),
             size: bytes.len() as u64,
             sha256: sha256_hex(bytes),
@@ -253,7 +288,12 @@ fn provenance_record(case: &LoadedCase, engine: &EngineOutput, files: &OutputFil
             date_defaulted: recipe.date_defaulted,
             seed: recipe.assessment.seed,
         },
-        run: RunEntry { started: facts.started, ended: now_rfc3339(), operator: facts.operator, case_folder: facts.case_folder },
+        run: RunEntry {
+            started: facts.started,
+            ended: now_rfc3339(),
+            operator: facts.operator,
+            case_folder: facts.case_folder,
+        },
         recipe: file_entry(&recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| file_entry(file, digest)).collect(),
         steps,
