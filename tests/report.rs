@@ -245,6 +245,50 @@ fn the_demo_document_has_design_quality_methods_prose_and_complete_figures() {
     );
 }
 
+/// The colony demo: each animal's inbreeding from a SNP panel with positions. F_ROH follows
+/// the simulated realised share of genome identical by descent (`truth.csv`, the simulation's
+/// own record; r ≥ 0.9 as in the inbreeding step's accuracy tests), and the document shows the
+/// section, the run-length classes and one mark per animal in its chart.
+#[test]
+fn the_colony_demo_measures_each_animals_inbreeding_against_the_simulated_truth() {
+    let case = Case::colony();
+    let run = case.run(&["run", "case", "--out", "out"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let out = case.root().join("out");
+    let doc = results(&out);
+    let individuals = rows(&doc, "inbreeding", "individuals");
+    let truth: std::collections::BTreeMap<String, f64> = std::fs::read_to_string(case.path().join("truth.csv"))
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let cells: Vec<&str> = l.split(',').collect();
+            (cells[0].to_string(), cells[3].parse().unwrap())
+        })
+        .collect();
+    let pairs: Vec<(f64, f64)> = individuals
+        .iter()
+        .map(|r| (r["f_roh"].as_f64().expect("every animal has F_ROH"), truth[r["sample"].as_str().unwrap()]))
+        .collect();
+    assert_eq!(pairs.len(), truth.len());
+    let n = pairs.len() as f64;
+    let (mx, my) = (pairs.iter().map(|p| p.0).sum::<f64>() / n, pairs.iter().map(|p| p.1).sum::<f64>() / n);
+    let sxy: f64 = pairs.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
+    let sxx: f64 = pairs.iter().map(|p| (p.0 - mx).powi(2)).sum();
+    let syy: f64 = pairs.iter().map(|p| (p.1 - my).powi(2)).sum();
+    let r = sxy / (sxx * syy).sqrt();
+    assert!(r >= 0.9, "F_ROH against the realised IBD share: r = {r}");
+
+    let text = pdf_text(&out.join("assessment.pdf"));
+    let flat = squeezed(&text);
+    for said in ["Inbreeding of individuals", "Mean length in Mb per animal in runs of homozygosity", "tables/inbreeding.runs.csv"] {
+        assert!(flat.contains(&squeezed(said)), "`{said}` missing");
+    }
+    let report: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("assessment.json")).unwrap()).unwrap();
+    assert_eq!(report["figures"]["inbreeding"]["marks"].as_u64(), Some(individuals.len() as u64), "one mark per animal");
+}
+
 #[test]
 fn two_runs_give_identical_pdf_bytes() {
     let case = Case::demo();

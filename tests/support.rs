@@ -24,6 +24,11 @@ impl Case {
         Case::copy_of(&repo_root().join("demo-case"))
     }
 
+    /// A copy of `demo-colony/` (a captive colony typed at a SNP panel with positions).
+    pub fn colony() -> Case {
+        Case::copy_of(&repo_root().join("demo-colony"))
+    }
+
     fn copy_of(source: &Path) -> Case {
         let root = tempfile::tempdir().expect("temporary folder");
         copy_dir(source, &root.path().join("case"));

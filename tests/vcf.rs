@@ -94,6 +94,20 @@ fn demo_vcf_case(chromosome: &dyn Fn(usize) -> String) -> Case {
     case
 }
 
+/// A locus sheet placing each demo locus where [`demo_as_vcf`] puts it (chromosome
+/// `chromosome(n)`, position 1000·(n + 1)), so that a wide table carries the same places as
+/// the VCF made from it.
+fn locus_sheet_as_in_vcf(case: &Case, chromosome: &dyn Fn(usize) -> String) -> String {
+    let text = case.read("genotypes.csv");
+    let header = text.lines().next().expect("header");
+    let meta = ["sample", "population", "year", "notes"];
+    let mut sheet = String::from("locus,chromosome,position\n");
+    for (n, locus) in header.split(',').filter(|c| !meta.contains(c)).enumerate() {
+        sheet.push_str(&format!("{locus},{},{}\n", chromosome(n), 1000 * (n + 1)));
+    }
+    sheet
+}
+
 fn results(case: &Case) -> serde_json::Value {
     serde_json::from_str(&case.read("out/results.json")).expect("results.json parses")
 }
@@ -105,14 +119,18 @@ fn run_ok(case: &Case, args: &[&str]) {
 
 /// The same genotypes as a wide table and as VCF give the same step results, the same sample,
 /// locus and group counts (only the input file entries differ). Each locus sits on its own
-/// chromosome so that `ne-ld` skips no pair, as with the wide table (no chromosomes).
+/// chromosome so that `ne-ld` skips no pair, and the wide table gets the same places from its
+/// locus sheet.
 #[test]
 fn vcf_and_wide_table_of_the_same_genotypes_give_identical_results() {
     let wide = Case::demo();
     let (_, _, cleaned) = demo_as_vcf(&wide, &|n| format!("chr{n}"));
-    wide.write("genotypes.csv", cleaned);
+    // The locus sheet gives the wide table the chromosomes and positions the VCF has.
+    let places = locus_sheet_as_in_vcf(&wide, &|n| format!("chr{n}"));
+    wide.write("genotypes.csv", cleaned).write("loci.csv", places.clone());
     run_ok(&wide, &["run", "case", "--quiet"]);
     let vcf = demo_vcf_case(&|n| format!("chr{n}"));
+    vcf.write("loci.csv", places);
     run_ok(&vcf, &["run", "case", "--quiet"]);
     let (wide, vcf) = (results(&wide), results(&vcf));
     assert_eq!(vcf["data"]["genotypes"], "calls.vcf");

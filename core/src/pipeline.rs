@@ -2,6 +2,8 @@
 
 use std::path::{Path, PathBuf};
 
+use rayon::prelude::*;
+
 use popgauge_abi::{Finding, FindingLevel};
 
 use crate::data::{DataError, LoadedData, load_data};
@@ -174,8 +176,26 @@ fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
 /// compile, named by file and line).
 pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(ResultsDocument, OutputFiles), RunError> {
     let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, engine);
-    let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
-    files.extend(results.table_files());
+    // The results file and tables, and the document, depend only on `results`: made side by
+    // side (the document's typesetting is single-threaded).
+    let (mut files, document) = rayon::join(
+        || {
+            let mut files = vec![(crate::results::RESULTS_FILE.to_string(), pretty_json(&results))];
+            files.extend(results.table_files());
+            files
+        },
+        || render_document(case, engine, &results),
+    );
+    files.extend(document?);
+    Ok((results, files))
+}
+
+/// The document's files (PDF, figures, document data) from the results.
+fn render_document(
+    case: &LoadedCase,
+    engine: &EngineOutput,
+    results: &ResultsDocument,
+) -> Result<OutputFiles, RunError> {
     let fingerprint = assessment_fingerprint(case, engine);
     let facts = |file: &InputFile, digest: &FileDigest| FileFacts {
         role: file.role.clone(),
@@ -184,14 +204,13 @@ pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(Resul
         sha256: digest.sha256.clone(),
     };
     let source = ReportSource {
-        results: &results,
+        results,
         runs: &engine.runs,
         recipe: facts(&case.recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| facts(file, digest)).collect(),
         fingerprint: &fingerprint,
     };
-    files.extend(crate::report::render(&source, &case.template)?.into_files());
-    Ok((results, files))
+    Ok(crate::report::render(&source, &case.template)?.into_files())
 }
 
 /// The run facts that are not in the case: when, where, by whom.
@@ -227,7 +246,7 @@ fn provenance_record(
 ) -> ProvenanceRecord {
     let recipe = &case.recipe;
     let outputs = files
-        .iter()
+        .par_iter()
         .map(|(path, bytes)| FileEntry {
             role: crate::report::output_role(path)
                 .unwrap_or(if path.starts_with("tables/") { "table" } else { "results" })

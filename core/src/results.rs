@@ -1,5 +1,7 @@
 //! The results document (`results.json`) and the per-table CSV files.
 
+use std::fmt::Write as _;
+
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
@@ -114,12 +116,14 @@ impl ResultsDocument {
 
     /// Every table as (`tables/<step>.<table>.csv`, CSV bytes), in step then table order.
     pub fn table_files(&self) -> Vec<(String, Vec<u8>)> {
-        self.steps
+        use rayon::prelude::*;
+        let tables: Vec<(&str, &str, &Table)> = self
+            .steps
             .iter()
-            .flat_map(|step| {
-                step.tables.iter().map(move |(name, table)| (table_file(&step.id, name), table_csv(table)))
-            })
-            .collect()
+            .flat_map(|step| step.tables.iter().map(move |(name, table)| (step.id.as_str(), name.as_str(), table)))
+            .collect();
+        // Independent tables are written side by side; `collect` keeps their order.
+        tables.into_par_iter().map(|(step, name, table)| (table_file(step, name), table_csv(table))).collect()
     }
 }
 
@@ -136,8 +140,15 @@ pub fn table_csv(table: &Table) -> Vec<u8> {
     let mut writer = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
     // Writing to memory cannot fail except on allocation failure.
     let _ = writer.write_record(&table.columns);
+    // One text buffer for every cell, rather than a string per cell.
+    let mut cell_text = String::new();
     for row in &table.rows {
-        let _ = writer.write_record(row.iter().map(|c| c.to_string()));
+        for cell in row {
+            cell_text.clear();
+            let _ = write!(cell_text, "{cell}");
+            let _ = writer.write_field(&cell_text);
+        }
+        let _ = writer.write_record(None::<&[u8]>);
     }
     writer.into_inner().unwrap_or_default()
 }

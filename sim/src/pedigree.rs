@@ -55,7 +55,8 @@ impl Genome {
         self.snp_spacing_bp / 2 + index as u64 * self.snp_spacing_bp
     }
 
-    fn chromosome_name(chromosome: usize) -> String {
+    /// The name of chromosome `chromosome` (0-based): `chr01`, `chr02`, …
+    pub fn chromosome_name(chromosome: usize) -> String {
         format!("chr{:02}", chromosome + 1)
     }
 }

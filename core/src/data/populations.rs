@@ -29,7 +29,7 @@ pub struct PopulationSheet {
 /// population listed twice.
 pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet, DataError> {
     let text = decode(file, bytes)?;
-    let table = split_records(file, &text)?;
+    let table = split_records(file, text)?;
     let column = |name: &str| table.header.iter().position(|h| h == name);
     let population_column = column("population").ok_or_else(|| DataError::MissingColumn {
         file: file.into(),
@@ -44,7 +44,13 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
         let number = |name: &str, min: f64, max: f64| parse_number(file, *line, name, field(name), min, max);
         let population = cells[population_column].clone();
         if population.is_empty() {
-            return Err(DataError::BadField { at: Location::line(file, *line), column: "population".into(), text: String::new(), problem: "the cell is empty".into(), help: "name the population as in the genotype table".into() });
+            return Err(DataError::BadField {
+                at: Location::line(file, *line),
+                column: "population".into(),
+                text: String::new(),
+                problem: "the cell is empty".into(),
+                help: "name the population as in the genotype table".into(),
+            });
         }
         let too_long = [("population name", Some(population.as_str())), ("population label", field("label"))]
             .into_iter()
@@ -62,7 +68,11 @@ pub fn read_population_sheet(bytes: &[u8], file: &str) -> Result<PopulationSheet
             area_km2: number("area_km2", 0.0, 1e9)?,
         };
         if let Some((first_line, _)) = rows.get(&population) {
-            return Err(DataError::DuplicatePopulation { at: Location::line(file, *line), population, first_line: *first_line });
+            return Err(DataError::DuplicatePopulation {
+                at: Location::line(file, *line),
+                population,
+                first_line: *first_line,
+            });
         }
         rows.insert(population, (*line, info));
     }
@@ -85,7 +95,14 @@ pub(super) fn ignored_columns(header: &[String], file: &str, key: &str, known: &
         .collect()
 }
 
-fn parse_number(file: &str, line: usize, column: &str, text: Option<&str>, min: f64, max: f64) -> Result<Option<f64>, DataError> {
+fn parse_number(
+    file: &str,
+    line: usize,
+    column: &str,
+    text: Option<&str>,
+    min: f64,
+    max: f64,
+) -> Result<Option<f64>, DataError> {
     let Some(text) = text else { return Ok(None) };
     let bad = |problem: String| DataError::BadField {
         at: Location::line(file, line),
@@ -110,7 +127,11 @@ mod tests {
 
     #[test]
     fn reads_known_columns_sorted() {
-        let sheet = read_population_sheet(b"population,census_size,latitude,notes\nNorth,400,61.5,x\nEast,,62.0,\n", "pops.csv").unwrap();
+        let sheet = read_population_sheet(
+            b"population,census_size,latitude,notes\nNorth,400,61.5,x\nEast,,62.0,\n",
+            "pops.csv",
+        )
+        .unwrap();
         let names: Vec<_> = sheet.populations.iter().map(|p| p.population.as_str()).collect();
         assert_eq!(names, vec!["East", "North"]);
         assert_eq!(sheet.populations[1].census_size, Some(400.0));

@@ -25,7 +25,7 @@ pub struct SampleSheet {
 /// sample listed twice.
 pub fn read_sample_sheet(bytes: &[u8], file: &str) -> Result<SampleSheet, DataError> {
     let text = decode(file, bytes)?;
-    let table = split_records(file, &text)?;
+    let table = split_records(file, text)?;
     let column = |name: &str| {
         table.header.iter().position(|h| h == name).ok_or_else(|| DataError::MissingColumn {
             file: file.into(),

@@ -11,7 +11,7 @@ use std::collections::{BTreeMap, HashMap};
 use popgauge_abi::{AlleleCode, Finding, GenotypeMatrix, LocusMeta, MatrixError, SampleMeta, Where, did_you_mean};
 
 use super::DataError;
-use super::delimited::{DelimitedText, decode, header_excerpt, split_records};
+use super::delimited::{Row, decode, header_excerpt, trim, visit_records};
 use super::limits::{Limited, MAX_NAME_CHARS, exceeds};
 use crate::source::{Location, excerpt};
 
@@ -53,15 +53,16 @@ pub struct WideTable {
 /// ids) and, with `strict`, for the first bad cell.
 pub fn read_wide_table(bytes: &[u8], options: &WideOptions<'_>) -> Result<WideTable, DataError> {
     let text = decode(options.file, bytes)?;
-    let table = split_records(options.file, &text)?;
-    let layout = Layout::from_header(&table, options)?;
-    if table.records.is_empty() {
+    // Two passes over the text, neither keeping a record: the first finds every structural
+    // problem of the table (as a refusal it comes before any problem of a cell) and counts
+    // the samples, so the second writes the codes straight into a code buffer of its final size.
+    let shape = visit_records(options.file, text, |_| Ok(()))?;
+    let layout = Layout::from_header(&shape.header, options)?;
+    if shape.records == 0 {
         return Err(DataError::NoSamples { file: options.file.into() });
     }
-    let mut builder = Builder::new(&layout, options);
-    for (line, cells) in &table.records {
-        builder.add_row(*line, cells)?;
-    }
+    let mut builder = Builder::new(&layout, options, shape.records);
+    visit_records(options.file, text, |row| builder.add_row(&row))?;
     builder.finish()
 }
 
@@ -75,8 +76,7 @@ struct Layout {
 }
 
 impl Layout {
-    fn from_header(table: &DelimitedText, options: &WideOptions<'_>) -> Result<Layout, DataError> {
-        let header = &table.header;
+    fn from_header(header: &[String], options: &WideOptions<'_>) -> Result<Layout, DataError> {
         let mut first_seen: HashMap<&str, usize> = HashMap::new();
         for (i, name) in header.iter().enumerate() {
             if let Some(first) = first_seen.insert(name.as_str(), i) {
@@ -233,7 +233,7 @@ enum ParsedCell<'t> {
 }
 
 fn is_missing_half(half: &str) -> bool {
-    matches!(half, "" | "." | "?" | "-" | "NA")
+    matches!(half.as_bytes(), b"" | b"." | b"?" | b"-" | b"NA")
 }
 
 /// True for an allele label of 1–32 characters from `A–Z a–z 0–9 . _ -`.
@@ -242,60 +242,142 @@ pub fn is_valid_label(label: &str) -> bool {
 }
 
 fn check_label(label: &str) -> Option<CellProblem> {
-    if label.chars().count() > MAX_LABEL_LEN {
+    // At most 32 bytes is at most 32 characters; count characters only past that.
+    if label.len() > MAX_LABEL_LEN && label.chars().count() > MAX_LABEL_LEN {
         return Some(CellProblem::LongLabel(label.into()));
     }
-    let allowed = |c: char| c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-');
-    (!label.chars().all(allowed)).then(|| CellProblem::BadLabel(label.into()))
+    // Every allowed character is ASCII, so checking bytes is checking characters.
+    let allowed = |b: u8| b.is_ascii_alphanumeric() || matches!(b, b'.' | b'_' | b'-');
+    (!label.bytes().all(allowed)).then(|| CellProblem::BadLabel(label.into()))
 }
 
 fn parse_cell<'t>(text: &'t str, missing: &[String]) -> ParsedCell<'t> {
-    if missing.iter().any(|m| m == text) {
+    if missing.iter().any(|m| same_text(m, text)) {
         return ParsedCell::Untyped;
     }
-    let halves: Vec<&str> = text.split('/').map(str::trim).collect();
-    match halves.as_slice() {
-        [_] => ParsedCell::Bad(CellProblem::Haploid),
-        [a, b] => match (is_missing_half(a), is_missing_half(b)) {
-            (true, true) => ParsedCell::Untyped,
-            (true, false) | (false, true) => ParsedCell::Bad(CellProblem::OneAlleleMissing),
-            (false, false) => match check_label(a).or_else(|| check_label(b)) {
-                Some(problem) => ParsedCell::Bad(problem),
-                None => ParsedCell::Typed(a, b),
-            },
+    // Splitting at the ASCII `/` keeps both sides valid UTF-8.
+    let Some(slash) = text.bytes().position(|b| b == b'/') else {
+        return ParsedCell::Bad(CellProblem::Haploid);
+    };
+    let (a, b) = (&text[..slash], &text[slash + 1..]);
+    let more = b.bytes().filter(|&c| c == b'/').count();
+    if more > 0 {
+        return ParsedCell::Bad(CellProblem::TooManyAlleles(2 + more));
+    }
+    let (a, b) = (trim(a), trim(b));
+    match (is_missing_half(a), is_missing_half(b)) {
+        (true, true) => ParsedCell::Untyped,
+        (true, false) | (false, true) => ParsedCell::Bad(CellProblem::OneAlleleMissing),
+        (false, false) => match check_label(a).or_else(|| check_label(b)) {
+            Some(problem) => ParsedCell::Bad(problem),
+            None => ParsedCell::Typed(a, b),
         },
-        more => ParsedCell::Bad(CellProblem::TooManyAlleles(more.len())),
     }
 }
 
-/// Accumulates rows into per-locus code columns.
+/// Equality of two short texts without a library call per comparison (cells and allele labels
+/// are a few bytes; the comparison runs twice per genotype).
+fn same_text(a: &str, b: &str) -> bool {
+    a.len() == b.len() && a.bytes().zip(b.bytes()).all(|(x, y)| x == y)
+}
+
+/// A label of 1–7 bytes as one number (bytes, and the length in the top byte), 0 for others:
+/// equal numbers are equal labels.
+fn pack_label(label: &str) -> u64 {
+    let bytes = label.as_bytes();
+    if bytes.is_empty() || bytes.len() > 7 {
+        return 0;
+    }
+    bytes.iter().enumerate().fold((bytes.len() as u64) << 56, |packed, (i, &b)| packed | u64::from(b) << (8 * i))
+}
+
+/// The allele labels of one locus in order of first appearance (code = position + 1).
+#[derive(Default)]
+struct LocusLabels {
+    labels: Vec<String>,
+    /// Label to code, built once the locus has more labels than a scan of the list suits
+    /// (SNPs have two, microsatellites a few dozen at most).
+    index: Option<HashMap<String, u16>>,
+}
+
+/// Labels a locus looks up by scanning before it builds an index.
+const LABELS_SCANNED: usize = 16;
+
+impl LocusLabels {
+    fn code(&self, label: &str) -> Option<u16> {
+        match &self.index {
+            Some(index) => index.get(label).copied(),
+            // At most LABELS_SCANNED + 1 labels here, so the position fits in u16.
+            None => self.labels.iter().position(|l| same_text(l, label)).map(|i| i as u16 + 1),
+        }
+    }
+
+    /// Adds `label` as the next code; `None` when the codes are used up.
+    fn add(&mut self, label: &str) -> Option<u16> {
+        let code = u16::try_from(self.labels.len() + 1).ok()?;
+        self.labels.push(label.to_string());
+        match &mut self.index {
+            Some(index) => {
+                index.insert(label.to_string(), code);
+            }
+            None if self.labels.len() > LABELS_SCANNED => {
+                self.index = Some(self.labels.iter().cloned().zip(1..).collect());
+            }
+            None => {}
+        }
+        Some(code)
+    }
+}
+
+/// Samples whose rows are gathered before they are moved into the locus-major buffer: 16
+/// samples are one 64-byte cache line of a locus there, written whole.
+const BLOCK_SAMPLES: usize = 16;
+
+/// Accumulates rows into the locus-major code buffer: locus `l`, sample `s`, copy `k` at
+/// `l × 2n + 2s + k` for the `n` samples counted beforehand. Rows are gathered in sample-major
+/// blocks of [`BLOCK_SAMPLES`] first, since writing one row straight into the buffer touches
+/// one cache line per locus.
 struct Builder<'a> {
     layout: &'a Layout,
     options: &'a WideOptions<'a>,
     samples: Vec<SampleMeta>,
     first_line: HashMap<String, usize>,
-    labels: Vec<(Vec<String>, HashMap<String, u16>)>,
-    codes: Vec<Vec<AlleleCode>>,
+    labels: Vec<LocusLabels>,
+    /// The first two labels of each locus packed by [`pack_label`] (0: none yet), a compact
+    /// copy that answers most look-ups of a row without touching the label lists.
+    first_labels: Vec<[u64; 2]>,
+    /// Two codes per sample and locus, written as the rows come.
+    codes: Vec<AlleleCode>,
+    /// Samples the buffer is laid out for.
+    capacity: usize,
+    /// The rows of the samples from `block_start` on, sample-major (`2 × loci` codes a row).
+    block: Vec<AlleleCode>,
+    block_start: usize,
     findings: Vec<Finding>,
 }
 
 impl<'a> Builder<'a> {
-    fn new(layout: &'a Layout, options: &'a WideOptions<'a>) -> Self {
+    fn new(layout: &'a Layout, options: &'a WideOptions<'a>, samples: usize) -> Self {
         let n = layout.loci.len();
         Builder {
             layout,
             options,
-            samples: Vec::new(),
+            samples: Vec::with_capacity(samples),
             first_line: HashMap::new(),
-            labels: vec![(Vec::new(), HashMap::new()); n],
-            codes: vec![Vec::new(); n],
+            labels: (0..n).map(|_| LocusLabels::default()).collect(),
+            first_labels: vec![[0; 2]; n],
+            codes: vec![AlleleCode::UNTYPED; 2 * samples * n],
+            capacity: samples,
+            block: Vec::with_capacity(2 * n * BLOCK_SAMPLES.min(samples)),
+            block_start: 0,
             findings: Vec::new(),
         }
     }
 
-    fn add_row(&mut self, line: usize, cells: &[String]) -> Result<(), DataError> {
+    fn add_row(&mut self, row: &Row<'_>) -> Result<(), DataError> {
+        let line = row.line;
         self.check_size(line)?;
-        let meta = self.sample_meta(line, cells)?;
+        let meta = self.sample_meta(row)?;
         if let Some(first_line) = self.first_line.insert(meta.id.clone(), line) {
             return Err(DataError::DuplicateSample {
                 at: Location::line(self.options.file, line),
@@ -303,13 +385,38 @@ impl<'a> Builder<'a> {
                 first_line,
             });
         }
+        let sample = self.samples.len();
+        if sample >= self.capacity {
+            // The first pass counted the rows this pass sees.
+            return Err(DataError::Csv {
+                at: Location::line(self.options.file, line),
+                message: "internal error: more rows than counted".into(),
+            });
+        }
         for locus in 0..self.layout.loci.len() {
-            let (a, b) = self.genotype(line, &meta.id, locus, &cells[self.layout.loci[locus].0])?;
-            self.codes[locus].push(a);
-            self.codes[locus].push(b);
+            let (a, b) = self.genotype(line, &meta.id, locus, row.cell(self.layout.loci[locus].0))?;
+            self.block.extend([a, b]);
         }
         self.samples.push(meta);
+        if self.samples.len() - self.block_start == BLOCK_SAMPLES {
+            self.flush_block();
+        }
         Ok(())
+    }
+
+    /// Moves the gathered rows into the locus-major buffer.
+    fn flush_block(&mut self) {
+        let row_codes = 2 * self.layout.loci.len();
+        let stride = 2 * self.capacity;
+        for locus in 0..self.layout.loci.len() {
+            let start = locus * stride + 2 * self.block_start;
+            let column = self.block.chunks_exact(row_codes).map(|row| &row[2 * locus..2 * locus + 2]);
+            for (to, from) in self.codes[start..].chunks_exact_mut(2).zip(column) {
+                to.copy_from_slice(from);
+            }
+        }
+        self.block.clear();
+        self.block_start = self.samples.len();
     }
 
     /// Refuses the row that would take the table past the sample or genotype limit.
@@ -327,9 +434,9 @@ impl<'a> Builder<'a> {
         Ok(())
     }
 
-    fn sample_meta(&self, line: usize, cells: &[String]) -> Result<SampleMeta, DataError> {
-        let fields = [&cells[self.layout.sample], &cells[self.layout.population], &cells[self.layout.year]];
-        sample_meta(self.options.file, line, fields.map(String::as_str))
+    fn sample_meta(&self, row: &Row<'_>) -> Result<SampleMeta, DataError> {
+        let fields = [self.layout.sample, self.layout.population, self.layout.year].map(|c| row.cell(c));
+        sample_meta(self.options.file, row.line, fields)
     }
 
     fn genotype(
@@ -384,34 +491,49 @@ impl<'a> Builder<'a> {
     }
 
     fn intern(&mut self, locus: usize, label: &str) -> Result<AlleleCode, DataError> {
-        let (labels, index) = &mut self.labels[locus];
-        if let Some(&code) = index.get(label) {
+        let packed = pack_label(label);
+        let first = &mut self.first_labels[locus];
+        if packed != 0
+            && let Some(k) = first.iter().position(|&p| p == packed)
+        {
+            return Ok(AlleleCode(k as u16 + 1));
+        }
+        let labels = &mut self.labels[locus];
+        if let Some(code) = labels.code(label) {
             return Ok(AlleleCode(code));
         }
-        let code = u16::try_from(labels.len() + 1).map_err(|_| DataError::TooManyAlleles {
+        let code = labels.add(label).ok_or_else(|| DataError::TooManyAlleles {
             file: self.options.file.into(),
             locus: self.layout.loci[locus].1.clone(),
         })?;
-        labels.push(label.to_string());
-        index.insert(label.to_string(), code);
+        if let Some(slot) = first.get_mut(usize::from(code) - 1) {
+            *slot = packed;
+        }
         Ok(AlleleCode(code))
     }
 
-    fn finish(self) -> Result<WideTable, DataError> {
+    fn finish(mut self) -> Result<WideTable, DataError> {
+        self.flush_block();
         let loci: Vec<LocusMeta> = self
             .layout
             .loci
             .iter()
             .zip(self.labels)
-            .map(|((_, name), (alleles, _))| LocusMeta {
+            .map(|((_, name), labels)| LocusMeta {
                 name: name.clone(),
-                alleles,
+                alleles: labels.labels,
                 chromosome: None,
                 position: None,
             })
             .collect();
-        let codes: Vec<AlleleCode> = self.codes.into_iter().flatten().collect();
-        let matrix = GenotypeMatrix::new(self.samples, loci, codes).map_err(|e| match e {
+        if self.samples.len() != self.capacity {
+            // Every counted row becomes a sample or stops the reading.
+            return Err(DataError::Csv {
+                at: Location::file(self.options.file),
+                message: "internal error: fewer rows than counted".into(),
+            });
+        }
+        let matrix = GenotypeMatrix::new(self.samples, loci, self.codes).map_err(|e| match e {
             MatrixError::TooManyAlleles { locus, .. } => {
                 DataError::TooManyAlleles { file: self.options.file.into(), locus }
             }

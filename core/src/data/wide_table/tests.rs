@@ -27,6 +27,43 @@ fn reads_codes_locus_major_and_interns_labels() {
     assert!(t.findings.is_empty());
 }
 
+/// Rows are gathered in blocks before they reach the locus-major buffer: a table of more
+/// samples than a block, and not a multiple of it, reads each cell to its place.
+#[test]
+fn rows_past_one_block_are_laid_out_locus_major() {
+    let samples = 2 * BLOCK_SAMPLES + 3;
+    let mut text = String::from("sample,population,year,L1,L2,L3");
+    let cell = |s: usize, l: usize| format!("{}/{}", (s + l) % 5, (s * 3 + l) % 7);
+    for s in 0..samples {
+        text += &format!("\ns{s},North,2020,{},{},{}", cell(s, 0), cell(s, 1), cell(s, 2));
+    }
+    let t = read(&text).unwrap();
+    let m = &t.matrix;
+    for l in 0..3 {
+        for s in 0..samples {
+            let label = |k: usize| m.loci()[l].alleles[m.codes()[l * 2 * samples + 2 * s + k].0 as usize - 1].clone();
+            assert_eq!(format!("{}/{}", label(0), label(1)), cell(s, l), "sample {s}, locus {l}");
+        }
+    }
+}
+
+/// Past a few labels a locus looks labels up in an index: codes stay in order of first
+/// appearance, and a label of more than 7 bytes is found like a short one.
+#[test]
+fn many_alleles_at_a_locus_keep_their_codes() {
+    let samples = 40;
+    let mut text = String::from("sample,population,year,L1");
+    for s in 0..samples {
+        text += &format!("\ns{s},North,2020,allele-{s}/allele-{}", s + 1);
+    }
+    let t = read(&text).unwrap();
+    let m = &t.matrix;
+    assert_eq!(m.loci()[0].alleles.len(), samples + 1);
+    let codes: Vec<u16> = m.codes().iter().map(|c| c.0).collect();
+    let expected: Vec<u16> = (0..samples as u16).flat_map(|s| [s + 1, s + 2]).collect();
+    assert_eq!(codes, expected);
+}
+
 #[test]
 fn accepts_semicolons_tabs_bom_and_crlf() {
     for text in [
@@ -59,7 +96,8 @@ fn long_labels_and_strict_mode() {
     let t = read(&text).unwrap();
     assert_eq!(t.findings[0].code, "bad-allele-label");
     let missing = default_missing();
-    let err = read_wide_table(b"sample,population,year,L1\ns1,North,2020,152/.\n", &options(&missing, &[], true)).unwrap_err();
+    let err = read_wide_table(b"sample,population,year,L1\ns1,North,2020,152/.\n", &options(&missing, &[], true))
+        .unwrap_err();
     assert_eq!(first_line(err), "genotypes.csv:2: column `L1`, cell \"152/.\": one allele missing");
 }
 
@@ -67,11 +105,20 @@ fn long_labels_and_strict_mode() {
 fn ignored_columns_are_skipped_and_checked() {
     let missing = default_missing();
     let ignore = vec!["notes".to_string()];
-    let t = read_wide_table(b"sample,population,year,notes,L1\ns1,North,2020,seen twice,1/2\n", &options(&missing, &ignore, false)).unwrap();
+    let t = read_wide_table(
+        b"sample,population,year,notes,L1\ns1,North,2020,seen twice,1/2\n",
+        &options(&missing, &ignore, false),
+    )
+    .unwrap();
     assert_eq!(t.matrix.loci().len(), 1);
     let ignore = vec!["note".to_string()];
-    let err = read_wide_table(b"sample,population,year,notes,L1\ns1,North,2020,x,1/2\n", &options(&missing, &ignore, false)).unwrap_err();
-    assert_eq!(err.to_string(), "genotypes.csv: `ignore_columns` names `note`, which is not a column of the file\n  help: did you mean `notes`? Otherwise remove it from `ignore_columns`");
+    let err =
+        read_wide_table(b"sample,population,year,notes,L1\ns1,North,2020,x,1/2\n", &options(&missing, &ignore, false))
+            .unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "genotypes.csv: `ignore_columns` names `note`, which is not a column of the file\n  help: did you mean `notes`? Otherwise remove it from `ignore_columns`"
+    );
 }
 
 #[test]
@@ -79,13 +126,28 @@ fn structural_errors_name_file_and_line() {
     let cases: [(&str, &str); 10] = [
         ("", "genotypes.csv: the file is empty"),
         ("sample,population,year,L1\n", "genotypes.csv: the table has a header but no samples"),
-        ("sample,population,yr,L1\ns1,N,2020,1/2\n", "genotypes.csv: required column `year` not found (columns: sample, population, yr, L1)"),
+        (
+            "sample,population,yr,L1\ns1,N,2020,1/2\n",
+            "genotypes.csv: required column `year` not found (columns: sample, population, yr, L1)",
+        ),
         ("sample,population,year\ns1,N,2020\n", "genotypes.csv: the table has no locus columns"),
-        ("sample,population,year,L1,L1\ns1,N,2020,1/2,1/2\n", "genotypes.csv:1: column `L1` appears twice in the header (columns 4 and 5)"),
+        (
+            "sample,population,year,L1,L1\ns1,N,2020,1/2,1/2\n",
+            "genotypes.csv:1: column `L1` appears twice in the header (columns 4 and 5)",
+        ),
         ("sample,population,year,L1\ns1,N,2020\n", "genotypes.csv:2: the row has 3 cells but the header has 4 columns"),
-        ("sample,population,year,L1\ns1,N,spring,1/2\n", "genotypes.csv:2: column `year` has \"spring\": the year is not a whole number"),
-        ("sample,population,year,L1\ns1,N,20201,1/2\n", "genotypes.csv:2: column `year` has \"20201\": the year is outside 1700–2200"),
-        ("sample,population,year,L1\ns1,N,2020,1/2\n\ns1,N,2021,1/1\n", "genotypes.csv:4: sample id \"s1\" was already used on line 2"),
+        (
+            "sample,population,year,L1\ns1,N,spring,1/2\n",
+            "genotypes.csv:2: column `year` has \"spring\": the year is not a whole number",
+        ),
+        (
+            "sample,population,year,L1\ns1,N,20201,1/2\n",
+            "genotypes.csv:2: column `year` has \"20201\": the year is outside 1700–2200",
+        ),
+        (
+            "sample,population,year,L1\ns1,N,2020,1/2\n\ns1,N,2021,1/1\n",
+            "genotypes.csv:4: sample id \"s1\" was already used on line 2",
+        ),
         ("sample,population,year,L1\n,N,2020,1/2\n", "genotypes.csv:2: column `sample` has \"\": the cell is empty"),
     ];
     for (text, expected) in cases {
@@ -97,7 +159,8 @@ fn structural_errors_name_file_and_line() {
 #[test]
 fn encoding_errors_are_refused() {
     let missing = default_missing();
-    let err = read_wide_table(b"sample,population,year,L1\ns1,N,2020,1/\xff\n", &options(&missing, &[], false)).unwrap_err();
+    let err =
+        read_wide_table(b"sample,population,year,L1\ns1,N,2020,1/\xff\n", &options(&missing, &[], false)).unwrap_err();
     assert_eq!(first_line(err), "genotypes.csv:2: the text is not valid UTF-8");
     let err = read_wide_table(b"sample,population,year,L1\x00\n", &options(&missing, &[], false)).unwrap_err();
     assert_eq!(first_line(err), "genotypes.csv:1: the file contains NUL bytes, so it is not a text table");
@@ -115,7 +178,10 @@ fn every_error_has_a_help_line() {
 fn long_names_are_refused_and_long_cells_cut_short() {
     let long = "x".repeat(65);
     let err = read(&format!("sample,population,year,L1\n{long},N,2020,1/2\n")).unwrap_err();
-    assert_eq!(first_line(err), format!("genotypes.csv:2: the sample id \"{}… (65 characters)\" is longer than 64 characters", "x".repeat(40)));
+    assert_eq!(
+        first_line(err),
+        format!("genotypes.csv:2: the sample id \"{}… (65 characters)\" is longer than 64 characters", "x".repeat(40))
+    );
     let err = read(&format!("sample,population,year,{long}\ns1,N,2020,1/2\n")).unwrap_err();
     assert!(first_line(err).starts_with("genotypes.csv:1: the locus name \"xxx"));
     let cell = "1".repeat(10_000);

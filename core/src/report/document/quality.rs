@@ -11,7 +11,7 @@ use super::super::contract::{Rows, col, table, table_of, uses};
 use super::super::format::{self, NumberStyle};
 use super::sections::{Context, text, whole};
 use super::table::TableData;
-use super::{BODY_LIMIT, Extras};
+use super::{BODY_LIMIT, BODY_ROWS, Extras};
 use crate::results::table_file;
 
 /// The data-quality tables.
@@ -24,6 +24,8 @@ pub struct QualitySection {
     pub loci: TableData,
     /// Whether `loci` lists every locus (false: only those flagged, see `loci_file`).
     pub all_loci: bool,
+    /// Flagged loci not listed in `loci` (beyond [`BODY_ROWS`]), display text; `None` when all are.
+    pub flagged_more: Option<String>,
     /// The file with every locus.
     pub loci_file: String,
     /// Loci read, display text.
@@ -120,11 +122,17 @@ pub(crate) fn quality_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<
             if f.status == "kept" { "yes".into() } else { "no".into() },
         ]);
     }
+    let flagged_more = (!all_loci && loci.rows.len() > BODY_ROWS).then(|| {
+        let more = loci.rows.len() - BODY_ROWS;
+        loci.rows.truncate(BODY_ROWS);
+        format::count(more)
+    });
     loci.drop_empty_columns(&["Locus", "Missing", "Kept"]);
     Some(QualitySection {
         step: step.id.clone(),
         loci,
         all_loci,
+        flagged_more,
         loci_file: table_file(&step.id, table::LOCI),
         loci_count: format::count(facts.len()),
         median_missing: median_missing.map(format::percent),
@@ -181,8 +189,12 @@ fn hwe_outlier(f: &LocusFacts) -> bool {
     f.hwe_departures.is_some_and(|(d, t)| d >= 2 && d * 4 >= t)
 }
 
+/// A null allele is indicated at a locus with more than two alleles (a microsatellite): at a
+/// two-allele locus such as a SNP a heterozygote deficit has other causes (inbreeding,
+/// substructure, genotyping error), and `validate` reports it apart.
 fn null_outlier(f: &LocusFacts) -> bool {
-    f.null_allele.is_some_and(|r| r >= NULL_ALLELE_NOTE) || f.deficit_groups.is_some_and(|d| d > 0.0)
+    f.alleles.is_some_and(|a| a > 2.0)
+        && (f.null_allele.is_some_and(|r| r >= NULL_ALLELE_NOTE) || f.deficit_groups.is_some_and(|d| d > 0.0))
 }
 
 fn is_outlier(f: &LocusFacts, median: Option<f64>) -> bool {
@@ -230,7 +242,7 @@ fn flags(facts: &[LocusFacts], median_missing: Option<f64>) -> Vec<String> {
         .collect();
     if !null.is_empty() {
         out.push(format!(
-            "A null allele is indicated (Brookfield's r ≥ {NULL_ALLELE_NOTE}, or a significant heterozygote deficit flagged by step validate): {}.",
+            "A null allele is indicated at loci with more than two alleles (Brookfield's r ≥ {NULL_ALLELE_NOTE}, or a significant heterozygote deficit flagged by step validate): {}.",
             listed(null)
         ));
     }
@@ -319,6 +331,17 @@ mod tests {
         assert!(text[0].contains("(2.5 %)"), "the median is named: {}", text[0]);
         assert!(text[1].contains("D (2 of 4 groups)"), "{}", text[1]);
         assert!(text[2].contains("E (r = 0.080)"), "{}", text[2]);
+    }
+
+    /// Common practice: a heterozygote deficit at a two-allele locus (a SNP) is no sign of a
+    /// null allele.
+    #[test]
+    fn null_alleles_are_flagged_only_at_loci_with_more_than_two_alleles() {
+        let mut snp = locus("S", 0.0, (0, 4), 0.2);
+        snp.alleles = Some(2.0);
+        assert!(!null_outlier(&snp));
+        snp.alleles = Some(3.0);
+        assert!(null_outlier(&snp));
     }
 
     #[test]

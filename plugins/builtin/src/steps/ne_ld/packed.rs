@@ -152,11 +152,7 @@ impl PackedPanel {
                 *in_panel += usize::from(row != NO_ROW);
                 panel.rows.push(row);
             }
-            panel.loci.push(PackedLocus {
-                view_locus: locus,
-                chromosome: request.chromosomes[locus],
-                member,
-            });
+            panel.loci.push(PackedLocus { view_locus: locus, chromosome: request.chromosomes[locus], member });
         }
         panel.share_identical_panels();
         panel.members = panel.loci.iter().map(|l| l.member).collect();
@@ -172,7 +168,8 @@ impl PackedPanel {
     fn share_identical_panels(&mut self) {
         for c in 1..self.criteria {
             let bit = |member: u64, c: usize| member >> c & 1;
-            let earlier = (0..c).find(|&e| self.same_as[e].is_none() && self.loci.iter().all(|l| bit(l.member, e) == bit(l.member, c)));
+            let earlier = (0..c)
+                .find(|&e| self.same_as[e].is_none() && self.loci.iter().all(|l| bit(l.member, e) == bit(l.member, c)));
             if let Some(e) = earlier {
                 self.same_as[c] = Some(e);
                 for locus in &mut self.loci {
@@ -230,7 +227,11 @@ impl PackedPanel {
     fn planes(&self, locus: usize) -> [&[u64]; 3] {
         let start = 3 * self.words * locus;
         let w = self.words;
-        [&self.planes[start..start + w], &self.planes[start + w..start + 2 * w], &self.planes[start + 2 * w..start + 3 * w]]
+        [
+            &self.planes[start..start + w],
+            &self.planes[start + w..start + 2 * w],
+            &self.planes[start + 2 * w..start + 3 * w],
+        ]
     }
 
     /// Row of panel locus `locus` in criterion `criterion`'s panel.
@@ -249,11 +250,7 @@ fn membership(criteria: &[Criterion], present: &[usize], alleles: &[u32], copies
 
 /// `u64` words per plane for `samples` individuals in `groups` jackknife groups.
 fn words_for(samples: usize, groups: usize) -> usize {
-    if groups < 2 {
-        samples.div_ceil(64)
-    } else {
-        2 * samples.div_ceil(groups).div_ceil(8)
-    }
+    if groups < 2 { samples.div_ceil(64) } else { 2 * samples.div_ceil(groups).div_ceil(8) }
 }
 
 /// Word and bit of position `position` of the order: dense without the jackknife; else
@@ -556,8 +553,7 @@ fn chunk_sums_with(
             if member == 0 {
                 continue;
             }
-            if skip_same_chromosome
-                && matches!((locus_a.chromosome, locus_b.chromosome), (Some(x), Some(y)) if x == y)
+            if skip_same_chromosome && matches!((locus_a.chromosome, locus_b.chromosome), (Some(x), Some(y)) if x == y)
             {
                 for_each_criterion(member, |c| parts[c].sums.same_chromosome += 1);
                 continue;
@@ -606,7 +602,12 @@ struct LocusSums {
 
 impl LocusSums {
     fn new(loci: usize) -> LocusSums {
-        LocusSums { weighted_r2: vec![0.0; loci], weight: vec![0.0; loci], per_sample: vec![0.0; loci], pairs: vec![0; loci] }
+        LocusSums {
+            weighted_r2: vec![0.0; loci],
+            weight: vec![0.0; loci],
+            per_sample: vec![0.0; loci],
+            pairs: vec![0; loci],
+        }
     }
 
     /// Adds a row's sums to its first locus.
@@ -680,7 +681,12 @@ const ROW_CHAINS: usize = 4;
 /// order (the same sequence of additions as [`Accumulator::add_weighted`] from zero; an
 /// excluded pair adds +0.0, which changes no bits), without branches.
 #[inline(always)]
-fn row_sums(values: &RowValues, criteria: &[usize], include: &[Vec<u8>], seconds: std::ops::Range<usize>) -> Vec<Accumulator> {
+fn row_sums(
+    values: &RowValues,
+    criteria: &[usize],
+    include: &[Vec<u8>],
+    seconds: std::ops::Range<usize>,
+) -> Vec<Accumulator> {
     let mut weighted_r2 = [0.0f64; ROW_CHAINS];
     let mut weight = [0.0f64; ROW_CHAINS];
     let mut per_sample = [0.0f64; ROW_CHAINS];
@@ -715,6 +721,7 @@ fn row_sums(values: &RowValues, criteria: &[usize], include: &[Vec<u8>], seconds
 /// For criterion c and row a: which pairs (a, b) it sums (`include[b]`), their values added to
 /// locus b's sums, and the counts of its pairs skipped as same-chromosome and undefined.
 #[inline(always)]
+#[allow(clippy::needless_range_loop)] // one index keeps ten arrays in step
 fn include_and_add(
     panel: &PackedPanel,
     (a, c): (usize, usize),
@@ -722,19 +729,32 @@ fn include_and_add(
     include: &mut [u8],
     sums: &mut LocusSums,
 ) -> (u64, u64) {
+    // Every array cut to the second loci b > a, to one length, so the loop has no bounds
+    // checks and compiles to vector operations (each b is independent of the others).
+    let seconds = a + 1..panel.loci.len();
+    let members = &panel.members[seconds.clone()];
+    let n = members.len();
+    let (same, defined) = (&same[seconds.start..][..n], &values.defined[seconds.start..][..n]);
+    let (weighted_r2, weight) = (&values.weighted_r2[seconds.start..][..n], &values.weight[seconds.start..][..n]);
+    let per_sample = &values.per_sample[seconds.start..][..n];
+    let include = &mut include[seconds.start..][..n];
+    let (sum_weighted_r2, sum_weight) =
+        (&mut sums.weighted_r2[seconds.start..][..n], &mut sums.weight[seconds.start..][..n]);
+    let (sum_per_sample, sum_pairs) =
+        (&mut sums.per_sample[seconds.start..][..n], &mut sums.pairs[seconds.start..][..n]);
     let (mut same_count, mut undefined) = (0u64, 0u64);
-    for b in a + 1..panel.loci.len() {
-        let member = (panel.members[b] >> c & 1) as u8;
+    for b in 0..n {
+        let member = (members[b] >> c & 1) as u8;
         let kept = member & (1 - same[b]);
-        let included = kept & values.defined[b];
+        let included = kept & defined[b];
         same_count += u64::from(member & same[b]);
-        undefined += u64::from(kept & (1 - values.defined[b]));
+        undefined += u64::from(kept & (1 - defined[b]));
         include[b] = included;
         let on = included == 1;
-        sums.weighted_r2[b] += if on { values.weighted_r2[b] } else { 0.0 };
-        sums.weight[b] += if on { values.weight[b] } else { 0.0 };
-        sums.per_sample[b] += if on { values.per_sample[b] } else { 0.0 };
-        sums.pairs[b] += u64::from(included);
+        sum_weighted_r2[b] += if on { weighted_r2[b] } else { 0.0 };
+        sum_weight[b] += if on { weight[b] } else { 0.0 };
+        sum_per_sample[b] += if on { per_sample[b] } else { 0.0 };
+        sum_pairs[b] += u64::from(included);
     }
     (same_count, undefined)
 }
