@@ -311,9 +311,11 @@ fn example_plugin_runs_and_is_recorded_in_provenance() {
     let sha = install(&case, "popgauge-example-relatedness", "librelatedness.so");
     let described = case.run(&["steps", "--plugin", "case/plugins/librelatedness.so"]);
     assert_eq!(described.code, 0, "{}", described.stderr);
+    // The recipe lines name the library relative to the case folder that holds it (found by
+    // its case.toml), so they can be pasted into that recipe as printed.
     assert_eq!(
         described.stdout.replace(&sha, "<sha>"),
-        "relatedness-qg 0.1.0\n  Mean pairwise relatedness per group (Queller & Goodnight 1989) with a bootstrap CI over loci\n  bootstrap              whole number 0–100000 (default 1000)\n                         bootstrap replicates over loci for the interval of r_mean (0 = none)\n  pairs_table            true/false (default true)\n                         also write the r of every pair (table `pairs`)\n\nlibrary: case/plugins/librelatedness.so\nsha256:  <sha>\n\nRecipe lines (the path is relative to the case folder; review the library before pinning it):\n\n[[step]]\nid = \"relatedness-qg\"\nuses = \"plugin:case/plugins/librelatedness.so\"\nsha256 = \"<sha>\"\n"
+        "relatedness-qg 0.1.0\n  Mean pairwise relatedness per group (Queller & Goodnight 1989) with a bootstrap CI over loci\n  bootstrap              whole number 0–100000 (default 1000)\n                         bootstrap replicates over loci for the interval of r_mean (0 = none)\n  pairs_table            true/false (default true)\n                         also write the r of every pair (table `pairs`)\n\nlibrary: case/plugins/librelatedness.so\nsha256:  <sha>\n\nRecipe lines for the case in case (the path is relative to that folder; review the library before pinning it):\n\n[[step]]\nid = \"relatedness-qg\"\nuses = \"plugin:plugins/librelatedness.so\"\nsha256 = \"<sha>\"\n"
     );
     recipe_with(
         &case,

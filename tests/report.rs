@@ -281,12 +281,20 @@ fn the_colony_demo_measures_each_animals_inbreeding_against_the_simulated_truth(
 
     let text = pdf_text(&out.join("assessment.pdf"));
     let flat = squeezed(&text);
-    for said in ["Inbreeding of individuals", "Mean length in Mb per animal in runs of homozygosity", "tables/inbreeding.runs.csv"] {
+    for said in [
+        "Inbreeding of individuals",
+        "Mean length in Mb per animal in runs of homozygosity",
+        "tables/inbreeding.runs.csv",
+    ] {
         assert!(flat.contains(&squeezed(said)), "`{said}` missing");
     }
     let report: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("assessment.json")).unwrap()).unwrap();
-    assert_eq!(report["figures"]["inbreeding"]["marks"].as_u64(), Some(individuals.len() as u64), "one mark per animal");
+    assert_eq!(
+        report["figures"]["inbreeding"]["marks"].as_u64(),
+        Some(individuals.len() as u64),
+        "one mark per animal"
+    );
 }
 
 #[test]

@@ -16,7 +16,7 @@ use std::sync::Arc;
 use std::time::Duration;
 
 use criterion::Criterion;
-use popgauge::host::{Isolation, PluginSpec, Session, load_plugin, worker::WORKER_ENV};
+use popgauge::host::{Isolation, PluginSpec, PluginScratch, load_plugin, worker::WORKER_ENV};
 use popgauge::provenance::hash::sha256_hex;
 use popgauge_abi::{
     AlleleCode, AssessmentInfo, GenotypeMatrix, LocusMeta, Params, SampleMeta, Seed, Step, StepContext,
@@ -97,8 +97,8 @@ fn external(library: &PathBuf, isolation: Isolation) -> popgauge::host::External
         isolation,
         timeout: Duration::from_secs(600),
     };
-    let session: Arc<Session> = Session::new().expect("temporary folder");
-    load_plugin(&spec, &session).expect("library loads")
+    let scratch: Arc<PluginScratch> = PluginScratch::new().expect("temporary folder");
+    load_plugin(&spec, &scratch).expect("library loads")
 }
 
 /// `VmHWM` and `VmRSS` of this process in KiB (Linux).

@@ -190,21 +190,21 @@ pub struct PluginRecord {
 /// Temporary files shared by the plugin steps of one recipe: the private library copies and
 /// the genotype file the worker maps (written once per run). Removed when the recipe is dropped.
 #[derive(Debug)]
-pub struct Session {
+pub struct PluginScratch {
     dir: tempfile::TempDir,
     genotypes: Mutex<Option<worker::GenotypeFile>>,
 }
 
-impl Session {
+impl PluginScratch {
     /// A new private temporary folder.
     ///
     /// # Errors
     /// The I/O error of creating it.
-    pub fn new() -> std::io::Result<Arc<Session>> {
+    pub fn new() -> std::io::Result<Arc<PluginScratch>> {
         let dir = tempfile::Builder::new().prefix("popgauge-plugins-").tempdir()?;
         // Ctrl-C exits without running destructors; the handler removes the folder instead.
         crate::interrupt::register(dir.path());
-        Ok(Arc::new(Session { dir, genotypes: Mutex::new(None) }))
+        Ok(Arc::new(PluginScratch { dir, genotypes: Mutex::new(None) }))
     }
 
     fn dir(&self) -> &Path {
@@ -212,7 +212,7 @@ impl Session {
     }
 }
 
-impl Drop for Session {
+impl Drop for PluginScratch {
     fn drop(&mut self) {
         // The folder itself is removed by `TempDir` right after this.
         crate::interrupt::unregister(self.dir.path());
@@ -227,7 +227,7 @@ pub struct ExternalStep {
 
 enum Runner {
     InProcess(library::LoadedLibrary),
-    Process { library: PathBuf, session: Arc<Session>, timeout: Duration },
+    Process { library: PathBuf, scratch: Arc<PluginScratch>, timeout: Duration },
 }
 
 impl std::fmt::Debug for ExternalStep {
@@ -252,10 +252,10 @@ impl Step for ExternalStep {
         let request = request_json(ctx).map_err(|e| StepError::new(format!("the request cannot be written: {e}")))?;
         let (status, bytes) = match &self.runner {
             Runner::InProcess(library) => library.run(&ctx.view, &request)?,
-            Runner::Process { library, session, timeout } => worker::run_in_child(worker::RunCall {
+            Runner::Process { library, scratch, timeout } => worker::run_in_child(worker::RunCall {
                 library,
                 shown: &self.record.path,
-                session,
+                scratch,
                 view: &ctx.view,
                 request: &request,
                 timeout: *timeout,
@@ -280,13 +280,13 @@ pub fn interpret_output(status: i32, bytes: &[u8]) -> Result<StepOutput, StepErr
     }
 }
 
-/// Copies the library into the session folder, hashes the copy and checks the pin.
-fn verified_copy(spec: &PluginSpec, session: &Session) -> Result<(PathBuf, String), LoadError> {
+/// Copies the library into the scratch folder, hashes the copy and checks the pin.
+fn verified_copy(spec: &PluginSpec, scratch: &PluginScratch) -> Result<(PathBuf, String), LoadError> {
     let bytes = std::fs::read(&spec.path)
         .map_err(|e| LoadError::FileMissing { path: spec.shown.clone(), reason: io_reason(&e) })?;
     let file_name = spec.path.file_name().map_or_else(|| "plugin".into(), |n| n.to_string_lossy().into_owned());
-    let slot = std::fs::read_dir(session.dir()).map_or(0, |d| d.count());
-    let copy = session.dir().join(format!("{slot}-{file_name}"));
+    let slot = std::fs::read_dir(scratch.dir()).map_or(0, |d| d.count());
+    let copy = scratch.dir().join(format!("{slot}-{file_name}"));
     std::fs::write(&copy, &bytes).map_err(|e| LoadError::FileMissing {
         path: spec.shown.clone(),
         reason: format!("cannot copy it: {}", io_reason(&e)),
@@ -316,8 +316,8 @@ fn io_reason(e: &std::io::Error) -> String {
 ///
 /// # Errors
 /// The [`LoadError`] of the first check that fails.
-pub fn load_plugin(spec: &PluginSpec, session: &Arc<Session>) -> Result<ExternalStep, LoadError> {
-    let (copy, sha256) = verified_copy(spec, session)?;
+pub fn load_plugin(spec: &PluginSpec, scratch: &Arc<PluginScratch>) -> Result<ExternalStep, LoadError> {
+    let (copy, sha256) = verified_copy(spec, scratch)?;
     let (descriptor, runner) = match spec.isolation {
         Isolation::InProcess => {
             let library = library::LoadedLibrary::open(&copy, &spec.shown)?;
@@ -325,7 +325,7 @@ pub fn load_plugin(spec: &PluginSpec, session: &Arc<Session>) -> Result<External
         }
         Isolation::Process => {
             let descriptor = worker::describe_in_child(&copy, &spec.shown, spec.timeout)?;
-            (descriptor, Runner::Process { library: copy, session: Arc::clone(session), timeout: spec.timeout })
+            (descriptor, Runner::Process { library: copy, scratch: Arc::clone(scratch), timeout: spec.timeout })
         }
     };
     let record = PluginRecord { path: spec.shown.clone(), sha256, isolation: spec.isolation, descriptor };

@@ -16,7 +16,7 @@ use popgauge_abi::{AlleleCode, Descriptor, GenotypeMatrix, GenotypeView, LocusMe
 use serde::{Deserialize, Serialize};
 
 use super::library::LoadedLibrary;
-use super::{LoadError, Session, parse_descriptor};
+use super::{LoadError, PluginScratch, parse_descriptor};
 
 /// Environment variable naming the executable to run as the worker (default: this executable).
 /// Benchmarks and embedding programs set it to a `popgauge` binary.
@@ -128,7 +128,7 @@ pub struct RunCall<'a> {
     /// The path as the recipe writes it, for messages.
     pub shown: &'a str,
     /// Where the genotype file lives.
-    pub session: &'a Session,
+    pub scratch: &'a PluginScratch,
     /// The data in play.
     pub view: &'a GenotypeView<'a>,
     /// The request JSON.
@@ -142,7 +142,7 @@ pub struct RunCall<'a> {
 /// # Errors
 /// A [`StepError`] saying how the child failed (crash with the signal, time limit, …).
 pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
-    let genotypes = genotype_file(call.session, call.view.matrix())
+    let genotypes = genotype_file(call.scratch, call.view.matrix())
         .map_err(|e| StepError::new(format!("the genotype file for the plugin worker cannot be written: {e}")))?;
     let matrix = call.view.matrix();
     let payload = RunPayload {
@@ -175,15 +175,15 @@ pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
     }
 }
 
-/// The session's genotype file for `matrix`, written on first use.
-fn genotype_file(session: &Session, matrix: &GenotypeMatrix) -> std::io::Result<PathBuf> {
+/// The scratch's genotype file for `matrix`, written on first use.
+fn genotype_file(scratch: &PluginScratch, matrix: &GenotypeMatrix) -> std::io::Result<PathBuf> {
     let codes = matrix.codes();
     let key = (codes.as_ptr() as usize, codes.len());
-    let mut slot = session.genotypes.lock().map_err(|_| std::io::Error::other("a previous write failed"))?;
+    let mut slot = scratch.genotypes.lock().map_err(|_| std::io::Error::other("a previous write failed"))?;
     if let Some(file) = slot.as_ref().filter(|f| f.key == key) {
         return Ok(file.path.clone());
     }
-    let path = session.dir().join(format!("genotypes-{}.u16", key.1));
+    let path = scratch.dir().join(format!("genotypes-{}.u16", key.1));
     // SAFETY: `AlleleCode` is `repr(transparent)` over `u16`, which has no padding, so the
     // buffer is `2 × len` initialised bytes.
     let bytes = unsafe { std::slice::from_raw_parts(codes.as_ptr().cast::<u8>(), std::mem::size_of_val(codes)) };

@@ -16,7 +16,7 @@ use super::{
     InputFile, PlannedStep, RECIPE_FILE, Recipe, RecipeError, ReportSpec, SiteFilters,
 };
 use crate::dates::{CivilDate, today};
-use crate::host::{DEFAULT_TIMEOUT, Isolation, LoadError, PluginSpec, Session, load_plugin};
+use crate::host::{DEFAULT_TIMEOUT, Isolation, LoadError, PluginSpec, PluginScratch, load_plugin};
 use crate::source::Location;
 
 /// Reads and resolves `CASE/case.toml`.
@@ -31,7 +31,7 @@ pub fn load_recipe(case_dir: &Path, allow_outside: bool) -> Result<Recipe, Recip
         .map_err(|source| RecipeError::Unreadable { path: recipe_path.display().to_string(), source })?;
     let text = decode_recipe(&bytes)?;
     let raw = parse(&text)?;
-    Resolver { case_dir, text: &text, allow_outside, session: OnceCell::new() }.resolve(raw, recipe_path)
+    Resolver { case_dir, text: &text, allow_outside, scratch: OnceCell::new() }.resolve(raw, recipe_path)
 }
 
 /// Largest recipe accepted (1 MiB): a recipe is a page of settings; anything larger is not one.
@@ -118,7 +118,7 @@ struct Resolver<'a> {
     text: &'a str,
     allow_outside: bool,
     /// Private folder for plugin library copies, made when the first plugin step is planned.
-    session: OnceCell<Arc<Session>>,
+    scratch: OnceCell<Arc<PluginScratch>>,
 }
 
 impl Resolver<'_> {
@@ -421,8 +421,8 @@ impl Resolver<'_> {
     fn plan_plugin_step(&self, step: &RawStep, line: usize, path: &str) -> Result<PlannedStep, RecipeError> {
         let id = step.id.get_ref();
         let spec = self.plugin_spec(step, path)?;
-        let session = self.plugin_session(&step.uses)?;
-        let external = load_plugin(&spec, &session).map_err(|error| {
+        let scratch = self.plugin_scratch(&step.uses)?;
+        let external = load_plugin(&spec, &scratch).map_err(|error| {
             let line_of = |s: &Spanned<String>| self.at(s).line.unwrap_or(line);
             let at_line = match (&error, &step.sha256) {
                 (LoadError::Sha256 { .. }, Some(sha)) => line_of(sha),
@@ -500,18 +500,18 @@ impl Resolver<'_> {
         Ok(PluginSpec { shown: path.into(), path: self.case_dir.join(written), expected_sha256, isolation, timeout })
     }
 
-    fn plugin_session(&self, at: &Spanned<String>) -> Result<Arc<Session>, RecipeError> {
-        if let Some(session) = self.session.get() {
-            return Ok(Arc::clone(session));
+    fn plugin_scratch(&self, at: &Spanned<String>) -> Result<Arc<PluginScratch>, RecipeError> {
+        if let Some(scratch) = self.scratch.get() {
+            return Ok(Arc::clone(scratch));
         }
-        let session = Session::new().map_err(|e| {
+        let scratch = PluginScratch::new().map_err(|e| {
             self.invalid(
                 at,
                 format!("cannot create a private temporary folder for plugin libraries: {e}"),
                 "check that the temporary folder (TMPDIR) is writable",
             )
         })?;
-        Ok(Arc::clone(self.session.get_or_init(|| session)))
+        Ok(Arc::clone(self.scratch.get_or_init(|| scratch)))
     }
 
     #[allow(clippy::type_complexity)]

@@ -32,7 +32,9 @@ fn genome() -> Genome {
 
 fn main() -> ExitCode {
     let Some(dir) = std::env::args_os().nth(1).map(PathBuf::from) else {
-        eprintln!("usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR");
+        eprintln!(
+            "usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR"
+        );
         return ExitCode::from(2);
     };
     match run(&dir) {
@@ -61,7 +63,10 @@ fn run(dir: &Path) -> Result<String, Box<dyn Error>> {
     compressed.write_all(vcf(&sample)?.as_bytes())?;
     fs::write(dir.join("calls.vcf.gz"), compressed.finish()?)?;
     fs::write(dir.join("samples.csv"), sample_sheet(&sample))?;
-    fs::write(dir.join("populations.csv"), "population,label,census_size,census_year\nHalvard colony,Halvard breeding station colony,40,2025\n")?;
+    fs::write(
+        dir.join("populations.csv"),
+        "population,label,census_size,census_year\nHalvard colony,Halvard breeding station colony,40,2025\n",
+    )?;
     fs::write(dir.join("truth.csv"), truth(&sample))?;
     Ok(format!(
         "wrote {}: {} animals × {} SNPs on {} chromosomes",
@@ -90,7 +95,11 @@ fn vcf(sample: &PedigreeSample) -> Result<String, std::fmt::Error> {
     for (l, locus) in matrix.loci().iter().enumerate() {
         let chromosome = locus.chromosome.as_deref().unwrap_or("chr00");
         let position = locus.position.unwrap_or(0);
-        write!(out, "{chromosome}\t{position}\t{}\t{}\t{}\t.\tPASS\t.\tGT", locus.name, locus.alleles[0], locus.alleles[1])?;
+        write!(
+            out,
+            "{chromosome}\t{position}\t{}\t{}\t{}\t.\tPASS\t.\tGT",
+            locus.name, locus.alleles[0], locus.alleles[1]
+        )?;
         for s in 0..n {
             let a = matrix.codes()[(l * n + s) * 2].0;
             let b = matrix.codes()[(l * n + s) * 2 + 1].0;

@@ -9,9 +9,9 @@ use serde::Serialize;
 use super::super::contract::{Row, Rows, table_of, uses};
 use super::super::figures::{Figure, StripGroup};
 use super::super::format::{self, NumberStyle};
+use super::Extras;
 use super::sections::{Context, text, whole};
 use super::table::TableData;
-use super::Extras;
 use crate::results::table_file;
 
 /// The inbreeding-of-individuals section.
@@ -83,7 +83,9 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             None => format::UNDEFINED.to_string(),
             Some(g) => match (row.num("g2_low"), row.num("g2_high")) {
                 (None, None) => format::short(g, 3),
-                (low, high) => format!("{} ({})", format::short(g, 3), format::interval(low, high, NumberStyle::Short(3))),
+                (low, high) => {
+                    format!("{} ({})", format::short(g, 3), format::interval(low, high, NumberStyle::Short(3)))
+                }
             },
         };
         if let (Some(g), Some(p)) = (row.num("g2"), row.num("g2_p")) {
