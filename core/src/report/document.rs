@@ -10,6 +10,7 @@
 //! bytes in `sys.inputs.data`, so user text (titles, population names, notes) is never
 //! spliced into Typst source and prints literally.
 
+mod appendix;
 mod inbreeding;
 mod methods_prose;
 mod ne_overview;
@@ -27,6 +28,8 @@ use super::contract::{Results, uses};
 use super::figures::Figure;
 use super::format;
 use super::{FileFacts, ReportSource};
+pub(crate) use appendix::Extras;
+pub use appendix::{AppendixSummary, AppendixTable, Excerpt};
 pub use table::{HeatCell, HeatTable, TableData};
 
 /// Schema name of `assessment.json`.
@@ -173,120 +176,6 @@ pub struct FigureFacts {
     pub marks: usize,
 }
 
-/// A table in the appendix.
-#[derive(Debug, Clone, Serialize)]
-pub struct AppendixTable {
-    /// Short key the body refers to (`A1`, `A2`, …).
-    pub key: String,
-    /// Title.
-    pub title: String,
-    /// How to set it: `normal`, `two-columns` (many short rows) or `landscape` (many columns).
-    pub layout: String,
-    /// The table, at most [`APPENDIX_ROWS`] rows.
-    pub table: TableData,
-    /// Set when rows were left out because of [`APPENDIX_ROWS`].
-    pub excerpt: Option<Excerpt>,
-    /// Set instead of rows when a step's table is longer than a page: a summary of its
-    /// columns and the CSV file with every row.
-    pub summary: Option<AppendixSummary>,
-}
-
-/// A step's table too long for a page, summarised column by column.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct AppendixSummary {
-    /// Rows in the table, display text.
-    pub rows: String,
-    /// The CSV file with every row.
-    pub file: String,
-    /// One row per column: its heading, how many values (or distinct texts), and the lowest,
-    /// median and highest value as the table prints them.
-    pub columns: TableData,
-}
-
-/// How many rows a table of this layout prints on about one page.
-fn page_capacity(layout: &str) -> usize {
-    match layout {
-        "two-columns" => 2 * APPENDIX_PAGE_ROWS,
-        "landscape" => APPENDIX_PAGE_ROWS * 2 / 3,
-        _ => APPENDIX_PAGE_ROWS,
-    }
-}
-
-/// A displayed number read back for ordering (`−0.082`, `1,234`, `∞`, `< 0.001`); `None`
-/// for text.
-fn display_value(text: &str) -> Option<f64> {
-    let t = text.trim().replace('−', "-").replace(',', "").replace(" %", "");
-    match t.as_str() {
-        "∞" => Some(f64::INFINITY),
-        "-∞" => Some(f64::NEG_INFINITY),
-        _ => t.strip_prefix("< ").map_or_else(|| t.parse().ok(), |v| v.parse::<f64>().ok().map(|v| v / 2.0)),
-    }
-}
-
-/// The column-by-column summary of a table (numbers: count, lowest, median, highest;
-/// text: how many distinct values).
-fn summarise(table: &TableData) -> TableData {
-    let mut out =
-        TableData::new(&[("Column", false), ("Values", true), ("Lowest", true), ("Median", true), ("Highest", true)]);
-    for (c, heading) in table.columns.iter().enumerate() {
-        let cells: Vec<&str> =
-            table.rows.iter().map(|r| r[c].as_str()).filter(|v| *v != format::UNDEFINED && !v.is_empty()).collect();
-        let numbers: Vec<(f64, &str)> = cells.iter().filter_map(|v| Some((display_value(v)?, *v))).collect();
-        if table.numeric[c] && !numbers.is_empty() && numbers.len() == cells.len() {
-            let mut sorted = numbers;
-            sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
-            let n = sorted.len();
-            out.push(vec![
-                heading.clone(),
-                format::count(n),
-                sorted[0].1.to_string(),
-                sorted[(n - 1) / 2].1.to_string(),
-                sorted[n - 1].1.to_string(),
-            ]);
-        } else {
-            let distinct: BTreeSet<&str> = cells.iter().copied().collect();
-            out.push(vec![
-                heading.clone(),
-                format!("{} distinct", format::count(distinct.len())),
-                format::UNDEFINED.into(),
-                format::UNDEFINED.into(),
-                format::UNDEFINED.into(),
-            ]);
-        }
-    }
-    out
-}
-
-/// What an appendix table that prints only its first rows leaves out.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Excerpt {
-    /// How many rows are not printed, as display text (`239,500`).
-    pub omitted: String,
-    /// The output file that holds every row (`tables/<step>.<table>.csv` or `results.json`).
-    pub file: String,
-}
-
-/// How an appendix table is best set: on its side when it has many columns, in two columns
-/// when its rows are many and short.
-fn appendix_layout(table: &TableData) -> &'static str {
-    // A heading wraps at its spaces, so its longest word is what it needs at the least.
-    let heading_width = |h: &String| h.split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0);
-    let widths: Vec<usize> = (0..table.columns.len())
-        .map(|c| {
-            let cells = table.rows.iter().map(|r| r[c].chars().count()).max().unwrap_or(0);
-            cells.max(heading_width(&table.columns[c])) + 2
-        })
-        .collect();
-    let widest_row = widths.iter().sum::<usize>();
-    if table.columns.len() > 14 {
-        "landscape"
-    } else if table.rows.len() > 30 && widest_row <= 64 {
-        "two-columns"
-    } else {
-        "normal"
-    }
-}
-
 /// The steps as they ran.
 #[derive(Debug, Clone, Serialize)]
 pub struct Methods {
@@ -322,60 +211,6 @@ pub struct ProvenanceFacts {
     pub files: TableData,
     /// Steps: id, seed, parameter and result hashes.
     pub steps: TableData,
-}
-
-/// Collects figures and appendix tables while the sections are built.
-#[derive(Debug, Default)]
-pub(crate) struct Extras {
-    figures: Vec<(String, Figure, String)>,
-    appendix: Vec<AppendixTable>,
-}
-
-impl Extras {
-    /// Adds a chart under `key` with its text alternative.
-    pub(crate) fn figure(&mut self, key: &str, figure: Figure, alt: String) {
-        self.figures.push((key.to_string(), figure, alt));
-    }
-
-    /// Adds an appendix table and returns its key (`A1`, …), for the body to refer to. Of a
-    /// table longer than [`APPENDIX_ROWS`] only the first rows are kept, and the document
-    /// points to `full_table`, the output file with every row.
-    pub(crate) fn appendix(&mut self, title: String, mut table: TableData, full_table: String) -> String {
-        let key = format!("A{}", self.appendix.len() + 1);
-        for heading in &mut table.columns {
-            *heading = table::heading_for(&heading.replace('\u{200B}', ""));
-        }
-        let layout = appendix_layout(&table).to_string();
-        if full_table.starts_with("tables/") && table.rows.len() > page_capacity(&layout) {
-            let summary =
-                AppendixSummary { rows: format::count(table.rows.len()), file: full_table, columns: summarise(&table) };
-            let empty = TableData { rows: Vec::new(), ..table };
-            self.appendix.push(AppendixTable {
-                key: key.clone(),
-                title,
-                layout: "normal".into(),
-                table: empty,
-                excerpt: None,
-                summary: Some(summary),
-            });
-            return key;
-        }
-        let excerpt = table
-            .split_off(APPENDIX_ROWS)
-            .map(|rest| Excerpt { omitted: format::count(rest.rows.len()), file: full_table });
-        self.appendix.push(AppendixTable { key: key.clone(), title, layout, table, excerpt, summary: None });
-        key
-    }
-
-    /// Keeps a table of up to [`BODY_LIMIT`] rows whole; of a longer one keeps the first
-    /// [`BODY_ROWS`] rows in the body and moves the rest to the appendix under `title`
-    /// (`full_table` as for [`Extras::appendix`]). Returns the appendix key when rows moved.
-    pub(crate) fn overflow(&mut self, table: &mut TableData, title: String, full_table: String) -> Option<String> {
-        if table.rows.len() <= BODY_LIMIT {
-            return None;
-        }
-        table.split_off(BODY_ROWS).map(|rest| self.appendix(title, rest, full_table))
-    }
 }
 
 /// The document data and the charts to draw (key, chart, text alternative).
@@ -691,16 +526,6 @@ mod tests {
         let excerpt = extras.appendix[0].excerpt.as_ref().expect("a table outside tables/ keeps an excerpt");
         assert_eq!(excerpt.omitted, "3");
         assert!(extras.appendix[0].summary.is_none());
-    }
-
-    #[test]
-    fn displayed_numbers_read_back_in_order() {
-        assert_eq!(display_value("−0.082"), Some(-0.082));
-        assert_eq!(display_value("1,234"), Some(1234.0));
-        assert_eq!(display_value("∞"), Some(f64::INFINITY));
-        assert_eq!(display_value("12.5 %"), Some(12.5));
-        assert!(display_value("< 0.001").is_some_and(|v| v < 0.001));
-        assert_eq!(display_value("Brennmoor"), None);
     }
 
     #[test]

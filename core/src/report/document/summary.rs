@@ -463,7 +463,8 @@ fn lethal_equivalents(ctx: &Context<'_>) -> Option<String> {
     if !rows.has(FITNESS_RETAINED) {
         return None;
     }
-    let value = |name: &str| ctx.param(uses::STATUS, name).and_then(serde_json::Value::as_f64).map(|v| format::short(v, 3));
+    let value =
+        |name: &str| ctx.param(uses::STATUS, name).and_then(serde_json::Value::as_f64).map(|v| format::short(v, 3));
     let used = value("lethal_equivalents")?;
     Some(match (value("lethal_equivalents_low"), value("lethal_equivalents_high")) {
         (Some(low), Some(high)) => format!("{used} (range {low}–{high})"),
@@ -506,13 +507,11 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             drift.as_ref().map_or_else(undefined, |d| with_range(d.h_retained.clone(), d.h_retained_ci.clone())),
             drift.as_ref().map_or_else(undefined, |d| d.h_lost.clone()),
             drift.as_ref().map_or_else(undefined, |d| with_range(d.f_drift.clone(), d.f_drift_ci.clone())),
-            drift.as_ref().and_then(|d| d.fitness.as_ref()).map_or_else(undefined, |w| {
-                match (&w.over_ne, &w.over_b) {
-                    (Some(ne), Some(b)) => format!("{} ({ne}; {b})", w.retained),
-                    (Some(ne), None) => format!("{} ({ne})", w.retained),
-                    (None, Some(b)) => format!("{} (B: {b})", w.retained),
-                    (None, None) => w.retained.clone(),
-                }
+            drift.as_ref().and_then(|d| d.fitness.as_ref()).map_or_else(undefined, |w| match (&w.over_ne, &w.over_b) {
+                (Some(ne), Some(b)) => format!("{} ({ne}; {b})", w.retained),
+                (Some(ne), None) => format!("{} ({ne})", w.retained),
+                (None, Some(b)) => format!("{} (B: {b})", w.retained),
+                (None, None) => w.retained.clone(),
             }),
         ]);
     }
