@@ -16,7 +16,7 @@ use std::sync::Arc;
 use std::time::Duration;
 
 use criterion::Criterion;
-use popgauge::host::{Isolation, PluginSpec, PluginScratch, load_plugin, worker::WORKER_ENV};
+use popgauge::host::{Isolation, PluginScratch, PluginSpec, load_plugin, worker::WORKER_ENV};
 use popgauge::provenance::hash::sha256_hex;
 use popgauge_abi::{
     AlleleCode, AssessmentInfo, GenotypeMatrix, LocusMeta, Params, SampleMeta, Seed, Step, StepContext,
@@ -143,14 +143,7 @@ fn main() {
     let given = [("bootstrap".to_string(), serde_json::json!(0))].into_iter().collect();
     let params: Params = popgauge_builtin::steps::diversity::descriptor().resolve(&given).expect("valid parameters");
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: m.full_view(&samples, &loci),
-        params: &params,
-        seed: Seed(1),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(m.full_view(&samples, &loci), &params, Seed(1)).with_assessment(&assessment);
     let builtin = popgauge_builtin::steps::diversity::Diversity;
     let in_process = external(&library, Isolation::InProcess);
     let child = external(&library, Isolation::Process);

@@ -26,7 +26,7 @@
 
 use std::collections::BTreeMap;
 
-use popgauge_abi::{AssessmentInfo, Cell, GenotypeMatrix, Params, Seed, Step, StepContext, Table};
+use popgauge_abi::{Cell, GenotypeMatrix, Params, Seed, Step, StepContext, Table};
 use popgauge_sim::{
     BurnIn, LocusSpec, MarkerModel, MicrosatelliteModel, MigrationSchedule, PopulationSpec, SampleRequest, SampleSet,
     SimError, Simulation, SimulationConfig, SizeSchedule, SnpModel,
@@ -305,15 +305,7 @@ fn estimate(
 ) -> Result<Replicate, PlanError> {
     let matrix = matrix_from_sample(sample)?;
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
-    let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params,
-        seed: Seed(seed),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), params, Seed(seed));
     let uses = || estimator.step.descriptor().uses;
     let output = estimator.step.run(&ctx).map_err(|e| PlanError::Estimator { uses: uses(), message: e.message })?;
     let table = output

@@ -201,6 +201,49 @@ pub struct StepContext<'a> {
     pub input_findings: &'a [Finding],
 }
 
+/// The assessment facts of a context built with [`StepContext::new`]: all empty.
+static NO_ASSESSMENT: AssessmentInfo = AssessmentInfo {
+    title: String::new(),
+    species: String::new(),
+    assessor: String::new(),
+    organisation: String::new(),
+    date: String::new(),
+    generation_time_years: None,
+    generation_time_source: None,
+    sampling: None,
+    seed: 0,
+    thresholds: Vec::new(),
+    populations: Vec::new(),
+};
+
+impl<'a> StepContext<'a> {
+    /// A context over `view` with resolved `params` (`Descriptor::resolve`) and `seed`, no
+    /// earlier results, empty assessment facts and no reader findings: what a step's own tests
+    /// and benchmarks need. Add the rest with [`StepContext::with_earlier`],
+    /// [`StepContext::with_assessment`] and [`StepContext::with_input_findings`].
+    pub fn new(view: GenotypeView<'a>, params: &'a Params, seed: Seed) -> StepContext<'a> {
+        StepContext { view, params, seed, earlier: &[], assessment: &NO_ASSESSMENT, input_findings: &[] }
+    }
+
+    /// The same context with the results of earlier steps.
+    #[must_use]
+    pub fn with_earlier(self, earlier: &'a [StepResult]) -> StepContext<'a> {
+        StepContext { earlier, ..self }
+    }
+
+    /// The same context with these assessment facts (generation time, thresholds, sheets).
+    #[must_use]
+    pub fn with_assessment(self, assessment: &'a AssessmentInfo) -> StepContext<'a> {
+        StepContext { assessment, ..self }
+    }
+
+    /// The same context with the findings the readers made.
+    #[must_use]
+    pub fn with_input_findings(self, input_findings: &'a [Finding]) -> StepContext<'a> {
+        StepContext { input_findings, ..self }
+    }
+}
+
 impl StepContext<'_> {
     /// Deserialises the resolved parameters into a step's own `Params` struct.
     ///
@@ -230,4 +273,30 @@ pub trait Step: Send + Sync {
     /// A [`StepError`] when the step cannot produce results at all; problems with parts of the
     /// data are findings, not errors.
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError>;
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::{AlleleCode, GenotypeMatrix, LocusMeta, SampleMeta};
+
+    /// Common practice for a builder: `new` gives the empty parts, each `with_*` sets its own.
+    #[test]
+    fn a_context_is_built_from_a_view_parameters_and_a_seed() {
+        let samples = vec![SampleMeta { id: "s1".into(), population: "A".into(), year: 2020 }];
+        let loci = vec![LocusMeta { name: "L1".into(), alleles: vec!["1".into()], chromosome: None, position: None }];
+        let matrix = GenotypeMatrix::new(samples, loci, vec![AlleleCode(1); 2]).unwrap();
+        let (s, l) = (matrix.all_sample_indices(), matrix.all_locus_indices());
+        let params = Params::new();
+        let ctx = StepContext::new(matrix.full_view(&s, &l), &params, Seed(9));
+        assert_eq!(ctx.seed, Seed(9));
+        assert!(ctx.earlier.is_empty() && ctx.input_findings.is_empty());
+        assert_eq!(ctx.assessment, &AssessmentInfo::default());
+        let facts = AssessmentInfo { title: "T".into(), ..AssessmentInfo::default() };
+        let findings = [Finding::info("x", "note", crate::Where::default())];
+        let ctx = ctx.with_assessment(&facts).with_input_findings(&findings);
+        assert_eq!(ctx.assessment.title, "T");
+        assert_eq!(ctx.input_findings.len(), 1);
+        assert_eq!(ctx.view.n_samples(), 1);
+    }
 }

@@ -82,14 +82,7 @@ fn run(matrix: &GenotypeMatrix, params: &Value) -> StepOutput {
     let resolved = descriptor().resolve(&given).expect("benchmark parameters are valid");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(1),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(1)).with_assessment(&assessment);
     Differentiation.run(&ctx).expect("the step runs")
 }
 

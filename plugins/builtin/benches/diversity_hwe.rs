@@ -64,14 +64,7 @@ fn run(step: &dyn Step, matrix: &GenotypeMatrix) -> popgauge_abi::StepOutput {
     let params = step.descriptor().resolve(&Default::default()).expect("defaults are valid");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &params,
-        seed: Seed(1),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &params, Seed(1)).with_assessment(&assessment);
     step.run(&ctx).expect("the step runs")
 }
 

@@ -54,14 +54,7 @@ fn run_criteria(matrix: &GenotypeMatrix, jackknife: bool, defaults: bool) -> pop
     let params = NeLd.descriptor().resolve(&given).expect("valid parameters");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &params,
-        seed: Seed(1),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &params, Seed(1)).with_assessment(&assessment);
     NeLd.run(&ctx).expect("ne-ld runs")
 }
 
@@ -104,7 +97,8 @@ fn popcount_ceiling() -> f64 {
     let total: u64 = (0..threads)
         .into_par_iter()
         .map(|thread| {
-            let x: Vec<u64> = (0..WORDS).map(|i| (i as u64 + thread as u64).wrapping_mul(0x9e37_79b9_7f4a_7c15)).collect();
+            let x: Vec<u64> =
+                (0..WORDS).map(|i| (i as u64 + thread as u64).wrapping_mul(0x9e37_79b9_7f4a_7c15)).collect();
             let y: Vec<u64> = x.iter().map(|v| v.rotate_left(17)).collect();
             (0..REPEATS).map(|r| and_count(&x, &y[..WORDS - (r & 1)])).sum::<u64>()
         })
@@ -143,7 +137,8 @@ fn and_count_avx512(x: &[u64], y: &[u64]) -> u64 {
     let mut sum = _mm512_setzero_si512();
     for i in (0..n).step_by(8) {
         // SAFETY: i + 8 ≤ n ≤ both lengths.
-        let (a, b) = unsafe { (_mm512_loadu_si512(x.as_ptr().add(i).cast()), _mm512_loadu_si512(y.as_ptr().add(i).cast())) };
+        let (a, b) =
+            unsafe { (_mm512_loadu_si512(x.as_ptr().add(i).cast()), _mm512_loadu_si512(y.as_ptr().add(i).cast())) };
         sum = _mm512_add_epi64(sum, _mm512_popcnt_epi64(_mm512_and_si512(a, b)));
     }
     let tail: u64 = x[n..].iter().zip(&y[n..]).map(|(a, b)| u64::from((a & b).count_ones())).sum();

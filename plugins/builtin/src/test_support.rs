@@ -105,14 +105,9 @@ pub(crate) fn try_run_step(
     let resolved = step.descriptor().resolve(&given).expect("test parameters are valid");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(20_261_130),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings,
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(20_261_130))
+        .with_assessment(&assessment)
+        .with_input_findings(input_findings);
     step.run(&ctx)
 }
 

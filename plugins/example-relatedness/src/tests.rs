@@ -34,14 +34,7 @@ fn run(m: &GenotypeMatrix, bootstrap: u32) -> StepOutput {
     let params: ResolvedParams = step.descriptor().resolve(&given).unwrap();
     let (s, l) = (m.all_sample_indices(), m.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: m.full_view(&s, &l),
-        params: &params,
-        seed: Seed(5),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(m.full_view(&s, &l), &params, Seed(5)).with_assessment(&assessment);
     step.run(&ctx).unwrap()
 }
 

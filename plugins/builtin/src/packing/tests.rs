@@ -90,14 +90,7 @@ fn run(uses: &str, matrix: &GenotypeMatrix, params: &Value) -> StepOutput {
         .map(|p| PopulationInfo { population: format!("Pop{p}"), census_size: Some(500.0), ..Default::default() })
         .collect();
     let assessment = AssessmentInfo { generation_time_years: Some(1.5), populations, ..Default::default() };
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(7),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(7)).with_assessment(&assessment);
     step.run(&ctx).expect("the step runs")
 }
 

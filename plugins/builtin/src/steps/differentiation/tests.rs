@@ -25,14 +25,7 @@ fn run_with(matrix: &GenotypeMatrix, params: Value, seed: u64, populations: Vec<
     let resolved = descriptor().resolve(&given).expect("test parameters are valid");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo { populations, ..AssessmentInfo::default() };
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(seed),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(seed)).with_assessment(&assessment);
     Differentiation.run(&ctx).expect("the step runs")
 }
 

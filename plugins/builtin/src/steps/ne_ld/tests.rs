@@ -506,14 +506,8 @@ fn run_path(matrix: &GenotypeMatrix, params: serde_json::Value, path: PairPath) 
     let resolved = descriptor().resolve(&given).expect("valid test parameters");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = popgauge_abi::AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(20_261_202),
-        earlier: &[],
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx =
+        StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(20_261_202)).with_assessment(&assessment);
     run_with(&ctx, path).expect("ne-ld runs")
 }
 

@@ -15,14 +15,7 @@ pub(super) fn run_with(matrix: &GenotypeMatrix, params: serde_json::Value, asses
     };
     let resolved = descriptor().resolve(&given).expect("valid parameters");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(1),
-        earlier: &[],
-        assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(1)).with_assessment(assessment);
     NeTemporal.run(&ctx).expect("ne-temporal runs")
 }
 

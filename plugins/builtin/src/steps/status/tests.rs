@@ -138,14 +138,9 @@ fn run_on(
     let given: BTreeMap<String, Value> = params.as_object().unwrap().clone().into_iter().collect();
     let resolved = descriptor().resolve(&given).expect("test parameters are valid");
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(1),
-        earlier,
-        assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(1))
+        .with_earlier(earlier)
+        .with_assessment(assessment);
     Status.run(&ctx)
 }
 
@@ -736,13 +731,7 @@ fn run_trend(earlier: &[StepResult]) -> StepOutput {
     let m = matrix();
     let (samples, loci) = (m.all_sample_indices(), m.all_locus_indices());
     let info = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: m.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(1),
-        earlier,
-        assessment: &info,
-        input_findings: &[],
-    };
+    let ctx =
+        StepContext::new(m.full_view(&samples, &loci), &resolved, Seed(1)).with_earlier(earlier).with_assessment(&info);
     trend::Trend.run(&ctx).unwrap()
 }

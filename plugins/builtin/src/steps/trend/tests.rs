@@ -57,14 +57,9 @@ fn run_trend(earlier: &[StepResult], params: Value) -> Result<StepOutput, StepEr
     let matrix = MatrixBuilder::new(&["L1"]).sample("s1", "North", 2020, &["1/2"]).build();
     let (samples, loci) = (matrix.all_sample_indices(), matrix.all_locus_indices());
     let assessment = AssessmentInfo::default();
-    let ctx = StepContext {
-        view: matrix.full_view(&samples, &loci),
-        params: &resolved,
-        seed: Seed(20_261_130),
-        earlier,
-        assessment: &assessment,
-        input_findings: &[],
-    };
+    let ctx = StepContext::new(matrix.full_view(&samples, &loci), &resolved, Seed(20_261_130))
+        .with_earlier(earlier)
+        .with_assessment(&assessment);
     Trend.run(&ctx)
 }
 
