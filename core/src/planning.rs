@@ -27,6 +27,7 @@
 use std::collections::BTreeMap;
 
 use popgauge_abi::{Cell, GenotypeMatrix, Params, Seed, Step, StepContext, Table};
+use popgauge_builtin::stats::bootstrap::median;
 use popgauge_sim::{
     BurnIn, LocusSpec, MarkerModel, MicrosatelliteModel, MigrationSchedule, PopulationSpec, SampleRequest, SampleSet,
     SimError, Simulation, SimulationConfig, SizeSchedule, SnpModel,
@@ -329,14 +330,6 @@ fn read_replicate(table: &Table, pcrit: f64, interval: IntervalKind) -> Replicat
     Replicate { estimate: number("ne"), interval: bounds }
 }
 
-fn median(mut values: Vec<f64>) -> Option<f64> {
-    if values.is_empty() {
-        return None;
-    }
-    values.sort_by(f64::total_cmp);
-    let n = values.len();
-    Some(if n % 2 == 1 { values[n / 2] } else { (values[n / 2 - 1] + values[n / 2]) / 2.0 })
-}
 
 fn share(count: usize, of: usize) -> Option<f64> {
     (of > 0).then(|| count as f64 / of as f64)

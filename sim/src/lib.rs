@@ -80,3 +80,26 @@ pub use snp_panel::{
     SAMPLING_YEARS, SnpPanel, write_case,
 };
 pub use wide_table::{WideTable, write_wide_table};
+
+/// The `main` of a program that writes a demo case into the folder named by its one argument:
+/// runs `write` on it and prints its summary, or prints `usage` (exit code 2) without an
+/// argument and the error (exit code 1) when writing fails.
+pub fn write_case_main(
+    usage: &str,
+    write: impl FnOnce(&std::path::Path) -> Result<String, Box<dyn std::error::Error>>,
+) -> std::process::ExitCode {
+    let Some(dir) = std::env::args_os().nth(1).map(std::path::PathBuf::from) else {
+        eprintln!("{usage}");
+        return std::process::ExitCode::from(2);
+    };
+    match write(&dir) {
+        Ok(summary) => {
+            println!("{summary}");
+            std::process::ExitCode::SUCCESS
+        }
+        Err(error) => {
+            eprintln!("error: {error}");
+            std::process::ExitCode::FAILURE
+        }
+    }
+}

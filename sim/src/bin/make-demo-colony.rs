@@ -12,7 +12,7 @@ use std::error::Error;
 use std::fmt::Write as _;
 use std::fs;
 use std::io::Write as _;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::ExitCode;
 
 use popgauge_sim::{Genome, Mating, PedigreeSample, PedigreeStudy, simulate_pedigrees};
@@ -31,22 +31,7 @@ fn genome() -> Genome {
 }
 
 fn main() -> ExitCode {
-    let Some(dir) = std::env::args_os().nth(1).map(PathBuf::from) else {
-        eprintln!(
-            "usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR"
-        );
-        return ExitCode::from(2);
-    };
-    match run(&dir) {
-        Ok(summary) => {
-            println!("{summary}");
-            ExitCode::SUCCESS
-        }
-        Err(error) => {
-            eprintln!("error: {error}");
-            ExitCode::FAILURE
-        }
-    }
+    popgauge_sim::write_case_main("usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR", run)
 }
 
 fn run(dir: &Path) -> Result<String, Box<dyn Error>> {

@@ -19,7 +19,7 @@
 use std::collections::BTreeMap;
 use std::error::Error;
 use std::fs;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::ExitCode;
 
 use popgauge_sim::{
@@ -147,20 +147,7 @@ enum Fault {
 }
 
 fn main() -> ExitCode {
-    let Some(dir) = std::env::args_os().nth(1).map(PathBuf::from) else {
-        eprintln!("usage: make-demo DIR\n  writes genotypes.csv, populations.csv and truth.csv into DIR");
-        return ExitCode::from(2);
-    };
-    match run(&dir) {
-        Ok(summary) => {
-            println!("{summary}");
-            ExitCode::SUCCESS
-        }
-        Err(error) => {
-            eprintln!("error: {error}");
-            ExitCode::FAILURE
-        }
-    }
+    popgauge_sim::write_case_main("usage: make-demo DIR\n  writes genotypes.csv, populations.csv and truth.csv into DIR", run)
 }
 
 fn run(dir: &Path) -> Result<String, Box<dyn Error>> {

@@ -13,6 +13,7 @@ use super::sections::{Context, text, whole};
 use super::table::TableData;
 use super::{BODY_LIMIT, BODY_ROWS, Extras};
 use crate::results::table_file;
+use popgauge_builtin::stats::bootstrap::median;
 
 /// The data-quality tables.
 #[derive(Debug, Clone, Serialize)]
@@ -165,14 +166,6 @@ fn hwe_departures(ctx: &Context<'_>) -> BTreeMap<String, (usize, usize)> {
     out
 }
 
-fn median(mut values: Vec<f64>) -> Option<f64> {
-    if values.is_empty() {
-        return None;
-    }
-    values.sort_by(f64::total_cmp);
-    let n = values.len();
-    Some(if n % 2 == 1 { values[n / 2] } else { (values[n / 2 - 1] + values[n / 2]) / 2.0 })
-}
 
 /// Missingness over twice the median (and at least one percentage point above it, so that a
 /// panel with almost no missing data does not flag 0.4 % against 0.2 %).

@@ -34,19 +34,7 @@ pub(super) fn draw_intervals(
         .y_label_area_size(64)
         .build_cartesian_2d(-0.5..count - 0.5, (low..high).log_scale())
         .map_err(|e| e.to_string())?;
-    chart
-        .configure_mesh()
-        .disable_x_mesh()
-        .light_line_style(WHITE)
-        .bold_line_style(RGBColor(225, 225, 225))
-        .x_labels(0)
-        .x_label_formatter(&|_| String::new())
-        .y_label_formatter(&|v: &f64| plain_number(*v))
-        .y_desc(y_label)
-        .label_style(font(15.0))
-        .axis_desc_style(font(16.0))
-        .draw()
-        .map_err(|e| e.to_string())?;
+    configure_categories(&mut chart, y_label, 10, &|v| plain_number(*v))?;
     for (index, point) in points.iter().enumerate() {
         label_below(root, &chart, index as f64, low, &point.label)?;
     }
@@ -95,6 +83,33 @@ pub(super) fn draw_intervals(
     Ok(())
 }
 
+/// The mesh of a chart with one category per x position (labelled by the caller below the
+/// axis): horizontal grid lines only, `y_labels` labels on the y axis.
+fn configure_categories<'a, 'b: 'a, Y>(
+    chart: &mut NumericChart<'a, 'b, Y>,
+    y_label: &str,
+    y_labels: usize,
+    y_format: &dyn Fn(&f64) -> String,
+) -> Result<(), String>
+where
+    Y: Ranged<ValueType = f64> + ValueFormatter<f64>,
+{
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(RGBColor(225, 225, 225))
+        .x_labels(0)
+        .x_label_formatter(&|_| String::new())
+        .y_labels(y_labels)
+        .y_label_formatter(y_format)
+        .y_desc(y_label)
+        .label_style(font(15.0))
+        .axis_desc_style(font(16.0))
+        .draw()
+        .map_err(|e| e.to_string())
+}
+
 pub(super) fn draw_strip(root: &Area<'_>, groups: &[StripGroup], y_label: &str) -> Result<(), String> {
     let (plot, key) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
     draw_key(&key, &[KeyEntry::Marker("one animal".into()), KeyEntry::Line(6, "group mean".into())], 30)?;
@@ -110,20 +125,7 @@ pub(super) fn draw_strip(root: &Area<'_>, groups: &[StripGroup], y_label: &str) 
         .y_label_area_size(64)
         .build_cartesian_2d(-0.5..count - 0.5, y_min..y_max)
         .map_err(|e| e.to_string())?;
-    chart
-        .configure_mesh()
-        .disable_x_mesh()
-        .light_line_style(WHITE)
-        .bold_line_style(RGBColor(225, 225, 225))
-        .x_labels(0)
-        .x_label_formatter(&|_| String::new())
-        .y_labels(6)
-        .y_label_formatter(&|v| format!("{v:.decimals$}"))
-        .y_desc(y_label)
-        .label_style(font(15.0))
-        .axis_desc_style(font(16.0))
-        .draw()
-        .map_err(|e| e.to_string())?;
+    configure_categories(&mut chart, y_label, 6, &|v| format!("{v:.decimals$}"))?;
     for (index, group) in groups.iter().enumerate() {
         let x = index as f64;
         let (first, last) = group.label.rsplit_once(' ').unwrap_or((group.label.as_str(), ""));

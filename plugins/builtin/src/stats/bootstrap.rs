@@ -83,6 +83,22 @@ pub fn percentile_interval(values: &mut [f64], level: f64) -> Option<Interval> {
     Some(Interval { low: quantile_sorted(values, tail), high: quantile_sorted(values, 1.0 - tail) })
 }
 
+/// The median of `values` (the mean of the two middle ones for an even count, as numpy's
+/// `median`; an infinite middle value gives an infinite median), or `None` when there are none.
+pub fn median(mut values: Vec<f64>) -> Option<f64> {
+    if values.is_empty() {
+        return None;
+    }
+    values.sort_by(f64::total_cmp);
+    Some(median_sorted(&values))
+}
+
+/// The median of sorted, non-empty values, as [`median`].
+pub fn median_sorted(sorted: &[f64]) -> f64 {
+    let n = sorted.len();
+    if n % 2 == 1 { sorted[n / 2] } else { (sorted[n / 2 - 1] + sorted[n / 2]) / 2.0 }
+}
+
 /// The `q`-quantile of sorted values with linear interpolation (numpy's default method).
 pub fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
     let position = q * (sorted.len() - 1) as f64;
@@ -136,6 +152,17 @@ pub fn jackknife_standard_error(leave_one_out: &[Option<f64>]) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Common practice (the usual definition of the median): [3, 1, 2] → 2, [1, 2, 3, 10] →
+    /// 2.5; an infinite middle value gives an infinite median, never NaN.
+    #[test]
+    fn median_of_odd_even_and_infinite_values() {
+        assert_eq!(median(vec![3.0, 1.0, 2.0]), Some(2.0));
+        assert_eq!(median(vec![1.0, 2.0, 3.0, 10.0]), Some(2.5));
+        assert_eq!(median(vec![1.0, f64::INFINITY, f64::INFINITY]), Some(f64::INFINITY));
+        assert_eq!(median(vec![f64::INFINITY, f64::INFINITY]), Some(f64::INFINITY));
+        assert_eq!(median(vec![]), None);
+    }
 
     /// numpy 1.26 `np.percentile([1,2,3,4,5,6,7,8,9,10], [2.5, 97.5])` = [1.225, 9.775]
     /// (linear interpolation, the default method).

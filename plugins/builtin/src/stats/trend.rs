@@ -34,6 +34,8 @@ use std::cmp::Ordering;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::erf::{erfc, erfc_inv};
 
+use super::bootstrap::median_sorted;
+
 /// Fewest points for a Mann–Kendall test: with 3 the smallest two-sided p is 0.333 (2 of the 3! = 6
 /// orders, common practice).
 pub const MIN_POINTS_MANN_KENDALL: usize = 4;
@@ -216,11 +218,6 @@ pub fn sen_slope(times: &[f64], values: &[f64], variance_s: f64, level: f64) -> 
     let low = (m1 >= 1.0).then(|| slopes[m1 as usize - 1]);
     let high = (m2 + 1.0 <= pairs as f64).then(|| slopes[m2 as usize]);
     Some(SenSlope { slope, low, high, pairs })
-}
-
-fn median_sorted(sorted: &[f64]) -> f64 {
-    let n = sorted.len();
-    if n % 2 == 1 { sorted[n / 2] } else { (sorted[n / 2 - 1] + sorted[n / 2]) / 2.0 }
 }
 
 /// An ordinary least-squares line with an interval for its slope.
