@@ -31,7 +31,10 @@ fn genome() -> Genome {
 }
 
 fn main() -> ExitCode {
-    popgauge_sim::write_case_main("usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR", run)
+    popgauge_sim::write_case_main(
+        "usage: make-demo-colony DIR\n  writes calls.vcf.gz, samples.csv, populations.csv and truth.csv into DIR",
+        run,
+    )
 }
 
 fn run(dir: &Path) -> Result<String, Box<dyn Error>> {

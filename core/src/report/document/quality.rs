@@ -166,7 +166,6 @@ fn hwe_departures(ctx: &Context<'_>) -> BTreeMap<String, (usize, usize)> {
     out
 }
 
-
 /// Missingness over twice the median (and at least one percentage point above it, so that a
 /// panel with almost no missing data does not flag 0.4 % against 0.2 %).
 fn missing_outlier(f: &LocusFacts, median: Option<f64>) -> bool {
