@@ -48,6 +48,7 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod contract;
 pub mod ffi;
 mod matrix;
 mod number;

@@ -58,6 +58,22 @@ impl<'t> TableRow<'t> {
         self.cell(column)?.as_year()
     }
 
+    /// The cell of `column` as an integer (counts, years): an integer, or a number without a
+    /// fractional part below 10^15 in magnitude.
+    pub fn integer(&self, column: &str) -> Option<i64> {
+        match self.cell(column)? {
+            Cell::Int(i) => Some(*i),
+            Cell::Num(x) if x.fract() == 0.0 && x.abs() < 1e15 => Some(*x as i64),
+            _ => None,
+        }
+    }
+
+    /// The cell of `column` as display text whatever its kind (text as is, numbers in their
+    /// shortest form, `"inf"`); `None` for `null` or a missing column.
+    pub fn label(&self, column: &str) -> Option<String> {
+        self.cell(column).filter(|c| !matches!(c, Cell::Null)).map(|c| c.to_string())
+    }
+
     /// Both bounds of the interval `<prefix>_low`/`<prefix>_high`, when both are numbers.
     pub fn interval(&self, prefix: &str) -> Option<(f64, f64)> {
         Some((self.number(&format!("{prefix}_low"))?, self.number(&format!("{prefix}_high"))?))
@@ -109,6 +125,12 @@ mod tests {
         assert_eq!(rows[0].number("ne"), Some(120.0));
         assert_eq!(rows[0].interval("ne"), Some((80.0, f64::INFINITY)));
         assert_eq!(rows[1].year("year"), Some(2019));
+        assert_eq!(rows[1].integer("year"), Some(2019));
+        assert_eq!(rows[0].integer("ne"), Some(120));
+        assert_eq!(rows[0].integer("population"), None, "text is no integer");
+        assert_eq!(rows[0].label("ne_high").as_deref(), Some("inf"));
+        assert_eq!(rows[0].label("population").as_deref(), Some("North"));
+        assert_eq!(rows[1].label("ne"), None, "null has no label");
         assert_eq!(rows[1].number("ne"), None, "null is no number");
         assert_eq!(rows[1].interval("ne"), None);
         assert_eq!(rows[1].cell("no such column"), None);

@@ -51,7 +51,7 @@ const F_ROH: &str = "f_roh";
 const SMLH: &str = "smlh";
 
 fn mean_sd(row: &Row<'_>, measure: &str) -> String {
-    match (row.num(&format!("{measure}_mean")), row.num(&format!("{measure}_sd"))) {
+    match (row.number(&format!("{measure}_mean")), row.number(&format!("{measure}_sd"))) {
         (Some(m), Some(sd)) => format!("{} ({})", format::fixed(m, 3), format::fixed(sd, 3)),
         (Some(m), None) => format::fixed(m, 3),
         _ => format::UNDEFINED.into(),
@@ -62,9 +62,9 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     let step = ctx.results.step(uses::INBREEDING)?;
     let groups = table_of(step, "groups")?;
     let individuals = table_of(step, "individuals");
-    let has_roh = groups.iter().any(|r| r.num("f_roh_mean").is_some());
+    let has_roh = groups.iter().any(|r| r.number("f_roh_mean").is_some());
     let biallelic_max = individuals
-        .map(|rows| rows.iter().filter_map(|r| r.num("loci_biallelic")).fold(0.0_f64, f64::max))
+        .map(|rows| rows.iter().filter_map(|r| r.number("loci_biallelic")).fold(0.0_f64, f64::max))
         .unwrap_or(0.0);
     let f_uni_shown = biallelic_max >= MIN_BIALLELIC_LOCI;
     let mut t = TableData::new(&[
@@ -79,16 +79,16 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     ]);
     let mut g2_sentences = Vec::new();
     for row in groups.iter() {
-        let g2 = match row.num("g2") {
+        let g2 = match row.number("g2") {
             None => format::UNDEFINED.to_string(),
-            Some(g) => match (row.num("g2_low"), row.num("g2_high")) {
+            Some(g) => match (row.number("g2_low"), row.number("g2_high")) {
                 (None, None) => format::short(g, 3),
                 (low, high) => {
                     format!("{} ({})", format::short(g, 3), format::interval(low, high, NumberStyle::Short(3)))
                 }
             },
         };
-        if let (Some(g), Some(p)) = (row.num("g2"), row.num("g2_p")) {
+        if let (Some(g), Some(p)) = (row.number("g2"), row.number("g2_p")) {
             if p < 0.05 && g > 0.0 {
                 g2_sentences.push(format!(
                     "{} {}: g2 = {} ({}): the animals sampled differ in how inbred they are.",
@@ -107,11 +107,11 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             if f_uni_shown { mean_sd(&row, F_UNI) } else { format::UNDEFINED.into() },
             mean_sd(&row, F_ROH),
             g2,
-            format::maybe(row.num("g2_p"), NumberStyle::PValue),
+            format::maybe(row.number("g2_p"), NumberStyle::PValue),
         ]);
     }
     t.drop_empty_columns(&["Population", "Year", "n"]);
-    if g2_sentences.is_empty() && groups.iter().any(|r| r.num("g2_p").is_some()) {
+    if g2_sentences.is_empty() && groups.iter().any(|r| r.number("g2_p").is_some()) {
         g2_sentences.push(
             "In no group is g2 significantly above zero (p < 0.05): the data give no evidence that the animals sampled differ in how inbred they are. With few loci g2 has little power, so this is not evidence that they do not."
                 .into(),
@@ -120,7 +120,7 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     let roh_classes = individuals.filter(|_| has_roh).map(|rows| {
         let mut sums: BTreeMap<(String, String), ([f64; 3], usize)> = BTreeMap::new();
         for row in rows.iter() {
-            let values = [row.num("roh_lt2_mb"), row.num("roh_2to8_mb"), row.num("roh_gt8_mb")];
+            let values = [row.number("roh_lt2_mb"), row.number("roh_2to8_mb"), row.number("roh_gt8_mb")];
             if values.iter().any(Option::is_none) {
                 continue;
             }
@@ -148,7 +148,7 @@ pub(crate) fn inbreeding_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
         let row = p.iter().next()?;
         Some(format!(
             "FROH divides the length of an animal's runs by the {} Mb the panel spans on {} chromosome(s) ({} of {} loci have a position).",
-            format::fixed(row.num("length_mb")?, 1),
+            format::fixed(row.number("length_mb")?, 1),
             whole(&row, "chromosomes"),
             whole(&row, "loci_placed"),
             whole(&row, "loci"),
@@ -198,9 +198,9 @@ fn strip_chart(ctx: &Context<'_>, rows: &Rows<'_>, measure: Measure, extras: &mu
     };
     let mut groups: BTreeMap<(String, i64), Vec<f64>> = BTreeMap::new();
     for row in rows.iter() {
-        let (Some(population), Some(year)) = (row.text("population"), row.int("year")) else { continue };
+        let (Some(population), Some(year)) = (row.text("population"), row.integer("year")) else { continue };
         let entry = groups.entry((population.to_string(), year)).or_default();
-        if let Some(v) = row.num(column) {
+        if let Some(v) = row.number(column) {
             entry.push(v);
         }
     }

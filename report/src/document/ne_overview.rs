@@ -56,10 +56,10 @@ fn with_interval(ne: f64, low: Option<f64>, high: Option<f64>) -> String {
 }
 
 fn status_cell(row: &Row<'_>) -> Option<String> {
-    let ne = row.num(col::NE)?;
+    let ne = row.number(col::NE)?;
     let method = row.text(col::NE_METHOD).map(format::ne_method_short).unwrap_or_default();
     let year = row.label(col::NE_YEAR).or_else(|| row.label(col::YEAR)).unwrap_or_default();
-    Some(format!("{}\n{method}, {year}", with_interval(ne, row.num(col::NE_LOW), row.num(col::NE_HIGH))))
+    Some(format!("{}\n{method}, {year}", with_interval(ne, row.number(col::NE_LOW), row.number(col::NE_HIGH))))
 }
 
 /// One line per sampling year: the estimate by the sample-size rule for rare alleles, and the
@@ -76,8 +76,8 @@ fn ld_cell(step: &StepResult, population: &str) -> Option<String> {
             let chosen = representative_ne(std::slice::from_ref(step), population, year, &by_size)?;
             let all: Vec<f64> = rows
                 .iter()
-                .filter(|r| r.text(col::POPULATION) == Some(population) && r.int(col::YEAR) == Some(i64::from(year)))
-                .filter_map(|r| r.num(col::NE))
+                .filter(|r| r.text(col::POPULATION) == Some(population) && r.integer(col::YEAR) == Some(i64::from(year)))
+                .filter_map(|r| r.number(col::NE))
                 .collect();
             let low = all.iter().copied().fold(f64::INFINITY, f64::min);
             let high = all.iter().copied().fold(f64::NEG_INFINITY, f64::max);
@@ -115,8 +115,8 @@ fn estimate_lines(
         .iter()
         .filter(|r| r.text(col::POPULATION) == Some(population))
         .filter_map(|r| {
-            let ne = r.num(ne_column)?;
-            Some(format!("{}: {}", when(&r), with_interval(ne, r.num(col::NE_LOW), r.num(col::NE_HIGH))))
+            let ne = r.number(ne_column)?;
+            Some(format!("{}: {}", when(&r), with_interval(ne, r.number(col::NE_LOW), r.number(col::NE_HIGH))))
         })
         .collect();
     (!lines.is_empty()).then(|| lines.join("\n"))

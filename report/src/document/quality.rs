@@ -69,11 +69,11 @@ pub(crate) fn quality_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<
             LocusFacts {
                 hwe_departures: departures.get(&name).copied(),
                 status: text(&row, col::STATUS),
-                missing: row.num(MISSING),
-                alleles: row.num(ALLELES),
-                null_allele: row.num(NULL_ALLELE),
-                deficit_groups: row.num(DEFICIT_GROUPS),
-                tested_groups: row.num(TESTED_GROUPS),
+                missing: row.number(MISSING),
+                alleles: row.number(ALLELES),
+                null_allele: row.number(NULL_ALLELE),
+                deficit_groups: row.number(DEFICIT_GROUPS),
+                tested_groups: row.number(TESTED_GROUPS),
                 name,
             }
         })
@@ -156,7 +156,7 @@ fn hwe_departures(ctx: &Context<'_>) -> BTreeMap<String, (usize, usize)> {
     let Some(rows) = ctx.results.table(uses::HWE, table::BY_LOCUS) else { return out };
     for row in rows.iter() {
         let Some(locus) = row.label(col::LOCUS) else { continue };
-        let Some(q) = row.num(col::Q_VALUE) else { continue };
+        let Some(q) = row.number(col::Q_VALUE) else { continue };
         let entry = out.entry(locus).or_default();
         entry.1 += 1;
         if q < 0.05 {

@@ -101,7 +101,7 @@ fn trend_slopes(ctx: &Context<'_>, metric: &str) -> BTreeMap<String, f64> {
                 .filter(|r| r.text(col::METRIC) == Some(metric))
                 .filter(|r| r.text("scale").is_none_or(|scale| scale == "value"))
                 .filter_map(|r| {
-                    Some((r.text(col::POPULATION)?.to_string(), r.num(col::OLS_SLOPE).filter(|s| s.is_finite())?))
+                    Some((r.text(col::POPULATION)?.to_string(), r.number(col::OLS_SLOPE).filter(|s| s.is_finite())?))
                 })
                 .collect()
         })
@@ -113,7 +113,7 @@ pub(crate) fn latest_rows<'a>(rows: &Rows<'a>) -> Vec<Row<'a>> {
     let mut latest: BTreeMap<String, Row<'a>> = BTreeMap::new();
     for row in rows.iter() {
         let Some(population) = row.text(col::POPULATION) else { continue };
-        let newer = latest.get(population).is_none_or(|old| row.int(col::YEAR) >= old.int(col::YEAR));
+        let newer = latest.get(population).is_none_or(|old| row.integer(col::YEAR) >= old.integer(col::YEAR));
         if newer {
             latest.insert(population.to_string(), row);
         }
@@ -133,13 +133,13 @@ pub(crate) fn whole(row: &Row<'_>, column: &str) -> String {
 }
 
 pub(crate) fn fixed3(row: &Row<'_>, column: &str) -> String {
-    format::maybe(row.num(column), NumberStyle::Fixed(3))
+    format::maybe(row.number(column), NumberStyle::Fixed(3))
 }
 
 pub(crate) fn ne(row: &Row<'_>, column: &str) -> String {
-    format::maybe(row.num(column), NumberStyle::EffectiveSize)
+    format::maybe(row.number(column), NumberStyle::EffectiveSize)
 }
 
 pub(crate) fn ne_interval(row: &Row<'_>, low: &str, high: &str) -> String {
-    format::interval(row.num(low), row.num(high), NumberStyle::EffectiveSize)
+    format::interval(row.number(low), row.number(high), NumberStyle::EffectiveSize)
 }

@@ -212,10 +212,10 @@ pub(crate) fn summary(ctx: &Context<'_>) -> Summary {
 fn horizon(ctx: &Context<'_>) -> (Option<String>, Option<String>) {
     let row = ctx.results.table(uses::STATUS, table::HORIZON).and_then(|t| t.iter().next());
     let years = row
-        .and_then(|r| r.num("horizon_years"))
+        .and_then(|r| r.number("horizon_years"))
         .or_else(|| ctx.param(uses::STATUS, "horizon_years").and_then(serde_json::Value::as_f64));
     let generations =
-        row.and_then(|r| r.num(col::GENERATIONS)).or_else(|| years.zip(ctx.generation_time).map(|(y, g)| y / g));
+        row.and_then(|r| r.number(col::GENERATIONS)).or_else(|| years.zip(ctx.generation_time).map(|(y, g)| y / g));
     (years.map(|y| format::number(y, NumberStyle::Whole)), generations.map(|g| format::short(g, 3)))
 }
 
@@ -223,14 +223,14 @@ fn status_facts(row: &Row<'_>) -> StatusFacts {
     let method = row.text(col::NE_METHOD);
     StatusFacts {
         year: row.label(col::NE_YEAR).or_else(|| row.label(col::YEAR)),
-        ne: format::maybe(row.num(col::NE), NumberStyle::EffectiveSize),
+        ne: format::maybe(row.number(col::NE), NumberStyle::EffectiveSize),
         ne_ci: interval_text(row, col::NE_LOW, col::NE_HIGH, NumberStyle::EffectiveSize),
         method: method.map(format::ne_method),
         method_short: method.map(format::ne_method_short),
-        s: row.num(col::S).map(|s| format::short(s, 3)),
+        s: row.number(col::S).map(|s| format::short(s, 3)),
         category: row.label(col::CATEGORY).unwrap_or_else(|| format::UNDEFINED.into()),
         interval_note: row.text(col::INTERVAL_NOTE).map(str::to_string),
-        ne_nc: row.num(col::NE_NC).map(|v| format::fixed(v, 2)),
+        ne_nc: row.number(col::NE_NC).map(|v| format::fixed(v, 2)),
         low_precision: false,
     }
 }
@@ -245,7 +245,7 @@ fn low_precision(ctx: &Context<'_>, row: &Row<'_>) -> bool {
         _ => return false,
     };
     let population = row.text(col::POPULATION);
-    let year = row.int(col::NE_YEAR).and_then(|y| i32::try_from(y).ok());
+    let year = row.integer(col::NE_YEAR).and_then(|y| i32::try_from(y).ok());
     ctx.results
         .steps(uses_name)
         .iter()
@@ -254,38 +254,38 @@ fn low_precision(ctx: &Context<'_>, row: &Row<'_>) -> bool {
 }
 
 fn diversity_facts(row: &Row<'_>) -> DiversityFacts {
-    let fixed = |c| format::maybe(row.num(c), NumberStyle::Fixed(3));
+    let fixed = |c| format::maybe(row.number(c), NumberStyle::Fixed(3));
     DiversityFacts {
         year: row.label(col::YEAR).unwrap_or_default(),
         n: row.label(col::N).unwrap_or_default(),
         ho: fixed(col::HO),
         he: fixed(col::HE),
         f: fixed(col::F),
-        fis: row.num(col::FIS).map(|v| format::fixed(v, 3)),
+        fis: row.number(col::FIS).map(|v| format::fixed(v, 3)),
         fis_ci: interval_text(row, col::FIS_LOW, col::FIS_HIGH, NumberStyle::Fixed(3)),
     }
 }
 
 /// "low–high" when at least one bound is given.
 fn interval_text(row: &Row<'_>, low: &str, high: &str, style: NumberStyle) -> Option<String> {
-    match (row.num(low), row.num(high)) {
+    match (row.number(low), row.number(high)) {
         (None, None) => None,
         (low, high) => Some(format::interval(low, high, style)),
     }
 }
 
 fn drift_facts(status: &Row<'_>) -> Option<DriftFacts> {
-    let retained = status.num(col::H_RETAINED)?;
+    let retained = status.number(col::H_RETAINED)?;
     // F_drift = 1 − H_t/H₀ by construction; the status step states it, older results may not.
-    let f_drift = status.num(col::F_DRIFT).unwrap_or(1.0 - retained);
+    let f_drift = status.number(col::F_DRIFT).unwrap_or(1.0 - retained);
     Some(DriftFacts {
-        ne: format::maybe(status.num(col::NE), NumberStyle::EffectiveSize),
+        ne: format::maybe(status.number(col::NE), NumberStyle::EffectiveSize),
         h_retained: format::percent(retained),
         h_retained_ci: interval_text(status, col::H_RETAINED_LOW, col::H_RETAINED_HIGH, NumberStyle::Percent),
         h_lost: format::percent(1.0 - retained),
         f_drift: format::fixed(f_drift, 3),
         f_drift_ci: interval_text(status, col::F_DRIFT_LOW, col::F_DRIFT_HIGH, NumberStyle::Fixed(3)),
-        fitness: status.num(FITNESS_RETAINED).map(|w| FitnessFacts {
+        fitness: status.number(FITNESS_RETAINED).map(|w| FitnessFacts {
             retained: format::percent(w),
             over_ne: interval_text(status, FITNESS_RETAINED_LOW, FITNESS_RETAINED_HIGH, NumberStyle::Percent),
             over_b: interval_text(status, FITNESS_RETAINED_B_HIGH, FITNESS_RETAINED_B_LOW, NumberStyle::Percent),
@@ -308,21 +308,21 @@ fn he_trend(ctx: &Context<'_>, population: &str) -> Option<String> {
     let tests = ctx.results.table(uses::TREND, table::TESTS)?;
     let row =
         tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
-    let slope = row.num(col::SEN_SLOPE).or_else(|| row.num(col::OLS_SLOPE));
+    let slope = row.number(col::SEN_SLOPE).or_else(|| row.number(col::OLS_SLOPE));
     let direction = |s: f64| if s < 0.0 { "declining" } else { "increasing" };
     let p_text = format::p_phrase;
     // The step's own verdict when it gives one (`increasing`, `decreasing`, `no trend`).
-    if let (Some(verdict), Some(p)) = (row.text(col::TREND_DIRECTION), row.num(col::MK_P)) {
+    if let (Some(verdict), Some(p)) = (row.text(col::TREND_DIRECTION), row.number(col::MK_P)) {
         return Some(match verdict {
             "decreasing" => format!("declining ({})", p_text(p)),
             "increasing" => format!("increasing ({})", p_text(p)),
             _ => format!("no significant trend ({})", p_text(p)),
         });
     }
-    Some(match (row.num(col::MK_P), slope) {
+    Some(match (row.number(col::MK_P), slope) {
         (Some(p), Some(s)) if p < 0.05 && s != 0.0 => format!("{} ({})", direction(s), p_text(p)),
         (Some(p), _) => format!("no significant trend ({})", p_text(p)),
-        (None, _) => match (row.num(col::OLS_LOW), row.num(col::OLS_HIGH)) {
+        (None, _) => match (row.number(col::OLS_LOW), row.number(col::OLS_HIGH)) {
             (Some(low), Some(high)) if high < 0.0 || low > 0.0 => format!("{} (95 % CI excludes 0)", direction(low)),
             _ => {
                 let series = he_series(ctx, population);
@@ -347,14 +347,14 @@ fn he_trend_detail(ctx: &Context<'_>, population: &str) -> Option<String> {
     let tests = ctx.results.table(uses::TREND, table::TESTS)?;
     let row =
         tests.iter().find(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))?;
-    if row.num(col::MK_P).is_some() {
+    if row.number(col::MK_P).is_some() {
         return None;
     }
-    let (low, high) = (row.num(col::OLS_LOW), row.num(col::OLS_HIGH));
+    let (low, high) = (row.number(col::OLS_LOW), row.number(col::OLS_HIGH));
     if low.zip(high).is_some_and(|(low, high)| high < 0.0 || low > 0.0) {
         return None;
     }
-    let slope = row.num(col::OLS_SLOPE).filter(|s| s.is_finite() && *s != 0.0)?;
+    let slope = row.number(col::OLS_SLOPE).filter(|s| s.is_finite() && *s != 0.0)?;
     let series = he_series(ctx, population);
     let (first, last) = (series.first()?.0, series.last()?.0);
     let span = last - first;
@@ -386,7 +386,7 @@ fn he_series(ctx: &Context<'_>, population: &str) -> Vec<(i64, f64)> {
     let mut points: Vec<(i64, f64)> = series
         .iter()
         .filter(|r| r.text(col::POPULATION) == Some(population) && r.text(col::METRIC) == Some("he"))
-        .filter_map(|r| Some((r.int(col::YEAR)?, r.num(col::VALUE)?)))
+        .filter_map(|r| Some((r.integer(col::YEAR)?, r.number(col::VALUE)?)))
         .collect();
     points.sort_by_key(|p| p.0);
     points
@@ -500,7 +500,7 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
             Some(range) => format!("{point} ({range})"),
             None => point,
         };
-        let ne = format::maybe(row.num(col::NE), NumberStyle::EffectiveSize);
+        let ne = format::maybe(row.number(col::NE), NumberStyle::EffectiveSize);
         t.push(vec![
             population.to_string(),
             with_range(ne, interval_text(row, col::NE_LOW, col::NE_HIGH, NumberStyle::EffectiveSize)),
@@ -518,7 +518,7 @@ pub(crate) fn projection_section(ctx: &Context<'_>, extras: &mut Extras) -> Opti
     t.drop_empty_columns(&["Population", "Ne (95 % CI)", "H retained (over the Ne CI)"]);
     projection_figure(ctx, &latest, extras);
     let horizon_row = table_of(step, table::HORIZON)
-        .and_then(|h| h.iter().next().map(|r| (r.num(col::RETAIN_TARGET), r.num(col::NE_REQUIRED))));
+        .and_then(|h| h.iter().next().map(|r| (r.number(col::RETAIN_TARGET), r.number(col::NE_REQUIRED))));
     let (retain_target, ne_required) = horizon_row.unwrap_or((None, None));
     Some(ProjectionSection {
         step: step.id.clone(),
@@ -547,7 +547,7 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
             let mut by_population: std::collections::BTreeMap<String, Vec<(f64, f64)>> = Default::default();
             for row in t.iter() {
                 if let (Some(p), Some(x), Some(h)) =
-                    (row.text(col::POPULATION), row.num(time), row.num(col::H_RETAINED))
+                    (row.text(col::POPULATION), row.number(time), row.number(col::H_RETAINED))
                 {
                     by_population.entry(p.to_string()).or_default().push((x, h * 100.0));
                 }
@@ -570,7 +570,7 @@ fn projection_figure(ctx: &Context<'_>, latest: &[Row<'_>], extras: &mut Extras)
                 .iter()
                 .filter_map(|row| {
                     let name = row.text(col::POPULATION)?;
-                    let at_horizon = row.num(col::H_RETAINED).filter(|h| h.is_finite() && *h >= 0.0)?;
+                    let at_horizon = row.number(col::H_RETAINED).filter(|h| h.is_finite() && *h >= 0.0)?;
                     let points = (0..=20).map(|k| {
                         let t = horizon * k as f64 / 20.0;
                         (t, 100.0 * at_horizon.powf(t / horizon))

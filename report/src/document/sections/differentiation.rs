@@ -29,9 +29,9 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
         None => (None, String::new()),
     };
     let global = table_of(step, table::GLOBAL).and_then(|g| {
-        let row = g.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| g.iter().next())?;
-        let fst = row.num(col::FST)?;
-        Some(match (row.num(col::FST_LOW), row.num(col::FST_HIGH)) {
+        let row = g.iter().find(|r| r.number(col::YEAR).is_none()).or_else(|| g.iter().next())?;
+        let fst = row.number(col::FST)?;
+        Some(match (row.number(col::FST_LOW), row.number(col::FST_HIGH)) {
             (None, None) => format::fixed(fst, 3),
             (low, high) => {
                 format!("{} (95 % CI {})", format::fixed(fst, 3), format::interval(low, high, NumberStyle::Fixed(3)))
@@ -65,11 +65,11 @@ pub(crate) fn differentiation_section(ctx: &Context<'_>, extras: &mut Extras) ->
 /// The FST matrix of the pooled rows (year `null`), or of the latest year when every row has
 /// one; FST below the diagonal, permutation p above.
 fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>) -> (Option<HeatTable>, String) {
-    let pooled: Vec<Row<'_>> = pairwise.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
+    let pooled: Vec<Row<'_>> = pairwise.iter().filter(|r| r.number(col::YEAR).is_none()).collect();
     let (rows, years) = if pooled.is_empty() {
-        let latest = pairwise.iter().filter_map(|r| r.int(col::YEAR)).max();
+        let latest = pairwise.iter().filter_map(|r| r.integer(col::YEAR)).max();
         (
-            pairwise.iter().filter(|r| r.int(col::YEAR) == latest).collect::<Vec<_>>(),
+            pairwise.iter().filter(|r| r.integer(col::YEAR) == latest).collect::<Vec<_>>(),
             latest.map_or_else(String::new, |y| y.to_string()),
         )
     } else {
@@ -92,8 +92,8 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>) -> (Option<HeatTable>, Str
     for row in &rows {
         if let (Some(a), Some(b)) = (index(row.text(col::POP_A)), index(row.text(col::POP_B))) {
             let (hi, lo) = if a > b { (a, b) } else { (b, a) };
-            fst[hi][lo] = row.num(col::FST);
-            p[lo][hi] = row.num(col::FST_P);
+            fst[hi][lo] = row.number(col::FST);
+            p[lo][hi] = row.number(col::FST_P);
         }
     }
     let max = fst.iter().flatten().flatten().copied().filter(|v| v.is_finite()).fold(0.0_f64, f64::max);
@@ -121,16 +121,16 @@ fn fst_matrix(ctx: &Context<'_>, pairwise: &Rows<'_>) -> (Option<HeatTable>, Str
 /// The Mantel test of the pooled row in words: its p-value, how it was obtained, the smallest
 /// p the number of populations allows, and whether the fitted line is evidence or description.
 fn mantel_note(test: &Rows<'_>) -> Option<String> {
-    let row = test.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| test.iter().next())?;
-    let p = row.num("mantel_p")?;
-    let orders = row.int("permutations");
+    let row = test.iter().find(|r| r.number(col::YEAR).is_none()).or_else(|| test.iter().next())?;
+    let p = row.number("mantel_p")?;
+    let orders = row.integer("permutations");
     let how = match (row.text("mantel_method"), orders) {
         (Some("exact"), Some(n)) => format!("from all {n} orders of the populations (exact)"),
         (_, Some(n)) => format!("from {n} random orders of the populations"),
         _ => String::new(),
     };
     let floor = row
-        .num("mantel_p_min")
+        .number("mantel_p_min")
         .map(|m| format!("; the smallest p these populations allow is {}", format::p_value(m)))
         .unwrap_or_default();
     let verdict = if p < 0.05 {
@@ -151,14 +151,14 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
         .find(|c| c.contains("fst") && c.contains("lin"))
         .or_else(|| columns.iter().find(|c| c.contains("fst")));
     let (Some(x), Some(y)) = (x, y) else { return };
-    let pooled: Vec<Row<'_>> = ibd.iter().filter(|r| r.num(col::YEAR).is_none()).collect();
+    let pooled: Vec<Row<'_>> = ibd.iter().filter(|r| r.number(col::YEAR).is_none()).collect();
     let rows = if pooled.is_empty() { ibd.iter().collect() } else { pooled };
     let labelled: Vec<(f64, f64, String)> = rows
         .iter()
         .filter_map(|r| {
             let pair =
                 format!("{}–{}", r.label(col::POP_A).unwrap_or_default(), r.label(col::POP_B).unwrap_or_default());
-            Some((r.num(x)?, r.num(y)?, pair))
+            Some((r.number(x)?, r.number(y)?, pair))
         })
         .filter(|p| p.0.is_finite() && p.0 > 0.0 && p.1.is_finite())
         .collect();
@@ -170,8 +170,8 @@ fn isolation_by_distance(ibd: &Rows<'_>, test: Option<Rows<'_>>, extras: &mut Ex
     let labels: Vec<String> = labelled.into_iter().map(|p| p.2).collect();
     // The test regresses on ln(distance) (Rousset 1997), so the chart's distance axis is
     // logarithmic and the fitted line straight on it.
-    let test_row = test.and_then(|t| t.iter().find(|r| r.num(col::YEAR).is_none()).or_else(|| t.iter().next()));
-    let fit = test_row.and_then(|r| Some((r.num("intercept")?, r.num("slope")?)));
+    let test_row = test.and_then(|t| t.iter().find(|r| r.number(col::YEAR).is_none()).or_else(|| t.iter().next()));
+    let fit = test_row.and_then(|r| Some((r.number("intercept")?, r.number("slope")?)));
     let x_label =
         if x.contains("km") { "Geographic distance (km, logarithmic axis)".to_string() } else { x.replace('_', " ") };
     let y_label = if y.contains("lin") { "FST/(1 − FST)".to_string() } else { y.replace('_', " ") };

@@ -40,9 +40,9 @@ pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Optio
         ("Alleles", true),
     ]);
     for row in by_group.iter() {
-        let fis = match row.num(col::FIS) {
+        let fis = match row.number(col::FIS) {
             None => format::UNDEFINED.to_string(),
-            Some(fis) => match (row.num(col::FIS_LOW), row.num(col::FIS_HIGH)) {
+            Some(fis) => match (row.number(col::FIS_LOW), row.number(col::FIS_HIGH)) {
                 (None, None) => format::fixed(fis, 3),
                 (low, high) => {
                     format!("{} ({})", format::fixed(fis, 3), format::interval(low, high, NumberStyle::Fixed(3)))
@@ -59,7 +59,7 @@ pub(crate) fn diversity_section(ctx: &Context<'_>, extras: &mut Extras) -> Optio
             fis,
             fixed3(&row, col::AR),
             fixed3(&row, col::PAR),
-            format::maybe(row.num(col::ALLELES_MEAN), NumberStyle::Fixed(2)),
+            format::maybe(row.number(col::ALLELES_MEAN), NumberStyle::Fixed(2)),
         ]);
     }
     t.drop_empty_columns(&["Population", "Year", "Ho", "He", "F"]);
@@ -80,7 +80,7 @@ fn he_over_years(ctx: &Context<'_>, by_group: &Rows<'_>, extras: &mut Extras) {
         ctx,
         by_group
             .iter()
-            .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.num(col::YEAR)?, r.num(col::HE)?))),
+            .filter_map(|r| Some((r.text(col::POPULATION)?.to_string(), r.number(col::YEAR)?, r.number(col::HE)?))),
         &slopes,
     );
     if series.iter().any(|s| s.points.len() >= 2) {
@@ -116,10 +116,10 @@ pub(crate) fn hwe_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<HweS
     for row in by_locus.iter() {
         let key = (text(&row, col::POPULATION), whole(&row, col::YEAR));
         let tally = tallies.entry(key).or_default();
-        if row.num(col::P_VALUE).is_some() {
+        if row.number(col::P_VALUE).is_some() {
             tally.tested += 1;
         }
-        if row.num(col::Q_VALUE).is_some_and(|q| q < 0.05) {
+        if row.number(col::Q_VALUE).is_some_and(|q| q < 0.05) {
             tally.significant += 1;
             match row.text(col::DIRECTION) {
                 Some(d) if d.contains("deficit") => tally.deficit += 1,

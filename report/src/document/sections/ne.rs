@@ -115,7 +115,7 @@ pub(crate) fn ne_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<NeSec
 /// Whether an `ne-ld` row holds the rule for rare alleles that the SDK's sample-size rule picks
 /// for its population and year (the estimate `status` and `trend` use).
 fn is_representative_ld(step: &StepResult, row: &Row<'_>) -> bool {
-    let (Some(population), Some(year)) = (row.text(col::POPULATION), row.int(col::YEAR)) else { return false };
+    let (Some(population), Some(year)) = (row.text(col::POPULATION), row.integer(col::YEAR)) else { return false };
     let Ok(year) = i32::try_from(year) else { return false };
     let by_size = [NeSource::Ld(LdChoice::BySampleSize)];
     let chosen = representative_ne(std::slice::from_ref(step), population, year, &by_size);
@@ -143,7 +143,7 @@ fn ld_table(rows: &Rows<'_>, keep: impl Fn(&Row<'_>) -> bool) -> TableData {
             // A criterion may be text (`singletons`: only alleles seen once are left out).
             row.cell(col::PCRIT)
                 .map_or_else(|| format::UNDEFINED.to_string(), |c| format::cell(c, NumberStyle::Short(3))),
-            format::maybe(row.num(col::S), NumberStyle::Significant(3)),
+            format::maybe(row.number(col::S), NumberStyle::Significant(3)),
             ne(&row, col::NE),
             ne_interval(&row, col::NE_RESAMPLE_LOW, col::NE_RESAMPLE_HIGH),
             ne_interval(&row, col::NE_JACK_LOW, col::NE_JACK_HIGH),
@@ -168,7 +168,7 @@ fn temporal_table(rows: &Rows<'_>) -> TableData {
         t.push(vec![
             text(&row, col::POPULATION),
             format!("{}–{}", whole(&row, col::YEAR_START), whole(&row, col::YEAR_END)),
-            format::maybe(row.num(col::GENERATIONS), NumberStyle::Short(3)),
+            format::maybe(row.number(col::GENERATIONS), NumberStyle::Short(3)),
             ne(&row, col::NE_FS),
             ne_interval(&row, col::NE_LOW, col::NE_HIGH),
             ne(&row, "ne_fc"),
@@ -185,7 +185,7 @@ fn hetx_table(rows: &Rows<'_>) -> TableData {
         t.push(vec![
             text(&row, col::POPULATION),
             whole(&row, col::YEAR),
-            format::maybe(row.num(col::D), NumberStyle::Fixed(3)),
+            format::maybe(row.number(col::D), NumberStyle::Fixed(3)),
             ne(&row, col::NE),
         ]);
     }
@@ -229,9 +229,9 @@ fn status_points(ctx: &Context<'_>) -> Option<Points> {
             Some(IntervalPoint {
                 label: population.into(),
                 style: ctx.style_of(population),
-                value: r.num(col::NE)?,
-                low: r.num(col::NE_LOW),
-                high: r.num(col::NE_HIGH),
+                value: r.number(col::NE)?,
+                low: r.number(col::NE_LOW),
+                high: r.number(col::NE_HIGH),
             })
         })
         .collect();

@@ -26,12 +26,12 @@ pub(crate) fn trend_section(ctx: &Context<'_>, _extras: &mut Extras) -> Option<T
     ]);
     if let Some(rows) = table_of(step, table::TESTS) {
         for row in rows.iter() {
-            let ls = match row.num(col::OLS_SLOPE) {
+            let ls = match row.number(col::OLS_SLOPE) {
                 None => format::UNDEFINED.to_string(),
                 Some(s) => format!(
                     "{} ({})",
                     format::significant(s, 3),
-                    format::interval(row.num(col::OLS_LOW), row.num(col::OLS_HIGH), NumberStyle::Significant(3))
+                    format::interval(row.number(col::OLS_LOW), row.number(col::OLS_HIGH), NumberStyle::Significant(3))
                 ),
             };
             tests.push(vec![
@@ -45,9 +45,9 @@ pub(crate) fn trend_section(ctx: &Context<'_>, _extras: &mut Extras) -> Option<T
                     _ => metric_label(row.text(col::METRIC).unwrap_or("")),
                 },
                 whole(&row, col::POINTS),
-                format::maybe(row.num(col::MK_TAU), NumberStyle::Fixed(2)),
-                format::maybe(row.num(col::MK_P), NumberStyle::PValue),
-                format::maybe(row.num(col::SEN_SLOPE), NumberStyle::Significant(3)),
+                format::maybe(row.number(col::MK_TAU), NumberStyle::Fixed(2)),
+                format::maybe(row.number(col::MK_P), NumberStyle::PValue),
+                format::maybe(row.number(col::SEN_SLOPE), NumberStyle::Significant(3)),
                 ls,
             ]);
         }

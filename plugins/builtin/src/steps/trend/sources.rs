@@ -5,13 +5,14 @@
 
 use std::collections::BTreeMap;
 
+use popgauge_abi::contract::{col, table as tables};
 use popgauge_abi::{
     Cell, LdChoice, LdCriterion, NeSource, RepresentativeNe, StepResult, StepStatus, Table, estimated_groups,
     ne_columns, ne_steps, representative_ne,
 };
 
 /// `uses` names of the steps whose `ne` estimates `trend` can follow.
-pub const NE_STEP_USES: [&str; 3] = ["ne-ld", "ne-temporal", "ne-hetx"];
+pub const NE_STEP_USES: [&str; 3] = [ne_steps::NE_LD, ne_steps::NE_TEMPORAL, ne_steps::NE_HETX];
 
 /// Why a source gave no series, for the reader.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -54,7 +55,7 @@ fn points(
     keep: impl Fn(&[Cell]) -> bool,
 ) -> Result<PointsByPopulation, SourceProblem> {
     let table = table(result, table_name)?;
-    let population = column(result, table_name, table, "population")?;
+    let population = column(result, table_name, table, col::POPULATION)?;
     let year = column(result, table_name, table, year_column)?;
     let value = column(result, table_name, table, value_column)?;
     let mut by_population = PointsByPopulation::new();
@@ -71,7 +72,7 @@ fn points(
 
 /// A column (`he`, `ho`, `ar`, `f`) of `diversity`/`by_group`.
 pub fn diversity_points(result: &StepResult, value_column: &str) -> Result<PointsByPopulation, SourceProblem> {
-    points(result, "by_group", "year", value_column, |_| true)
+    points(result, tables::BY_GROUP, col::YEAR, value_column, |_| true)
 }
 
 /// The representative estimates of one Ne step by population and year: for each (population,
@@ -134,11 +135,11 @@ pub type LocusValues = BTreeMap<String, BTreeMap<i32, BTreeMap<String, f64>>>;
 
 /// A column (`he`, `ho`) of `diversity`/`by_locus`; `null` cells are left out.
 pub fn locus_values(result: &StepResult, value_column: &str) -> Result<LocusValues, SourceProblem> {
-    let name = "by_locus";
+    let name = tables::BY_LOCUS;
     let table = table(result, name)?;
-    let population = column(result, name, table, "population")?;
-    let year = column(result, name, table, "year")?;
-    let locus = column(result, name, table, "locus")?;
+    let population = column(result, name, table, col::POPULATION)?;
+    let year = column(result, name, table, col::YEAR)?;
+    let locus = column(result, name, table, col::LOCUS)?;
     let value = column(result, name, table, value_column)?;
     let mut values = LocusValues::new();
     for row in &table.rows {
