@@ -87,14 +87,20 @@ fn step<'a>(doc: &'a serde_json::Value, id: &str) -> &'a serde_json::Value {
 }
 
 /// A refusal at load time: exit 2, the exact message, and no output folder (nothing ran).
+/// Standard error after the `note:` lines that announce the libraries being loaded (each is
+/// checked to be one).
+fn after_notes(stderr: &str) -> &str {
+    let error = stderr.find("error: ").map_or(stderr, |at| &stderr[at..]);
+    let notes = &stderr[..stderr.len() - error.len()];
+    assert!(notes.lines().all(|l| l.starts_with("note: step \"ext\" loads the plugin library ")), "{notes}");
+    error
+}
+
 /// A library refused after its pin was checked was announced as loading first; the error
 /// paragraph after the note is compared in full.
 fn assert_refused(case: &Case, expected_stderr: &str) {
     let run = case.run(&["run", "case"]);
-    let error = run.stderr.find("error: ").map_or(run.stderr.as_str(), |at| &run.stderr[at..]);
-    let notes = &run.stderr[..run.stderr.len() - error.len()];
-    assert!(notes.lines().all(|l| l.starts_with("note: step \"ext\" loads the plugin library ")), "{notes}");
-    assert_eq!(error, expected_stderr);
+    assert_eq!(after_notes(&run.stderr), expected_stderr);
     assert_eq!(run.code, 2);
     assert!(!case.path().join("out").exists(), "nothing is written after a refusal");
 }
@@ -165,7 +171,7 @@ fn refuses_a_file_that_is_not_a_library() {
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2);
     assert!(
-        run.stderr.starts_with(
+        after_notes(&run.stderr).starts_with(
             "error: case.toml:16: step \"ext\": plugins/libtext.so cannot be loaded as a shared library: "
         ),
         "{}",
@@ -187,7 +193,7 @@ fn refuses_a_descriptor_that_does_not_parse() {
     recipe_with(&case, &plugin_step("ext", "libmisbehave.so", &sha, ""));
     let run = run_with_env(&case, &["run", "case"], &[("POPGAUGE_TEST_BAD_DESCRIPTOR", "1")]);
     assert_eq!(
-        run.stderr,
+        after_notes(&run.stderr),
         "error: case.toml:16: step \"ext\": plugins/libmisbehave.so: the plugin's descriptor is not valid: key must be a string at line 1 column 23\n  help: this is a defect in the plugin; report it to its author\n"
     );
     assert_eq!(run.code, 2);
@@ -217,11 +223,11 @@ fn failures_while_running_are_contained() {
     let sha = install(&case, MISBEHAVE, "libmisbehave.so");
     let failing = [
         ("error", "", "deliberate step error"),
-        ("panic", "", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:63:24: deliberate panic in run"),
+        ("panic", "", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:58:24: deliberate panic in run"),
         (
             "panic",
             "isolation = \"in-process\"",
-            "the plugin panicked at tests/plugins/misbehave/src/lib.rs:63:24: deliberate panic in run",
+            "the plugin panicked at tests/plugins/misbehave/src/lib.rs:58:24: deliberate panic in run",
         ),
         ("segfault", "", "the plugin crashed (signal 11, segmentation fault)"),
         ("abort", "", "the plugin crashed (signal 6, aborted)"),
