@@ -87,9 +87,20 @@ fn step<'a>(doc: &'a serde_json::Value, id: &str) -> &'a serde_json::Value {
 }
 
 /// A refusal at load time: exit 2, the exact message, and no output folder (nothing ran).
+/// Standard error after the `note:` lines that announce the libraries being loaded (each is
+/// checked to be one).
+fn after_notes(stderr: &str) -> &str {
+    let error = stderr.find("error: ").map_or(stderr, |at| &stderr[at..]);
+    let notes = &stderr[..stderr.len() - error.len()];
+    assert!(notes.lines().all(|l| l.starts_with("note: step \"ext\" loads the plugin library ")), "{notes}");
+    error
+}
+
+/// A library refused after its pin was checked was announced as loading first; the error
+/// paragraph after the note is compared in full.
 fn assert_refused(case: &Case, expected_stderr: &str) {
     let run = case.run(&["run", "case"]);
-    assert_eq!(run.stderr, expected_stderr);
+    assert_eq!(after_notes(&run.stderr), expected_stderr);
     assert_eq!(run.code, 2);
     assert!(!case.path().join("out").exists(), "nothing is written after a refusal");
 }
@@ -160,7 +171,7 @@ fn refuses_a_file_that_is_not_a_library() {
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 2);
     assert!(
-        run.stderr.starts_with(
+        after_notes(&run.stderr).starts_with(
             "error: case.toml:16: step \"ext\": plugins/libtext.so cannot be loaded as a shared library: "
         ),
         "{}",
@@ -182,7 +193,7 @@ fn refuses_a_descriptor_that_does_not_parse() {
     recipe_with(&case, &plugin_step("ext", "libmisbehave.so", &sha, ""));
     let run = run_with_env(&case, &["run", "case"], &[("POPGAUGE_TEST_BAD_DESCRIPTOR", "1")]);
     assert_eq!(
-        run.stderr,
+        after_notes(&run.stderr),
         "error: case.toml:16: step \"ext\": plugins/libmisbehave.so: the plugin's descriptor is not valid: key must be a string at line 1 column 23\n  help: this is a defect in the plugin; report it to its author\n"
     );
     assert_eq!(run.code, 2);
@@ -200,7 +211,7 @@ fn refuses_parameters_the_descriptor_does_not_declare() {
     recipe_with(&case, &plugin_step("ext", "libmisbehave.so", &sha, "[step.params]\nmode = \"explode\""));
     assert_refused(
         &case,
-        "error: case.toml:19:1: parameter `mode` is \"explode\" but must be one of \"ok\", \"error\", \"panic\", \"segfault\", \"abort\", \"hang\", \"invalid-json\", \"ragged\" for step \"ext\" (uses \"plugin:plugins/libmisbehave.so\")\n  help: give one of \"ok\", \"error\", \"panic\", \"segfault\", \"abort\", \"hang\", \"invalid-json\", \"ragged\"\n",
+        "error: case.toml:19:1: parameter `mode` is \"explode\" but must be one of \"ok\", \"error\", \"panic\", \"segfault\", \"abort\", \"hang\", \"invalid-json\", \"ragged\", \"read-outside\", \"write-home\", \"network\", \"allocate\", \"fork\" for step \"ext\" (uses \"plugin:plugins/libmisbehave.so\")\n  help: give one of \"ok\", \"error\", \"panic\", \"segfault\", \"abort\", \"hang\", \"invalid-json\", \"ragged\", \"read-outside\", \"write-home\", \"network\", \"allocate\", \"fork\"\n",
     );
 }
 
@@ -212,11 +223,11 @@ fn failures_while_running_are_contained() {
     let sha = install(&case, MISBEHAVE, "libmisbehave.so");
     let failing = [
         ("error", "", "deliberate step error"),
-        ("panic", "", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:34:24: deliberate panic in run"),
+        ("panic", "", "the plugin panicked at tests/plugins/misbehave/src/lib.rs:58:24: deliberate panic in run"),
         (
             "panic",
             "isolation = \"in-process\"",
-            "the plugin panicked at tests/plugins/misbehave/src/lib.rs:34:24: deliberate panic in run",
+            "the plugin panicked at tests/plugins/misbehave/src/lib.rs:58:24: deliberate panic in run",
         ),
         ("segfault", "", "the plugin crashed (signal 11, segmentation fault)"),
         ("abort", "", "the plugin crashed (signal 6, aborted)"),
@@ -253,6 +264,95 @@ fn failures_while_running_are_contained() {
     assert_eq!(step(&doc, "good")["tables"]["counts"]["rows"], serde_json::json!([[8, 3]]));
     assert_eq!(step(&doc, "diversity")["status"], "ok");
     assert_eq!(step(&doc, "diversity")["tables"]["by_group"]["rows"].as_array().unwrap().len(), 2);
+}
+
+/// The sandbox stops a plugin that reads a file outside its inputs (the case's own recipe),
+/// writes into the home folder, opens a network socket, allocates without bound or starts a
+/// process: each such step fails with the reason and the rest of the assessment completes.
+/// Where the kernel offers no sandbox, the run says so in a finding of each plugin step that ran
+/// (and the methods), rather than passing silently; the `ok` step tells which case holds here.
+#[test]
+fn a_misbehaving_plugin_is_contained_by_the_sandbox() {
+    let case = Case::fixture("minimal");
+    let sha = install(&case, MISBEHAVE, "libmisbehave.so");
+    let home = case.root().join("home");
+    std::fs::create_dir_all(&home).unwrap();
+    let recipe = case.path().join("case.toml");
+    let stopped = "the plugin was stopped by the worker's sandbox (signal 31): it tried to open a network socket, start a process or program, or trace another process\n  help: a plugin step may only compute on the data it is given; ask the plugin's author what it tried to do";
+    let attempts = [
+        ("read-outside", format!("cannot read {}: Permission denied (os error 13)", recipe.display())),
+        ("write-home", format!("cannot write {}/misbehave-was-here.txt: Permission denied (os error 13)", home.display())),
+        ("network", stopped.to_string()),
+        (
+            "allocate",
+            "the plugin ran out of memory: memory allocation of 67108864 bytes failed (the worker's limit is 256 MiB)\n  help: raise `memory_limit_mib` for this step if the plugin needs more memory".to_string(),
+        ),
+        ("fork", stopped.to_string()),
+    ];
+    let mut steps = String::from(QC_AND_DIVERSITY);
+    steps.push('\n');
+    steps.push_str(&plugin_step("good", "libmisbehave.so", &sha, ""));
+    for (mode, _) in &attempts {
+        let params =
+            format!("memory_limit_mib = 256\n[step.params]\nmode = \"{mode}\"\ntarget = [\"{}\"]", recipe.display());
+        steps.push_str(&plugin_step(&mode.replace('-', "_"), "libmisbehave.so", &sha, &params));
+    }
+    steps.push_str("[[step]]\nid = \"after\"\nuses = \"diversity\"\n");
+    recipe_with(&case, &steps);
+    let home_text = home.display().to_string();
+    let run = run_with_env(&case, &["run", "case"], &[("HOME", home_text.as_str())]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let doc = results(&case);
+    let has_gap_finding =
+        |s: &serde_json::Value| s["findings"].as_array().unwrap().iter().any(|f| f["code"] == "worker-not-sandboxed");
+    let sandboxed = !has_gap_finding(step(&doc, "good"));
+    for (mode, reason) in &attempts {
+        let s = step(&doc, &mode.replace('-', "_"));
+        if sandboxed {
+            assert_eq!(
+                (s["status"].as_str(), s["error"].as_str()),
+                (Some("failed"), Some(reason.as_str())),
+                "mode {mode}"
+            );
+        } else {
+            // Without a kernel sandbox a step the limits alone stop still fails; one that got
+            // away with it says so in its findings.
+            assert!(s["status"] == "failed" || has_gap_finding(s), "mode {mode} ran unnoticed: {s}");
+        }
+    }
+    assert!(!home.join("misbehave-was-here.txt").exists() || !sandboxed, "the home folder was written");
+    assert_eq!(step(&doc, "good")["tables"]["counts"]["rows"], serde_json::json!([[8, 3]]));
+    assert_eq!(step(&doc, "after")["status"], "ok", "the assessment goes on after the stopped steps");
+    if cfg!(target_os = "linux") && std::env::var_os("POPGAUGE_REQUIRE_SANDBOX").is_some() {
+        assert!(
+            sandboxed,
+            "POPGAUGE_REQUIRE_SANDBOX is set but the worker ran without its sandbox: {}",
+            step(&doc, "good")
+        );
+    }
+}
+
+/// `run` names each plugin library it is about to load, with its SHA-256 and where its code runs.
+#[test]
+fn run_names_the_plugin_libraries_it_loads() {
+    let case = Case::fixture("minimal");
+    let sha = install(&case, MISBEHAVE, "libmisbehave.so");
+    recipe_with(
+        &case,
+        &format!(
+            "{QC_AND_DIVERSITY}\n{}{}",
+            plugin_step("sandboxed", "libmisbehave.so", &sha, ""),
+            plugin_step("inside", "libmisbehave.so", &sha, "isolation = \"in-process\"")
+        ),
+    );
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert_eq!(
+        run.stderr,
+        format!(
+            "note: step \"sandboxed\" loads the plugin library plugins/libmisbehave.so (SHA-256 {sha}); its code runs in a sandboxed worker process\nnote: step \"inside\" loads the plugin library plugins/libmisbehave.so (SHA-256 {sha}); its code runs inside popgauge with your rights, without a sandbox (isolation = \"in-process\")\n"
+        )
+    );
 }
 
 /// SIGTERM while a plugin hangs in its worker process kills the worker (it is not

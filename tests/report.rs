@@ -383,6 +383,32 @@ fn a_broken_template_names_the_file_and_line() {
     assert!(!case.path().join("out").exists(), "nothing is written");
 }
 
+/// A case's template is untrusted text: it cannot read the case's data beside its folder, nor any
+/// file of the machine, and the refusal speaks of popgauge's terms (no `--root` argument).
+#[test]
+fn a_template_reads_only_files_in_its_own_folder() {
+    let case = Case::fixture("minimal");
+    case.write("case.toml", format!("{}\n[report]\ntemplate = \"layout\"\n", case.read("case.toml")));
+    case.write("layout/assessment.typ", "#let secret = read(\"../genotypes.csv\")\n= Title\n");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 2, "{}", run.stderr);
+    assert_eq!(
+        run.stderr,
+        "error: layout/assessment.typ:1:20: the document template does not compile: path `\"../genotypes.csv\"` would leave the template folder\n  hint: a template can read only files in its own folder\n  help: fix the Typst code there and run again; `popgauge typeset OUT` typesets an edited output folder without re-running the steps\n"
+    );
+    let home = std::env::var("HOME").unwrap_or_else(|_| "/root".into());
+    for outside in ["/etc/passwd".to_string(), format!("{home}/.bashrc")] {
+        case.write("layout/assessment.typ", format!("#let secret = read(\"{outside}\")\n= Title\n"));
+        let run = case.run(&["run", "case"]);
+        assert_eq!(run.code, 2, "{outside}: {}", run.stderr);
+        assert!(run.stderr.contains("the document template does not compile: file not found"), "{}", run.stderr);
+    }
+    case.write("layout/notes.txt", "read from beside the template");
+    case.write("layout/assessment.typ", "#let notes = read(\"notes.txt\")\n= #notes\n");
+    let run = case.run(&["run", "case"]);
+    assert_eq!(run.code, 0, "a file in the template's folder is read: {}", run.stderr);
+}
+
 #[test]
 fn a_template_folder_must_exist_inside_the_case() {
     let case = Case::fixture("minimal");

@@ -92,8 +92,14 @@ pub struct Output {
 
 /// Runs the real binary in `cwd`.
 pub fn popgauge(args: &[&str], cwd: &Path) -> Output {
+    popgauge_with_env(args, cwd, &[])
+}
+
+/// Runs the real binary in `cwd` with extra environment variables.
+pub fn popgauge_with_env(args: &[&str], cwd: &Path, env: &[(&str, &Path)]) -> Output {
     let output = Command::new(env!("CARGO_BIN_EXE_popgauge"))
         .args(args)
+        .envs(env.iter().copied())
         .current_dir(cwd)
         .output()
         .expect("run popgauge");

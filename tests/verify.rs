@@ -54,7 +54,11 @@ fn a_relocated_assessment_verifies_with_data() {
     }
     let out = verify(&case, &["archive/report", "--data", "archive/data"]);
     assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
-    assert_eq!(entries(&moved.join("data")), vec!["case.toml", "genotypes.csv", "populations.csv"], "verify writes nothing");
+    assert_eq!(
+        entries(&moved.join("data")),
+        vec!["case.toml", "genotypes.csv", "populations.csv"],
+        "verify writes nothing"
+    );
 }
 
 #[test]
@@ -64,9 +68,18 @@ fn an_edited_input_byte_is_detected() {
     case.write("genotypes.csv", text);
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
-    assert!(line_for(&out.stdout, "input", "genotypes.csv").contains("DIFFERS: input changed: SHA-256 "), "{}", out.stdout);
+    assert!(
+        line_for(&out.stdout, "input", "genotypes.csv").contains("DIFFERS: input changed: SHA-256 "),
+        "{}",
+        out.stdout
+    );
     let step = line_for(&out.stdout, "step", "diversity (diversity)");
-    assert!(step.contains("DIFFERS: result differs: table by_group row 1 (North, 2020) column ho: recorded 0.58333333333333"), "{step}");
+    assert!(
+        step.contains(
+            "DIFFERS: result differs: table by_group row 1 (North, 2020) column ho: recorded 0.58333333333333"
+        ),
+        "{step}"
+    );
     assert!(step.contains(", recomputed 0.5 (by -0.0833333333333"), "{step}");
 }
 
@@ -76,7 +89,12 @@ fn an_edited_parameter_is_detected_and_located() {
     edit_json(&case, "out/provenance.json", |p| p["steps"][1]["params"]["bootstrap"] = serde_json::json!(7));
     let out = verify(&case, &["case/out/provenance.json"]);
     assert_eq!(out.code, 1);
-    assert!(line_for(&out.stdout, "record", "diversity parameters").contains("DIFFERS: parameter changed: the recorded parameters hash to "), "{}", out.stdout);
+    assert!(
+        line_for(&out.stdout, "record", "diversity parameters")
+            .contains("DIFFERS: parameter changed: the recorded parameters hash to "),
+        "{}",
+        out.stdout
+    );
 }
 
 #[test]
@@ -89,7 +107,12 @@ fn a_drifted_parameter_names_the_first_differing_cell() {
     assert_eq!(out.code, 1);
     assert!(line_for(&out.stdout, "record", "qc parameters").contains("DIFFERS: parameter changed"), "{}", out.stdout);
     let qc = line_for(&out.stdout, "step", "qc (validate)");
-    assert!(qc.contains("DIFFERS: result differs: table groups row 1 (North, 2020) column n_kept: recorded 4, recomputed 0"), "{qc}");
+    assert!(
+        qc.contains(
+            "DIFFERS: result differs: table groups row 1 (North, 2020) column n_kept: recorded 4, recomputed 0"
+        ),
+        "{qc}"
+    );
 }
 
 #[test]
@@ -105,8 +128,16 @@ fn an_edited_result_number_is_detected() {
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
     assert!(line_for(&out.stdout, "output", "results.json step diversity").contains(&format!("DIFFERS: edited after the run: table by_group row 1 (North, 2020) column ho: recorded {ho}, results.json has 0.59")), "{}", out.stdout);
-    assert!(line_for(&out.stdout, "output", &format!("{:<36} ", "results.json")).contains("the file was changed after the run"), "{}", out.stdout);
-    assert!(line_for(&out.stdout, "step", "diversity (diversity)").ends_with(" same"), "the recomputation itself agrees");
+    assert!(
+        line_for(&out.stdout, "output", &format!("{:<36} ", "results.json"))
+            .contains("the file was changed after the run"),
+        "{}",
+        out.stdout
+    );
+    assert!(
+        line_for(&out.stdout, "step", "diversity (diversity)").ends_with(" same"),
+        "the recomputation itself agrees"
+    );
 }
 
 #[test]
@@ -116,7 +147,11 @@ fn an_edited_table_file_is_detected() {
     case.write("out/tables/qc.loci.csv", csv.replacen("kept", "excluded", 1));
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
-    assert!(line_for(&out.stdout, "output", "tables/qc.loci.csv").contains("DIFFERS: the file was changed after the run"), "{}", out.stdout);
+    assert!(
+        line_for(&out.stdout, "output", "tables/qc.loci.csv").contains("DIFFERS: the file was changed after the run"),
+        "{}",
+        out.stdout
+    );
 }
 
 #[test]
@@ -138,7 +173,12 @@ fn the_record_reads_in_prov_terms() {
     let prov = &record["prov"];
     assert_eq!(prov["prefix"]["prov"], "http://www.w3.org/ns/prov#");
     let relations = |kind: &str, from: &str, to: &str| -> Vec<(String, String)> {
-        prov[kind].as_object().unwrap().values().map(|r| (r[from].as_str().unwrap().to_string(), r[to].as_str().unwrap().to_string())).collect()
+        prov[kind]
+            .as_object()
+            .unwrap()
+            .values()
+            .map(|r| (r[from].as_str().unwrap().to_string(), r[to].as_str().unwrap().to_string()))
+            .collect()
     };
     let used = relations("used", "prov:activity", "prov:entity");
     let inputs = std::iter::once(&record["recipe"]).chain(record["inputs"].as_array().unwrap());
@@ -152,13 +192,20 @@ fn the_record_reads_in_prov_terms() {
         let activity = &prov["activity"][&id];
         assert_eq!(activity["popgauge:uses"], step["uses"], "{id} is an activity");
         assert_eq!((&activity["prov:startTime"], &activity["prov:endTime"]), (&step["started"], &step["ended"]));
-        assert!(step["started"].as_str().unwrap() <= step["ended"].as_str().unwrap(), "RFC 3339 UTC times sort as text");
+        assert!(
+            step["started"].as_str().unwrap() <= step["ended"].as_str().unwrap(),
+            "RFC 3339 UTC times sort as text"
+        );
     }
     let generated = relations("wasGeneratedBy", "prov:entity", "prov:activity");
     for output in record["outputs"].as_array().unwrap() {
         let id = format!("popgauge:output/{}", output["path"].as_str().unwrap());
         assert_eq!(prov["entity"][&id]["popgauge:sha256"], output["sha256"]);
-        let by = generated.iter().find(|(e, _)| *e == id).map(|(_, a)| a.clone()).unwrap_or_else(|| panic!("{id} was generated by nothing"));
+        let by = generated
+            .iter()
+            .find(|(e, _)| *e == id)
+            .map(|(_, a)| a.clone())
+            .unwrap_or_else(|| panic!("{id} was generated by nothing"));
         assert!(prov["activity"][&by].is_object(), "{id} was generated by {by}, an activity");
     }
     assert_eq!(prov["agent"]["popgauge:tool"]["prov:type"], "prov:SoftwareAgent");
@@ -179,7 +226,11 @@ fn the_record_names_the_build() {
     let record: serde_json::Value = serde_json::from_str(&case.read("out/provenance.json")).unwrap();
     let tool = &record["tool"];
     let run = |program: &str, args: &[&str]| {
-        let out = std::process::Command::new(program).args(args).current_dir(crate::support::repo_root()).output().expect("run");
+        let out = std::process::Command::new(program)
+            .args(args)
+            .current_dir(crate::support::repo_root())
+            .output()
+            .expect("run");
         String::from_utf8_lossy(&out.stdout).trim().to_string()
     };
     let commit = tool["commit"].as_str().unwrap();
@@ -204,7 +255,9 @@ fn another_build_is_said_plainly_and_is_not_a_difference() {
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 0, "{}", out.stdout);
     let running = env!("CARGO_PKG_VERSION");
-    let note = format!("Note: this popgauge is another build than the one that made the record: version (recorded 0.0.9, running {running}); where a result differs, the tool may be the cause");
+    let note = format!(
+        "Note: this popgauge is another build than the one that made the record: version (recorded 0.0.9, running {running}); where a result differs, the tool may be the cause"
+    );
     assert!(out.stdout.lines().any(|l| l == note), "{}", out.stdout);
 }
 
@@ -242,7 +295,10 @@ fn an_edited_prov_view_is_detected() {
     assert_eq!(out.code, 1);
     assert_eq!(
         line_for(&out.stdout, "record", "prov"),
-        format!("{:<7} {:<36} DIFFERS: the PROV view does not follow from the rest of the record (first at entity/popgauge:input/genotypes.csv/popgauge:sha256); one of them was edited", "record", "prov")
+        format!(
+            "{:<7} {:<36} DIFFERS: the PROV view does not follow from the rest of the record (first at entity/popgauge:input/genotypes.csv/popgauge:sha256); one of them was edited",
+            "record", "prov"
+        )
     );
 }
 
@@ -254,9 +310,12 @@ fn a_missing_plugin_library_is_named_with_its_path() {
     case.write("case.toml", format!("{recipe}\n[[step]]\nid = \"kin\"\nuses = \"plugin:plugins/librelatedness.so\"\nsha256 = \"{sha}\"\n[step.params]\nbootstrap = 20\n"));
     let run = case.run(&["run", "case"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
-    let present = verify(&case, &["case/out"]);
+    let present = verify(&case, &["case/out", "--trust-plugin", &sha]);
     assert_eq!(present.code, 0, "{}", present.stdout);
-    assert_eq!(line_for(&present.stdout, "plugin", "plugins/librelatedness.so"), format!("{:<7} {:<36} same", "plugin", "plugins/librelatedness.so"));
+    assert_eq!(
+        line_for(&present.stdout, "plugin", "plugins/librelatedness.so"),
+        format!("{:<7} {:<36} same", "plugin", "plugins/librelatedness.so")
+    );
     std::fs::remove_file(case.path().join("plugins/librelatedness.so")).unwrap();
     let out = verify(&case, &["case/out"]);
     assert_eq!(out.code, 1);
@@ -267,7 +326,115 @@ fn a_missing_plugin_library_is_named_with_its_path() {
             "plugin", "plugins/librelatedness.so"
         )
     );
-    assert!(out.stdout.contains("The steps are not re-run: a plugin library they need is missing or changed\n"), "{}", out.stdout);
+    assert!(
+        out.stdout.contains("The steps are not re-run: a plugin library they need is missing or changed\n"),
+        "{}",
+        out.stdout
+    );
+}
+
+/// A case with a plugin step that leaves a trace when its code runs (in process, where no
+/// sandbox stops it: it writes into `$HOME`), followed by a built-in step.
+fn assessed_with_a_tracing_plugin() -> (Case, String, std::path::PathBuf) {
+    let case = Case::fixture("minimal");
+    let sha = crate::plugins::install(&case, "popgauge-test-plugin-misbehave", "libmisbehave.so");
+    let recipe = case.read("case.toml");
+    case.write(
+        "case.toml",
+        format!(
+            "{recipe}\n[[step]]\nid = \"ext\"\nuses = \"plugin:plugins/libmisbehave.so\"\nsha256 = \"{sha}\"\nisolation = \"in-process\"\n[step.params]\nmode = \"write-home\"\n\n[[step]]\nid = \"later\"\nuses = \"diversity\"\n"
+        ),
+    );
+    let home = case.root().join("home");
+    std::fs::create_dir_all(&home).unwrap();
+    let run = crate::support::popgauge_with_env(&["run", "case"], case.root(), &[("HOME", &home)]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let trace = home.join("misbehave-was-here.txt");
+    assert!(trace.exists(), "the plugin ran during `run`");
+    std::fs::remove_file(&trace).unwrap();
+    (case, sha, trace)
+}
+
+/// An auditor's `verify` runs no plugin code unless told to: the plugin step is reported as not
+/// re-run with its library's hash, the inputs, the other steps and the outputs that do not
+/// depend on it are checked, those that do are named, and the exit code is 4. With
+/// `--trust-plugin` the step is re-run and the record verifies.
+#[test]
+fn verify_runs_no_plugin_code_unless_trusted() {
+    let (case, sha, trace) = assessed_with_a_tracing_plugin();
+    let home = trace.parent().unwrap().to_path_buf();
+    let out = crate::support::popgauge_with_env(&["verify", "case/out"], case.root(), &[("HOME", &home)]);
+    assert!(!trace.exists(), "verify ran the plugin's code");
+    assert_eq!(out.code, 4, "{}\n{}", out.stdout, out.stderr);
+    let given = "same given the recorded result of \"ext\" (not re-run: plugin code not trusted)";
+    assert_eq!(
+        line_for(&out.stdout, "step", "ext "),
+        format!(
+            "{:<7} {:<36} not re-run: plugin code not trusted (SHA-256 {})",
+            "step",
+            "ext (plugin:plugins/libmisbehave.so)",
+            short(&sha)
+        )
+    );
+    assert_eq!(
+        line_for(&out.stdout, "plugin", "plugins/libmisbehave.so"),
+        format!("{:<7} {:<36} same", "plugin", "plugins/libmisbehave.so")
+    );
+    for same in ["case.toml", "genotypes.csv"] {
+        assert_eq!(line_for(&out.stdout, "input", same), format!("{:<7} {same:<36} same", "input"));
+    }
+    assert_eq!(line_for(&out.stdout, "step", "later "), format!("{:<7} {:<36} same", "step", "later (diversity)"));
+    assert_eq!(
+        line_for(&out.stdout, "output", "tables/later.by_group.csv"),
+        format!("{:<7} {:<36} same", "output", "tables/later.by_group.csv")
+    );
+    for dependent in ["results.json", "tables/ext.counts.csv", "assessment.pdf"] {
+        assert_eq!(line_for(&out.stdout, "output", dependent), format!("{:<7} {dependent:<36} {given}", "output"));
+    }
+    assert!(
+        out.stdout.ends_with(&format!(
+            "verified except 5 item(s): plugin step(s) \"ext\" not re-run (their code is not trusted) and what depends on them\n  help: review plugins/libmisbehave.so (step \"ext\"), then add --trust-plugin {sha} to re-run it\n"
+        )),
+        "{}",
+        out.stdout
+    );
+
+    let trusted = crate::support::popgauge_with_env(
+        &["verify", "case/out", "--trust-plugin", &sha.to_ascii_uppercase()],
+        case.root(),
+        &[("HOME", &home)],
+    );
+    assert!(trace.exists(), "a trusted plugin is re-run");
+    assert_eq!(trusted.code, 0, "{}", trusted.stdout);
+    assert_eq!(
+        line_for(&trusted.stdout, "step", "ext "),
+        format!("{:<7} {:<36} same", "step", "ext (plugin:plugins/libmisbehave.so)")
+    );
+}
+
+/// A difference outside the untrusted step still fails verification (exit 1), and a
+/// `--trust-plugin` hash that names no library of the record is pointed out.
+#[test]
+fn differences_outweigh_untrusted_plugin_steps() {
+    let (case, _, trace) = assessed_with_a_tracing_plugin();
+    let home = trace.parent().unwrap().to_path_buf();
+    let genotypes = case.read("genotypes.csv");
+    case.write("genotypes.csv", genotypes.replacen("a1,North,2020,1/2", "a1,North,2020,2/2", 1));
+    let other = "ab".repeat(32);
+    let out = crate::support::popgauge_with_env(
+        &["verify", "case/out", "--trust-plugin", &other],
+        case.root(),
+        &[("HOME", &home)],
+    );
+    assert!(!trace.exists(), "verify ran the plugin's code");
+    assert_eq!(out.code, 1, "{}", out.stdout);
+    assert!(
+        out.stdout.contains(&format!("Note: --trust-plugin {other} names no plugin library of this record\n")),
+        "{}",
+        out.stdout
+    );
+    assert!(line_for(&out.stdout, "input", "genotypes.csv").contains("DIFFERS: input changed"), "{}", out.stdout);
+    assert!(out.stdout.contains("NOT verified: "), "{}", out.stdout);
 }
 
 /// The short form verify prints for a SHA-256 or a key: first 8 and last 4 hex digits.
@@ -285,23 +452,40 @@ fn a_signed_record_verifies_and_a_changed_one_fails() {
         "Wrote org.key (private: keep it where only the signer can read it)\nWrote org.pub (public: give it to auditors for `popgauge verify --public-key`)\n"
     );
     let again = case.run(&["keygen", "org"]);
-    assert_eq!((again.code, again.stderr.as_str()), (2, "error: org.key exists already\n  help: choose another NAME; an existing key is never replaced\n"));
+    assert_eq!(
+        (again.code, again.stderr.as_str()),
+        (2, "error: org.key exists already\n  help: choose another NAME; an existing key is never replaced\n")
+    );
     let signed = case.run(&["sign", "case/out", "--key", "org.key"]);
     assert_eq!(signed.code, 0, "{}", signed.stderr);
-    assert_eq!(signed.stdout, "Signed case/out/provenance.json: case/out/provenance.json.sig\nCheck it with `popgauge verify case/out/provenance.json --public-key PUBLIC_KEY`.\n");
+    assert_eq!(
+        signed.stdout,
+        "Signed case/out/provenance.json: case/out/provenance.json.sig\nCheck it with `popgauge verify case/out/provenance.json --public-key PUBLIC_KEY`.\n"
+    );
     let good = verify(&case, &["case/out", "--public-key", "org.pub"]);
     assert_eq!(good.code, 0, "{}", good.stdout);
     assert_eq!(line_for(&good.stdout, "record", "signature"), format!("{:<7} {:<36} same", "record", "signature"));
     let unchecked = verify(&case, &["case/out"]);
     assert_eq!(unchecked.code, 0);
-    assert!(unchecked.stdout.contains("case/out/provenance.json.sig is present but not checked; give --public-key FILE to check it\n"), "{}", unchecked.stdout);
+    assert!(
+        unchecked
+            .stdout
+            .contains("case/out/provenance.json.sig is present but not checked; give --public-key FILE to check it\n"),
+        "{}",
+        unchecked.stdout
+    );
 
     let signer: serde_json::Value = serde_json::from_str(&case.read("out/provenance.json.sig")).unwrap();
     assert_eq!(case.run(&["keygen", "other"]).code, 0);
     let other = verify(&case, &["case/out", "--public-key", "other.pub"]);
     assert_eq!(other.code, 1);
     let line = line_for(&other.stdout, "record", "signature");
-    let expected = format!("{:<7} {:<36} DIFFERS: signed by another key: the signature names key {}, not the given key ", "record", "signature", short(signer["public_key"].as_str().unwrap()));
+    let expected = format!(
+        "{:<7} {:<36} DIFFERS: signed by another key: the signature names key {}, not the given key ",
+        "record",
+        "signature",
+        short(signer["public_key"].as_str().unwrap())
+    );
     assert!(line.starts_with(&expected), "{line}");
 
     // The case folder written another way still leads to the same inputs, so only the
@@ -311,13 +495,20 @@ fn a_signed_record_verifies_and_a_changed_one_fails() {
     assert_eq!(changed.code, 1, "{}", changed.stdout);
     assert_eq!(
         line_for(&changed.stdout, "record", "signature"),
-        format!("{:<7} {:<36} DIFFERS: the signature does not match provenance.json: the record was changed after it was signed", "record", "signature")
+        format!(
+            "{:<7} {:<36} DIFFERS: the signature does not match provenance.json: the record was changed after it was signed",
+            "record", "signature"
+        )
     );
     assert!(changed.stdout.contains("NOT verified: 1 item(s) differ from the record\n"), "{}", changed.stdout);
 
     let wrong_kind = verify(&case, &["case/out", "--public-key", "org.key"]);
     assert_eq!(wrong_kind.code, 2);
-    assert!(wrong_kind.stderr.starts_with("error: org.key: not an ed25519 public key in PEM form ("), "{}", wrong_kind.stderr);
+    assert!(
+        wrong_kind.stderr.starts_with("error: org.key: not an ed25519 public key in PEM form ("),
+        "{}",
+        wrong_kind.stderr
+    );
 }
 
 /// The round trip on the demo case: every built-in step, figures and the PDF, with the
@@ -333,7 +524,11 @@ fn the_demo_case_verifies_after_moving() {
     std::fs::rename(case.path(), moved.join("data")).unwrap();
     let out = verify(&case, &["archive/report/provenance.json", "--data", "archive/data"]);
     assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
-    let items: Vec<&str> = out.stdout.lines().filter(|l| ["record ", "input ", "step ", "output "].iter().any(|k| l.starts_with(k))).collect();
+    let items: Vec<&str> = out
+        .stdout
+        .lines()
+        .filter(|l| ["record ", "input ", "step ", "output "].iter().any(|k| l.starts_with(k)))
+        .collect();
     assert!(items.iter().any(|l| l.starts_with("output  assessment.pdf ")), "{}", out.stdout);
     assert!(items.iter().any(|l| l.starts_with("step    ld (ne-ld) ")), "{}", out.stdout);
     assert!(items.iter().all(|l| l.ends_with(" same")), "{}", out.stdout);

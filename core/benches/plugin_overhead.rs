@@ -16,7 +16,9 @@ use std::sync::Arc;
 use std::time::Duration;
 
 use criterion::Criterion;
-use popgauge::host::{Isolation, PluginScratch, PluginSpec, load_plugin, worker::WORKER_ENV};
+use popgauge::host::{
+    DEFAULT_MEMORY_LIMIT_MIB, Isolation, Limits, PluginScratch, PluginSpec, load_plugin, worker::WORKER_ENV,
+};
 use popgauge::hash::sha256_hex;
 use popgauge_abi::{
     AlleleCode, AssessmentInfo, GenotypeMatrix, LocusMeta, Params, SampleMeta, Seed, Step, StepContext,
@@ -95,7 +97,7 @@ fn external(library: &PathBuf, isolation: Isolation) -> popgauge::host::External
         path: library.clone(),
         expected_sha256: Some(sha256_hex(&bytes)),
         isolation,
-        timeout: Duration::from_secs(600),
+        limits: Limits { timeout: Duration::from_secs(600), memory_mib: DEFAULT_MEMORY_LIMIT_MIB },
     };
     let scratch: Arc<PluginScratch> = PluginScratch::new().expect("temporary folder");
     load_plugin(&spec, &scratch).expect("library loads")

@@ -6,20 +6,33 @@
 //! against its recorded result hash (and, where it differs, the first differing table cell
 //! against the copy in `results.json`); and every output file, both as found on disk and as
 //! regenerated, against its recorded hash.
+//!
+//! Plugin code is not trusted by default: the case may come from someone else, and its author
+//! wrote both the library and its hash. A plugin step whose library's SHA-256 the auditor did
+//! not name (`--trust-plugin`) is not run; the steps and outputs after it are checked with its
+//! recorded result (from `results.json`, checked against the record's hash) standing in. Which
+//! of them depend on it is found by a second run with the step withheld: a later step or an
+//! output that changes then depends on it and is reported as not verified, not as the same.
 
+use std::collections::{BTreeMap, BTreeSet};
 use std::fmt;
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
-use popgauge_abi::{Cell, StepResult, Table, format_number};
+use popgauge_abi::{
+    Cell, Descriptor, Step, StepContext, StepError, StepOutput, StepResult, StepStatus, Table, format_number,
+};
 
 use ed25519_dalek::VerifyingKey;
 
-use crate::provenance::prov::ProvDocument;
-use crate::provenance::signature::{SignatureCheck, check_signature, signature_path};
 use crate::hash::{derive_seed, hash_canonical, sha256_hex};
+use crate::provenance::prov::ProvDocument;
 use crate::provenance::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
-use crate::engine::run_steps;
-use crate::pipeline::{LoadedCase, RunError, load_case, render_outputs};
+use crate::provenance::signature::{SignatureCheck, check_signature, signature_path};
+use crate::engine::{EngineOutput, run_steps};
+use crate::host::{PluginTrust, not_trusted};
+use crate::output::OutputFiles;
+use crate::pipeline::{LoadedCase, RunError, load_case_trusting, render_outputs};
 use crate::progress::Progress;
 use crate::results::ResultsDocument;
 
@@ -27,7 +40,9 @@ use crate::results::ResultsDocument;
 #[derive(Debug, thiserror::Error)]
 pub enum VerifyError {
     /// The record cannot be read or parsed.
-    #[error("{path}: cannot read the provenance record: {message}\n  help: give the provenance.json of a popgauge output folder")]
+    #[error(
+        "{path}: cannot read the provenance record: {message}\n  help: give the provenance.json of a popgauge output folder"
+    )]
     Unreadable {
         /// The path.
         path: String,
@@ -35,7 +50,9 @@ pub enum VerifyError {
         message: String,
     },
     /// A record of a format this version does not know.
-    #[error("{path}: the record has format \"{found}\", but this popgauge reads \"{PROVENANCE_SCHEMA}\"\n  help: verify it with the popgauge version named in the record ({tool}) or a newer one")]
+    #[error(
+        "{path}: the record has format \"{found}\", but this popgauge reads \"{PROVENANCE_SCHEMA}\"\n  help: verify it with the popgauge version named in the record ({tool}) or a newer one"
+    )]
     NewerFormat {
         /// The path.
         path: String,
@@ -45,7 +62,9 @@ pub enum VerifyError {
         tool: String,
     },
     /// The case cannot be loaded at all (recipe or data unreadable).
-    #[error("the case at {case} cannot be loaded for re-running\n  caused by: {source}\n  help: point --data at the folder holding the case's recipe and data")]
+    #[error(
+        "the case at {case} cannot be loaded for re-running\n  caused by: {source}\n  help: point --data at the folder holding the case's recipe and data"
+    )]
     Case {
         /// The case folder tried.
         case: String,
@@ -61,6 +80,8 @@ pub enum Verdict {
     Same,
     /// Not identical; the text says how.
     Differs(String),
+    /// Not checked, or checked only given an untrusted step's recorded result; the text says which.
+    NotChecked(String),
 }
 
 /// One line of the verification table.
@@ -79,9 +100,21 @@ impl fmt::Display for Item {
         let verdict = match &self.verdict {
             Verdict::Same => "same".to_string(),
             Verdict::Differs(how) => format!("DIFFERS: {how}"),
+            Verdict::NotChecked(how) => how.clone(),
         };
         write!(f, "{:<7} {:<36} {verdict}", self.kind, self.name)
     }
+}
+
+/// A plugin step that was not re-run because its library is not trusted.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct WithheldStep {
+    /// The step id.
+    pub id: String,
+    /// The library as the recipe names it.
+    pub library: String,
+    /// Its SHA-256 (give it to `--trust-plugin` after reviewing the library).
+    pub sha256: String,
 }
 
 /// The whole verification.
@@ -91,12 +124,19 @@ pub struct VerifyReport {
     pub notes: Vec<String>,
     /// One item per input, step and output.
     pub items: Vec<Item>,
+    /// Plugin steps not re-run (their code is not trusted).
+    pub withheld: Vec<WithheldStep>,
 }
 
 impl VerifyReport {
     /// Items that differ.
     pub fn differences(&self) -> usize {
-        self.items.iter().filter(|i| i.verdict != Verdict::Same).count()
+        self.items.iter().filter(|i| matches!(i.verdict, Verdict::Differs(_))).count()
+    }
+
+    /// Items not verified because they are, or depend on, a step whose plugin is not trusted.
+    pub fn not_checked(&self) -> usize {
+        self.items.iter().filter(|i| matches!(i.verdict, Verdict::NotChecked(_))).count()
     }
 
     fn push(&mut self, kind: &'static str, name: impl Into<String>, verdict: Verdict) {
@@ -104,19 +144,33 @@ impl VerifyReport {
     }
 }
 
-/// Verifies the record at `record_path`; inputs come from `data` when given, else from the case
-/// folder the record names relative to its output folder.
+/// What `verify` is told besides the record.
+#[derive(Debug, Clone, Default)]
+pub struct VerifyOptions {
+    /// The case folder, when it has moved since the run (default: the one the record names
+    /// relative to its output folder).
+    pub data: Option<PathBuf>,
+    /// SHA-256 hashes (lower-case hex) of the plugin libraries whose code may run.
+    pub trusted_plugins: BTreeSet<String>,
+}
+
+/// Verifies the record at `record_path`, running only the plugin libraries `options` trusts.
 ///
 /// # Errors
 /// A [`VerifyError`] when the record cannot be read or the case cannot be loaded at all;
 /// everything else is reported as a difference.
-pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progress) -> Result<VerifyReport, VerifyError> {
+pub fn verify(
+    record_path: &Path,
+    options: &VerifyOptions,
+    progress: &mut dyn Progress,
+) -> Result<VerifyReport, VerifyError> {
     let record = read_record(record_path)?;
     let out_dir = record_path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new(".")).to_path_buf();
-    let case_dir = data.map_or_else(|| out_dir.join(&record.run.case_folder), Path::to_path_buf);
+    let case_dir = options.data.clone().unwrap_or_else(|| out_dir.join(&record.run.case_folder));
     let mut report = VerifyReport::default();
     report.notes.extend(tool_notes(&record.tool));
     report.notes.push(format!("Inputs from {}", case_dir.display()));
+    report.notes.extend(unmatched_trust(&record, &options.trusted_plugins));
     check_prov(&record, &mut report);
     check_inputs(&record, &case_dir, &mut report);
     if !check_plugins(&record, &case_dir, &mut report) {
@@ -124,14 +178,27 @@ pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progre
         compare_outputs(&record, &out_dir, None, &mut report);
         return Ok(report);
     }
-    let case = load_case(&case_dir, true, progress).map_err(|e| VerifyError::Case { case: case_dir.display().to_string(), source: Box::new(e) })?;
-    let recomputed = rerun(&record, case, &mut report, progress);
+    let trust = trust_of(&record, &options.trusted_plugins);
+    let case = load_case_trusting(&case_dir, true, &trust, progress)
+        .map_err(|e| VerifyError::Case { case: case_dir.display().to_string(), source: Box::new(e) })?;
     let on_disk = read_results(&out_dir);
-    if let Some((case, engine_results)) = &recomputed {
-        compare_steps(&record, engine_results, on_disk.as_ref(), &mut report);
+    let recomputed = rerun(&record, case, &trust, on_disk.as_ref(), &mut report, progress);
+    if let Some(rerun) = &recomputed {
+        compare_steps(&record, rerun, on_disk.as_ref(), &mut report);
         progress.task("typesetting the assessment");
-        match render_outputs(case, engine_results) {
-            Ok((_, files)) => compare_outputs(&record, &out_dir, Some(&files), &mut report),
+        match render_outputs(&rerun.case, &rerun.engine) {
+            Ok((_, files)) => {
+                let without = rerun.without.as_ref().map(|without| match render_outputs(&rerun.case, without) {
+                    Ok((_, files)) => Some(files),
+                    Err(_) => None,
+                });
+                compare_outputs(
+                    &record,
+                    &out_dir,
+                    Some(Regenerated { files: &files, without: without.as_ref() }),
+                    &mut report,
+                );
+            }
             Err(error) => {
                 report.notes.push(format!("the outputs could not be regenerated: {error}"));
                 compare_outputs(&record, &out_dir, None, &mut report);
@@ -142,6 +209,29 @@ pub fn verify(record_path: &Path, data: Option<&Path>, progress: &mut dyn Progre
     }
     progress.finish();
     Ok(report)
+}
+
+/// Only the trusted libraries are loaded; the record's descriptors stand in for the others.
+fn trust_of(record: &ProvenanceRecord, trusted: &BTreeSet<String>) -> PluginTrust {
+    let recorded = record
+        .steps
+        .iter()
+        .filter_map(|s| s.plugin.as_ref())
+        .map(|p| (p.sha256.clone(), p.descriptor.clone()))
+        .collect();
+    PluginTrust { only: Some(trusted.clone()), recorded, announce: None }
+}
+
+/// A note for each `--trust-plugin` hash that names no library of the record (a typo, or the
+/// hash of another case's library).
+fn unmatched_trust(record: &ProvenanceRecord, trusted: &BTreeSet<String>) -> Vec<String> {
+    let known: BTreeSet<&str> =
+        record.steps.iter().filter_map(|s| s.plugin.as_ref()).map(|p| p.sha256.as_str()).collect();
+    trusted
+        .iter()
+        .filter(|sha| !known.contains(sha.as_str()))
+        .map(|sha| format!("Note: --trust-plugin {sha} names no plugin library of this record"))
+        .collect()
 }
 
 fn read_record(path: &Path) -> Result<ProvenanceRecord, VerifyError> {
@@ -165,7 +255,10 @@ fn tool_notes(recorded: &ToolBuild) -> Vec<String> {
 }
 
 fn describe_build(tool: &ToolBuild) -> String {
-    format!("{} {} (commit {}, {}, {}, {})", tool.name, tool.version, tool.commit, tool.target, tool.rustc, tool.profile)
+    format!(
+        "{} {} (commit {}, {}, {}, {})",
+        tool.name, tool.version, tool.commit, tool.target, tool.rustc, tool.profile
+    )
 }
 
 /// A plain note when the running build is not the one that made the record; not a difference
@@ -197,8 +290,11 @@ fn check_prov(record: &ProvenanceRecord, report: &mut VerifyReport) {
     let verdict = if derived == record.prov {
         Verdict::Same
     } else {
-        let where_ = first_json_difference(&serde_json::to_value(&record.prov).ok(), &serde_json::to_value(&derived).ok());
-        Verdict::Differs(format!("the PROV view does not follow from the rest of the record (first at {where_}); one of them was edited"))
+        let where_ =
+            first_json_difference(&serde_json::to_value(&record.prov).ok(), &serde_json::to_value(&derived).ok());
+        Verdict::Differs(format!(
+            "the PROV view does not follow from the rest of the record (first at {where_}); one of them was edited"
+        ))
     };
     report.push("record", "prov", verdict);
 }
@@ -249,7 +345,12 @@ fn check_plugins(record: &ProvenanceRecord, case_dir: &Path, report: &mut Verify
                 if sha == plugin.sha256 {
                     Verdict::Same
                 } else {
-                    Verdict::Differs(format!("library changed: {} has SHA-256 {}, recorded {}", shown.display(), short(&sha), short(&plugin.sha256)))
+                    Verdict::Differs(format!(
+                        "library changed: {} has SHA-256 {}, recorded {}",
+                        shown.display(),
+                        short(&sha),
+                        short(&plugin.sha256)
+                    ))
                 }
             }
         };
@@ -305,19 +406,68 @@ fn short(sha: &str) -> String {
     if sha.len() > 12 { format!("{}…{}", &sha[..8], &sha[sha.len() - 4..]) } else { sha.to_string() }
 }
 
-/// Re-runs the steps with the recorded parameters and master seed.
+/// The steps re-run: with the recorded results of withheld plugin steps standing in (`engine`),
+/// and, when any step was withheld, once more without them (`without`), to tell which later
+/// steps and outputs depend on them.
+struct Rerun {
+    case: LoadedCase,
+    engine: EngineOutput,
+    without: Option<EngineOutput>,
+    /// Withheld step id → why it was not run.
+    withheld: BTreeMap<String, String>,
+}
+
+/// A withheld plugin step's recorded result, given back as its output when the engine runs it.
+struct RecordedStep {
+    descriptor: Descriptor,
+    result: Option<StepResult>,
+    why: String,
+}
+
+impl Step for RecordedStep {
+    fn descriptor(&self) -> Descriptor {
+        self.descriptor.clone()
+    }
+
+    fn run(&self, _ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
+        match &self.result {
+            Some(result) if result.status == StepStatus::Ok => Ok(StepOutput {
+                tables: result.tables.clone(),
+                findings: result.findings.clone(),
+                citations: result.citations.clone(),
+                filter: result.exclusions.clone(),
+            }),
+            Some(result) => Err(StepError::new(result.error.clone().unwrap_or_default())),
+            None => Err(StepError::new(format!(
+                "not run: {}, and results.json holds no copy of its recorded result",
+                self.why
+            ))),
+        }
+    }
+}
+
+/// Re-runs the steps with the recorded parameters and master seed; withheld plugin steps give
+/// their recorded results (when `results.json` holds them unchanged).
 fn rerun(
     record: &ProvenanceRecord,
     mut case: LoadedCase,
+    trust: &PluginTrust,
+    on_disk: Option<&ResultsDocument>,
     report: &mut VerifyReport,
     progress: &mut dyn Progress,
-) -> Option<(LoadedCase, crate::engine::EngineOutput)> {
+) -> Option<Rerun> {
     case.recipe.assessment.seed = record.assessment.seed;
     case.recipe.assessment.date = record.assessment.date.clone();
     let recipe_ids: Vec<&str> = case.recipe.steps.iter().map(|s| s.id.as_str()).collect();
     let record_ids: Vec<&str> = record.steps.iter().map(|s| s.id.as_str()).collect();
     if recipe_ids != record_ids {
-        report.push("record", "steps", Verdict::Differs(format!("the recipe's steps are {recipe_ids:?} but the record's are {record_ids:?}; the recipe's are re-run")));
+        report.push(
+            "record",
+            "steps",
+            Verdict::Differs(format!(
+                "the recipe's steps are {recipe_ids:?} but the record's are {record_ids:?}; the recipe's are re-run"
+            )),
+        );
     }
     for planned in &mut case.recipe.steps {
         let Some(entry) = record.steps.iter().find(|e| e.id == planned.id) else { continue };
@@ -327,14 +477,47 @@ fn rerun(
         }
         match descriptor.resolve(&entry.params) {
             Ok(params) => planned.params = params,
-            Err(e) => report.push("record", format!("{} parameters", entry.id), Verdict::Differs(format!("the recorded parameters are not valid: {e}"))),
+            Err(e) => report.push(
+                "record",
+                format!("{} parameters", entry.id),
+                Verdict::Differs(format!("the recorded parameters are not valid: {e}")),
+            ),
         }
         if derive_seed(record.assessment.seed, &entry.id).0 != entry.seed {
-            report.push("record", format!("{} seed", entry.id), Verdict::Differs(format!("recorded seed {} is not the one derived from the master seed {}", entry.seed, record.assessment.seed)));
+            report.push(
+                "record",
+                format!("{} seed", entry.id),
+                Verdict::Differs(format!(
+                    "recorded seed {} is not the one derived from the master seed {}",
+                    entry.seed, record.assessment.seed
+                )),
+            );
         }
     }
-    match run_steps(&case.recipe, &case.data, progress) {
-        Ok(engine) => Some((case, engine)),
+    let withheld = withhold(record, &mut case, trust, on_disk, report);
+    let without = if withheld.is_empty() {
+        None
+    } else {
+        // The case's recipe still holds the withheld steps as they were loaded (never run).
+        let mut recipe = case.recipe.clone();
+        for planned in &mut recipe.steps {
+            if let Some(w) = withheld.get(&planned.id) {
+                planned.step = Arc::clone(&w.original);
+            }
+        }
+        Some(recipe)
+    };
+    let outcome = run_steps(&case.recipe, &case.data, progress).and_then(|engine| {
+        let without = match &without {
+            Some(recipe) => Some(run_steps(recipe, &case.data, progress)?),
+            None => None,
+        };
+        Ok((engine, without))
+    });
+    match outcome {
+        Ok((engine, without)) => {
+            Some(Rerun { case, engine, without, withheld: withheld.into_iter().map(|(id, w)| (id, w.why)).collect() })
+        }
         Err(e) => {
             report.push("step", "re-run", Verdict::Differs(format!("the steps could not be re-run: {e}")));
             None
@@ -342,11 +525,54 @@ fn rerun(
     }
 }
 
+/// A withheld step: why, and its step as loaded (never run), for the run without it.
+struct Withheld {
+    why: String,
+    original: Arc<dyn Step>,
+}
+
+/// Puts the recorded result in place of each plugin step whose library is not trusted, and
+/// lists those steps in the report.
+fn withhold(
+    record: &ProvenanceRecord,
+    case: &mut LoadedCase,
+    trust: &PluginTrust,
+    on_disk: Option<&ResultsDocument>,
+    report: &mut VerifyReport,
+) -> BTreeMap<String, Withheld> {
+    let mut withheld = BTreeMap::new();
+    for planned in &mut case.recipe.steps {
+        let Some(plugin) = planned.plugin.as_ref().filter(|p| !trust.admits(&p.sha256)) else { continue };
+        let why = not_trusted(&plugin.sha256);
+        let recorded = record.steps.iter().find(|e| e.id == planned.id).and_then(|entry| {
+            on_disk?
+                .steps
+                .iter()
+                .find(|s| s.id == entry.id)
+                .filter(|s| hash_canonical(s).is_ok_and(|h| h == entry.result_sha256))
+                .cloned()
+        });
+        report.withheld.push(WithheldStep {
+            id: planned.id.clone(),
+            library: plugin.path.clone(),
+            sha256: plugin.sha256.clone(),
+        });
+        let stand_in = RecordedStep { descriptor: planned.step.descriptor(), result: recorded, why: why.clone() };
+        let original = std::mem::replace(&mut planned.step, Arc::new(stand_in));
+        withheld.insert(planned.id.clone(), Withheld { why, original });
+    }
+    withheld
+}
+
 /// `uses` is the recipe's (for a plugin step `plugin:PATH`, as the record stores it).
 fn recorded_params_problem(entry: &StepEntry, uses: &str) -> Option<String> {
     let hash = hash_canonical(&entry.params).unwrap_or_default();
     if hash != entry.params_sha256 {
-        return Some(format!("parameter changed: the recorded parameters hash to {} but the record says {}", short(&hash), short(&entry.params_sha256)));
+        return Some(format!(
+            "parameter changed: the recorded parameters hash to {} but the record says {}",
+            short(&hash),
+            short(&entry.params_sha256)
+        ));
     }
     if uses != entry.uses {
         return Some(format!("step uses \"{uses}\" in the recipe but \"{}\" in the record", entry.uses));
@@ -361,12 +587,17 @@ fn read_results(out_dir: &Path) -> Option<ResultsDocument> {
 
 fn compare_steps(
     record: &ProvenanceRecord,
-    engine: &crate::engine::EngineOutput,
+    rerun: &Rerun,
     on_disk: Option<&ResultsDocument>,
     report: &mut VerifyReport,
 ) {
+    let engine = &rerun.engine;
     for entry in &record.steps {
         let name = format!("{} ({})", entry.id, entry.uses);
+        if let Some(why) = rerun.withheld.get(&entry.id) {
+            report.push("step", name, Verdict::NotChecked(format!("not re-run: {why}")));
+            continue;
+        }
         let Some(run) = engine.runs.iter().find(|r| r.id == entry.id) else {
             report.push("step", name, Verdict::Differs("not re-run: the recipe no longer has this step".into()));
             continue;
@@ -377,17 +608,32 @@ fn compare_steps(
             Verdict::Same
         } else {
             let detail = match (stored, recomputed) {
-                (Some(old), Some(new)) => first_difference(old, new, RECOMPUTED).unwrap_or_else(|| "the result hash differs (results.json was changed too, so the recorded values are unknown)".into()),
+                (Some(old), Some(new)) => first_difference(old, new, RECOMPUTED).unwrap_or_else(|| {
+                    "the result hash differs (results.json was changed too, so the recorded values are unknown)".into()
+                }),
                 _ => "the result hash differs and results.json has no copy of the step to compare".into(),
             };
             Verdict::Differs(format!("result differs: {detail}"))
+        };
+        let verdict = match (&verdict, &rerun.without) {
+            (Verdict::Same, Some(without)) => {
+                let alone = without.runs.iter().find(|r| r.id == entry.id).map(|r| &r.result_sha256);
+                if alone == Some(&run.result_sha256) { verdict } else { given_recorded(&rerun.withheld) }
+            }
+            _ => verdict,
         };
         report.push("step", name, verdict);
         if let Some(old) = stored {
             let stored_hash = hash_canonical(old).unwrap_or_default();
             if stored_hash != entry.result_sha256 && run.result_sha256 == entry.result_sha256 {
-                let detail = recomputed.and_then(|new| first_difference(new, old, EDITED)).unwrap_or_else(|| "its content differs from the recorded hash".into());
-                report.push("output", format!("results.json step {}", entry.id), Verdict::Differs(format!("edited after the run: {detail}")));
+                let detail = recomputed
+                    .and_then(|new| first_difference(new, old, EDITED))
+                    .unwrap_or_else(|| "its content differs from the recorded hash".into());
+                report.push(
+                    "output",
+                    format!("results.json step {}", entry.id),
+                    Verdict::Differs(format!("edited after the run: {detail}")),
+                );
             }
         }
     }
@@ -424,8 +670,18 @@ pub fn first_difference(recorded: &StepResult, recomputed: &StepResult, sides: S
         }
     }
     if recorded.findings != recomputed.findings {
-        let position = recorded.findings.iter().zip(&recomputed.findings).position(|(a, b)| a != b).unwrap_or(recorded.findings.len().min(recomputed.findings.len()));
-        return Some(format!("findings differ from finding {} on ({} {reference}, {} {other})", position + 1, recorded.findings.len(), recomputed.findings.len()));
+        let position = recorded
+            .findings
+            .iter()
+            .zip(&recomputed.findings)
+            .position(|(a, b)| a != b)
+            .unwrap_or(recorded.findings.len().min(recomputed.findings.len()));
+        return Some(format!(
+            "findings differ from finding {} on ({} {reference}, {} {other})",
+            position + 1,
+            recorded.findings.len(),
+            recomputed.findings.len()
+        ));
     }
     if recorded.citations != recomputed.citations {
         return Some("citations differ".into());
@@ -433,7 +689,8 @@ pub fn first_difference(recorded: &StepResult, recomputed: &StepResult, sides: S
     if recorded.exclusions != recomputed.exclusions {
         return Some("exclusions differ".into());
     }
-    (recorded.version != recomputed.version).then(|| format!("step version {} {reference}, {} {other}", recorded.version, recomputed.version))
+    (recorded.version != recomputed.version)
+        .then(|| format!("step version {} {reference}, {} {other}", recorded.version, recomputed.version))
 }
 
 fn table_difference(name: &str, a: &Table, b: &Table, sides: Sides) -> Option<String> {
@@ -456,7 +713,8 @@ fn table_difference(name: &str, a: &Table, b: &Table, sides: Sides) -> Option<St
             }
         }
     }
-    (a.rows.len() != b.rows.len()).then(|| format!("table {name} has {} rows {reference}, {} {other}", a.rows.len(), b.rows.len()))
+    (a.rows.len() != b.rows.len())
+        .then(|| format!("table {name} has {} rows {reference}, {} {other}", a.rows.len(), b.rows.len()))
 }
 
 fn same_cell(x: &Cell, y: &Cell) -> bool {
@@ -491,7 +749,48 @@ fn by_how_much(x: &Cell, y: &Cell) -> String {
     }
 }
 
-fn compare_outputs(record: &ProvenanceRecord, out_dir: &Path, regenerated: Option<&Vec<(String, Vec<u8>)>>, report: &mut VerifyReport) {
+/// The verdict on an item that is the same as recorded only given the recorded results of
+/// withheld steps (it changes when they are left out).
+fn given_recorded(withheld: &BTreeMap<String, String>) -> Verdict {
+    let ids: Vec<String> = withheld.keys().map(|id| format!("\"{id}\"")).collect();
+    Verdict::NotChecked(format!(
+        "same given the recorded result of {} (not re-run: plugin code not trusted)",
+        ids.join(", ")
+    ))
+}
+
+/// The outputs regenerated from the re-run steps, and, when steps were withheld, from the run
+/// without them (`None` inside when that could not be typeset: every output then counts as
+/// depending on them).
+#[derive(Clone, Copy)]
+struct Regenerated<'a> {
+    files: &'a OutputFiles,
+    without: Option<&'a Option<OutputFiles>>,
+}
+
+impl<'a> Regenerated<'a> {
+    fn find(&self, path: &str) -> Option<&'a Vec<u8>> {
+        self.files.iter().find(|(p, _)| p == path).map(|(_, bytes)| bytes)
+    }
+
+    /// Whether the file changes when the withheld steps are left out.
+    fn depends_on_withheld(&self, path: &str) -> bool {
+        match self.without {
+            None => false,
+            Some(None) => true,
+            Some(Some(without)) => without.iter().find(|(p, _)| p == path).map(|(_, b)| b) != self.find(path),
+        }
+    }
+}
+
+fn compare_outputs(
+    record: &ProvenanceRecord,
+    out_dir: &Path,
+    regenerated: Option<Regenerated<'_>>,
+    report: &mut VerifyReport,
+) {
+    let withheld: BTreeMap<String, String> =
+        report.withheld.iter().map(|w| (w.id.clone(), not_trusted(&w.sha256))).collect();
     for entry in &record.outputs {
         let mut problems = Vec::new();
         match std::fs::read(out_dir.join(&entry.path)) {
@@ -502,8 +801,8 @@ fn compare_outputs(record: &ProvenanceRecord, out_dir: &Path, regenerated: Optio
                 }
             }
         }
-        match regenerated.map(|files| files.iter().find(|(p, _)| p == &entry.path)) {
-            Some(Some((_, bytes))) => {
+        match regenerated.map(|r| r.find(&entry.path)) {
+            Some(Some(bytes)) => {
                 if let Verdict::Differs(d) = compare_bytes(entry, bytes, "regenerated differently") {
                     problems.push(d);
                 }
@@ -511,7 +810,13 @@ fn compare_outputs(record: &ProvenanceRecord, out_dir: &Path, regenerated: Optio
             Some(None) => problems.push("not regenerated by this version".into()),
             None => problems.push("not regenerated (the steps could not be re-run)".into()),
         }
-        let verdict = if problems.is_empty() { Verdict::Same } else { Verdict::Differs(problems.join("; ")) };
+        let verdict = if !problems.is_empty() {
+            Verdict::Differs(problems.join("; "))
+        } else if regenerated.is_some_and(|r| r.depends_on_withheld(&entry.path)) {
+            given_recorded(&withheld)
+        } else {
+            Verdict::Same
+        };
         report.push("output", &entry.path, verdict);
     }
 }
@@ -527,7 +832,9 @@ pub fn add_signature_check(report: &mut VerifyReport, record_path: &Path, key: O
     let Some(key) = key else {
         let path = signature_path(record_path);
         if path.exists() {
-            report.notes.push(format!("{} is present but not checked; give --public-key FILE to check it", path.display()));
+            report
+                .notes
+                .push(format!("{} is present but not checked; give --public-key FILE to check it", path.display()));
         }
         return;
     };
@@ -536,10 +843,13 @@ pub fn add_signature_check(report: &mut VerifyReport, record_path: &Path, key: O
             report.notes.push(format!("Signature: valid ed25519 signature by key {}", short(&public_key)));
             Verdict::Same
         }
-        SignatureCheck::Missing { path } => {
-            Verdict::Differs(format!("missing: {} not found; the record is not signed (`popgauge sign` signs it)", path.display()))
+        SignatureCheck::Missing { path } => Verdict::Differs(format!(
+            "missing: {} not found; the record is not signed (`popgauge sign` signs it)",
+            path.display()
+        )),
+        SignatureCheck::Unreadable { path, message } => {
+            Verdict::Differs(format!("{} cannot be read: {message}", path.display()))
         }
-        SignatureCheck::Unreadable { path, message } => Verdict::Differs(format!("{} cannot be read: {message}", path.display())),
         SignatureCheck::OtherKey { found, expected } => Verdict::Differs(format!(
             "signed by another key: the signature names key {}, not the given key {}",
             short(&found),
@@ -547,7 +857,9 @@ pub fn add_signature_check(report: &mut VerifyReport, record_path: &Path, key: O
         )),
         SignatureCheck::Mismatch => Verdict::Differs(format!(
             "the signature does not match {}: the record was changed after it was signed",
-            record_path.file_name().map_or_else(|| record_path.display().to_string(), |n| n.to_string_lossy().into_owned())
+            record_path
+                .file_name()
+                .map_or_else(|| record_path.display().to_string(), |n| n.to_string_lossy().into_owned())
         )),
     };
     report.push("record", "signature", verdict);

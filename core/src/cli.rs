@@ -8,8 +8,8 @@ pub mod reporter;
 pub mod run;
 pub mod sign;
 pub mod steps;
-pub mod verify;
 pub mod typeset;
+pub mod verify;
 
 use std::num::NonZeroUsize;
 use std::process::ExitCode;
@@ -30,6 +30,9 @@ pub const EXIT_DIFFERENCES: u8 = 1;
 pub const EXIT_BAD_INPUT: u8 = 2;
 /// Exit code: a step failed.
 pub const EXIT_STEP_FAILED: u8 = 3;
+/// Exit code: `verify` found no difference, but plugin steps were not re-run because their code
+/// is not trusted (`--trust-plugin`), so they and what depends on them are not verified.
+pub const EXIT_UNTRUSTED_PLUGINS: u8 = 4;
 
 /// popgauge: genetic-status assessments of managed and listed populations.
 ///

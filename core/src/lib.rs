@@ -12,7 +12,7 @@
 //! use popgauge::pipeline::{run_case, RunOptions};
 //! use popgauge::progress::Silent;
 //!
-//! let options = RunOptions { out: None, force: false, allow_outside: false, operator: None };
+//! let options = RunOptions { out: None, force: false, allow_outside: false, operator: None, trust: Default::default() };
 //! let summary = run_case(std::path::Path::new("demo-case"), &options, &mut Silent)?;
 //! println!("{} steps", summary.results.steps.len());
 //! # Ok::<(), popgauge::pipeline::RunError>(())

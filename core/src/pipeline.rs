@@ -9,6 +9,7 @@ use popgauge_abi::{Finding, FindingLevel};
 use crate::data::{DataError, LoadedData, load_data};
 use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
+use crate::host::PluginTrust;
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
 use crate::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
@@ -16,7 +17,7 @@ use crate::provenance::prov::ProvDocument;
 use crate::provenance::record::{
     AssessmentEntry, FileEntry, PROVENANCE_SCHEMA, PluginEntry, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
 };
-use crate::recipe::{InputFile, Recipe, RecipeError, load_recipe};
+use crate::recipe::{InputFile, Recipe, RecipeError, load_recipe_trusting};
 use crate::report::template::Template;
 use crate::report::{FileFacts, ReportError, ReportSource};
 use crate::results::ResultsDocument;
@@ -52,6 +53,8 @@ pub struct RunOptions {
     pub allow_outside: bool,
     /// Who ran the assessment, for the provenance record.
     pub operator: Option<String>,
+    /// Which plugin libraries may be loaded (default: every one the recipe pins).
+    pub trust: PluginTrust,
 }
 
 /// What a completed run produced.
@@ -90,7 +93,20 @@ pub struct LoadedCase {
 /// # Errors
 /// [`RunError::Recipe`] or [`RunError::Data`].
 pub fn load_case(case_dir: &Path, allow_outside: bool, progress: &mut dyn Progress) -> Result<LoadedCase, RunError> {
-    let recipe = load_recipe(case_dir, allow_outside)?;
+    load_case_trusting(case_dir, allow_outside, &PluginTrust::default(), progress)
+}
+
+/// Loads and checks a case, loading only the plugin libraries `trust` admits.
+///
+/// # Errors
+/// [`RunError::Recipe`] or [`RunError::Data`].
+pub fn load_case_trusting(
+    case_dir: &Path,
+    allow_outside: bool,
+    trust: &PluginTrust,
+    progress: &mut dyn Progress,
+) -> Result<LoadedCase, RunError> {
+    let recipe = load_recipe_trusting(case_dir, allow_outside, trust)?;
     let recipe_bytes = std::fs::read(&recipe.recipe_file.path)
         .map_err(|source| RecipeError::Unreadable { path: recipe.recipe_file.path.display().to_string(), source })?;
     let mut data = load_data(&recipe, progress)?;
@@ -142,7 +158,7 @@ pub fn assessment_fingerprint(case: &LoadedCase, engine: &EngineOutput) -> Strin
 pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progress) -> Result<RunSummary, RunError> {
     let started = now_rfc3339();
     let out = options.out.clone().unwrap_or_else(|| case_dir.join("out"));
-    let case = load_case(case_dir, options.allow_outside, progress)?;
+    let case = load_case_trusting(case_dir, options.allow_outside, &options.trust, progress)?;
     let input_paths: Vec<&Path> = case.recipe.input_files().iter().map(|f| f.path.as_path()).collect();
     check_target(&out, options.force, case_dir, &input_paths)?;
     let engine = run_steps(&case.recipe, &case.data, progress)?;

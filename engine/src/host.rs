@@ -13,11 +13,19 @@
 //! file the child maps into memory (zero-copy in the child), sends the rest as JSON on stdin,
 //! reads the result JSON from stdout, and stops the child after the step's time limit.
 //! `isolation = "in-process"` loads the library into popgauge itself ([`library`]): faster, but a
-//! crash of the library is a crash of popgauge.
+//! crash of the library is a crash of popgauge. The worker child restricts itself before it
+//! loads the library ([`sandbox`]): on Linux it reads only its inputs, writes only its scratch
+//! folder, opens no network socket, starts no process and has limits on memory and CPU time.
+//!
+//! Trust ([`PluginTrust`]): `run` and `check` load every library the recipe pins (its owner chose
+//! them); `verify` loads only the libraries whose SHA-256 the auditor names, so a case received
+//! from someone else runs none of its code unless told to.
 
 pub mod library;
+pub mod sandbox;
 pub mod worker;
 
+use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
 use std::time::Duration;
@@ -30,6 +38,9 @@ use crate::hash::sha256_hex;
 
 /// The time limit of an external step when the recipe gives none.
 pub const DEFAULT_TIMEOUT: Duration = Duration::from_secs(600);
+
+pub use sandbox::DEFAULT_MEMORY_LIMIT_MIB;
+pub use worker::Limits;
 
 /// Where an external library's code runs.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -131,6 +142,14 @@ pub enum LoadError {
         /// "crashed (signal 11, segmentation fault)", "did not answer within 600 s", …
         reason: String,
     },
+    /// The library is not trusted and nothing describes it without running it (`verify`).
+    #[error("{path} (SHA-256 {sha256}) is not trusted, and the provenance record does not describe it")]
+    Untrusted {
+        /// The path as written.
+        path: String,
+        /// The library's SHA-256.
+        sha256: String,
+    },
 }
 
 impl LoadError {
@@ -155,6 +174,9 @@ impl LoadError {
             LoadError::Descriptor { .. } | LoadError::Worker { .. } => {
                 "this is a defect in the plugin; report it to its author".into()
             }
+            LoadError::Untrusted { sha256, .. } => {
+                format!("review the library, then give `--trust-plugin {sha256}` to run it")
+            }
         }
     }
 }
@@ -170,8 +192,29 @@ pub struct PluginSpec {
     pub expected_sha256: Option<String>,
     /// Where its code runs.
     pub isolation: Isolation,
-    /// The time limit of each call in a child process.
-    pub timeout: Duration,
+    /// The time and memory limits of each call in a child process.
+    pub limits: Limits,
+}
+
+/// Which plugin libraries a recipe may load (run the code of), and who is told before one is.
+#[derive(Debug, Clone, Default)]
+pub struct PluginTrust {
+    /// `None`: every library the recipe pins (`run`, `check`: the recipe's owner chose them).
+    /// `Some`: only the libraries with these SHA-256 hashes (`verify --trust-plugin`); the
+    /// others are withheld: never loaded, described by `recorded`, and their steps not run.
+    pub only: Option<BTreeSet<String>>,
+    /// Descriptors by SHA-256 (from a provenance record) standing in for withheld libraries.
+    pub recorded: BTreeMap<String, Descriptor>,
+    /// Told of each library just before it is loaded (its pin already checked): the step id,
+    /// the library as the recipe names it, and its SHA-256.
+    pub announce: Option<fn(&str, &PluginSpec, &str)>,
+}
+
+impl PluginTrust {
+    /// Whether the library with this SHA-256 may be loaded.
+    pub fn admits(&self, sha256: &str) -> bool {
+        self.only.as_ref().is_none_or(|trusted| trusted.contains(sha256))
+    }
 }
 
 /// What the provenance record keeps about a plugin step.
@@ -227,7 +270,13 @@ pub struct ExternalStep {
 
 enum Runner {
     InProcess(library::LoadedLibrary),
-    Process { library: PathBuf, scratch: Arc<PluginScratch>, timeout: Duration },
+    Process {
+        library: PathBuf,
+        scratch: Arc<PluginScratch>,
+        limits: Limits,
+    },
+    /// Not trusted: never loaded, and its step is not run.
+    Withheld,
 }
 
 impl std::fmt::Debug for ExternalStep {
@@ -241,6 +290,18 @@ impl ExternalStep {
     pub fn record(&self) -> &PluginRecord {
         &self.record
     }
+
+    /// Whether its library was withheld (not trusted, never loaded).
+    pub fn is_withheld(&self) -> bool {
+        matches!(self.runner, Runner::Withheld)
+    }
+}
+
+/// Why a withheld plugin step does not run, e.g. `plugin code not trusted (SHA-256 3f07a1b2…e0a1)`.
+pub fn not_trusted(sha256: &str) -> String {
+    let short =
+        if sha256.len() > 12 { format!("{}…{}", &sha256[..8], &sha256[sha256.len() - 4..]) } else { sha256.into() };
+    format!("plugin code not trusted (SHA-256 {short})")
 }
 
 impl Step for ExternalStep {
@@ -250,18 +311,28 @@ impl Step for ExternalStep {
 
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
         let request = request_json(ctx).map_err(|e| StepError::new(format!("the request cannot be written: {e}")))?;
-        let (status, bytes) = match &self.runner {
-            Runner::InProcess(library) => library.run(&ctx.view, &request)?,
-            Runner::Process { library, scratch, timeout } => worker::run_in_child(worker::RunCall {
-                library,
-                shown: &self.record.path,
-                scratch,
-                view: &ctx.view,
-                request: &request,
-                timeout: *timeout,
-            })?,
+        let (status, bytes, sandbox) = match &self.runner {
+            Runner::InProcess(library) => {
+                let (status, bytes) = library.run(&ctx.view, &request)?;
+                (status, bytes, None)
+            }
+            Runner::Withheld => return Err(StepError::new(format!("not run: {}", not_trusted(&self.record.sha256)))),
+            Runner::Process { library, scratch, limits } => {
+                let (status, bytes, sandbox) = worker::run_in_child(worker::RunCall {
+                    library,
+                    shown: &self.record.path,
+                    scratch,
+                    view: &ctx.view,
+                    request: &request,
+                    limits: *limits,
+                })?;
+                (status, bytes, Some(sandbox))
+            }
         };
-        interpret_output(status, &bytes)
+        let mut output = interpret_output(status, &bytes)?;
+        // A worker without its sandbox says so in the step's findings (and so in the document).
+        output.findings.extend(sandbox.and_then(|s| s.finding(&self.record.path)));
+        Ok(output)
     }
 }
 
@@ -317,15 +388,42 @@ fn io_reason(e: &std::io::Error) -> String {
 /// # Errors
 /// The [`LoadError`] of the first check that fails.
 pub fn load_plugin(spec: &PluginSpec, scratch: &Arc<PluginScratch>) -> Result<ExternalStep, LoadError> {
+    load_plugin_trusting(spec, scratch, &PluginTrust::default(), "")
+}
+
+/// Loads a plugin library for step `step_id` if `trust` admits its SHA-256; otherwise returns
+/// it withheld, described by the recorded descriptor, without running any of its code.
+///
+/// # Errors
+/// The [`LoadError`] of the first check that fails; [`LoadError::Untrusted`] when a withheld
+/// library has no recorded descriptor.
+pub fn load_plugin_trusting(
+    spec: &PluginSpec,
+    scratch: &Arc<PluginScratch>,
+    trust: &PluginTrust,
+    step_id: &str,
+) -> Result<ExternalStep, LoadError> {
     let (copy, sha256) = verified_copy(spec, scratch)?;
+    if !trust.admits(&sha256) {
+        let descriptor = trust
+            .recorded
+            .get(&sha256)
+            .cloned()
+            .ok_or_else(|| LoadError::Untrusted { path: spec.shown.clone(), sha256: sha256.clone() })?;
+        let record = PluginRecord { path: spec.shown.clone(), sha256, isolation: spec.isolation, descriptor };
+        return Ok(ExternalStep { record, runner: Runner::Withheld });
+    }
+    if let Some(announce) = trust.announce {
+        announce(step_id, spec, &sha256);
+    }
     let (descriptor, runner) = match spec.isolation {
         Isolation::InProcess => {
             let library = library::LoadedLibrary::open(&copy, &spec.shown)?;
             (library.describe(&spec.shown)?, Runner::InProcess(library))
         }
         Isolation::Process => {
-            let descriptor = worker::describe_in_child(&copy, &spec.shown, spec.timeout)?;
-            (descriptor, Runner::Process { library: copy, scratch: Arc::clone(scratch), timeout: spec.timeout })
+            let descriptor = worker::describe_in_child(&copy, &spec.shown, spec.limits)?;
+            (descriptor, Runner::Process { library: copy, scratch: Arc::clone(scratch), limits: spec.limits })
         }
     };
     let record = PluginRecord { path: spec.shown.clone(), sha256, isolation: spec.isolation, descriptor };

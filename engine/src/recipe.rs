@@ -18,7 +18,7 @@ use crate::host::{LoadError, PluginRecord};
 
 use crate::source::Location;
 
-pub use resolve::load_recipe;
+pub use resolve::{load_recipe, load_recipe_trusting};
 
 /// The name of the recipe file inside a case folder.
 pub const RECIPE_FILE: &str = "case.toml";

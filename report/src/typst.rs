@@ -121,6 +121,23 @@ fn pdf_options(job: &TypesetJob<'_>) -> Result<PdfOptions, ReportError> {
     })
 }
 
+/// Typst's hints in popgauge's terms: popgauge has no `--root` argument, and a template's
+/// "project" is its own folder, so the hints about leaving it become one that says so.
+fn our_hints(hints: impl Iterator<Item = String>) -> Vec<String> {
+    let mut ours: Vec<String> = Vec::new();
+    for hint in hints {
+        let about_root = hint.contains("--root") || hint.contains("outside of the project");
+        let hint = if about_root { TEMPLATE_FOLDER_HINT.to_string() } else { hint };
+        if !ours.contains(&hint) {
+            ours.push(hint);
+        }
+    }
+    ours
+}
+
+/// What a template may read.
+const TEMPLATE_FOLDER_HINT: &str = "a template can read only files in its own folder";
+
 /// The first error as a readable message: template file, line and column, what Typst said.
 fn compile_error(
     engine: &TypstEngine,
@@ -150,8 +167,24 @@ fn compile_error(
         file,
         line,
         column,
-        message: first.message.to_string(),
-        hints: first.hints.iter().map(|h| h.v.to_string()).collect(),
+        message: first.message.replace("would escape the project root", "would leave the template folder").to_string(),
+        hints: our_hints(first.hints.iter().map(|h| h.v.to_string())),
         more: errors.len().saturating_sub(1),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Typst's hints name a `--root` argument popgauge does not have; ours say what holds.
+    #[test]
+    fn hints_about_the_project_root_are_ours() {
+        let typst = [
+            "cannot access files outside of the project sandbox".to_string(),
+            "you can adjust the project root with the `--root` argument".to_string(),
+            "did you mean title?".to_string(),
+        ];
+        assert_eq!(our_hints(typst.into_iter()), vec![TEMPLATE_FOLDER_HINT.to_string(), "did you mean title?".into()]);
     }
 }

@@ -6,6 +6,7 @@ use std::process::ExitCode;
 use popgauge_abi::FindingLevel;
 
 use super::{EXIT_FINDINGS, StderrProgress, configure_threads};
+use crate::host::{Isolation, PluginSpec, PluginTrust};
 use crate::pipeline::{RunOptions, RunSummary, run_case};
 
 /// Arguments of `popgauge run`.
@@ -43,7 +44,14 @@ pub struct Args {
 pub fn run(args: Args) -> anyhow::Result<ExitCode> {
     // Ctrl-C removes the temporary output folder and plugin copies, and exits 130.
     crate::interrupt::install_handler().map_err(|e| anyhow::anyhow!("cannot watch for Ctrl-C: {e}"))?;
-    let options = RunOptions { out: args.out.clone(), force: args.force, allow_outside: args.allow_outside, operator: args.operator.clone() };
+    let trust = PluginTrust { announce: Some(announce_plugin), ..PluginTrust::default() };
+    let options = RunOptions {
+        out: args.out.clone(),
+        force: args.force,
+        allow_outside: args.allow_outside,
+        operator: args.operator.clone(),
+        trust,
+    };
     configure_threads(args.threads)?;
     let mut progress = StderrProgress::new(args.quiet);
     let summary = run_case(&args.case, &options, &mut progress)?;
@@ -57,6 +65,18 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
         return Ok(ExitCode::from(EXIT_FINDINGS));
     }
     Ok(ExitCode::SUCCESS)
+}
+
+/// Says which plugin library is about to be loaded, and where its code runs: the recipe's
+/// owner chose it, but whoever runs the case should see what code runs with their rights.
+fn announce_plugin(step: &str, spec: &PluginSpec, sha256: &str) {
+    let runs = match spec.isolation {
+        Isolation::Process => "its code runs in a sandboxed worker process",
+        Isolation::InProcess => {
+            "its code runs inside popgauge with your rights, without a sandbox (isolation = \"in-process\")"
+        }
+    };
+    eprintln!("note: step \"{step}\" loads the plugin library {} (SHA-256 {sha256}); {runs}", spec.shown);
 }
 
 fn print_summary(summary: &RunSummary) {

@@ -7,7 +7,9 @@ use std::process::ExitCode;
 use popgauge_abi::{Descriptor, ParamKind};
 use popgauge_builtin::steps::BUILTIN;
 
-use crate::host::{DEFAULT_TIMEOUT, Isolation, PluginScratch, PluginSpec, load_plugin};
+use crate::host::{
+    DEFAULT_MEMORY_LIMIT_MIB, DEFAULT_TIMEOUT, Isolation, Limits, PluginScratch, PluginSpec, load_plugin,
+};
 
 /// Arguments of `popgauge steps`.
 #[derive(Debug, clap::Args)]
@@ -64,7 +66,7 @@ fn describe_plugin(path: &std::path::Path, args: &Args) -> anyhow::Result<ExitCo
         path: path.to_path_buf(),
         expected_sha256: None,
         isolation: if args.in_process { Isolation::InProcess } else { Isolation::Process },
-        timeout: DEFAULT_TIMEOUT,
+        limits: Limits { timeout: DEFAULT_TIMEOUT, memory_mib: DEFAULT_MEMORY_LIMIT_MIB },
     };
     let scratch = PluginScratch::new()?;
     let step = load_plugin(&spec, &scratch).map_err(|e| anyhow::anyhow!("{e}\n  help: {}", e.help()))?;
@@ -116,7 +118,9 @@ fn recipe_path(library: &std::path::Path, case: Option<&std::path::Path>) -> Opt
     // The case folder as the user would type it: relative to the current folder when inside it.
     let shown_case = match (case, std::env::current_dir().ok().and_then(|d| std::fs::canonicalize(d).ok())) {
         (Some(given), _) => given.to_path_buf(),
-        (None, Some(here)) => case_dir.strip_prefix(&here).map_or_else(|_| case_dir.clone(), std::path::Path::to_path_buf),
+        (None, Some(here)) => {
+            case_dir.strip_prefix(&here).map_or_else(|_| case_dir.clone(), std::path::Path::to_path_buf)
+        }
         (None, None) => case_dir.clone(),
     };
     Some((shown_case, parts.join("/")))

@@ -1,11 +1,12 @@
 //! `popgauge verify PROVENANCE`: reproduce an assessment from its provenance record.
 
+use std::collections::BTreeSet;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use super::{EXIT_DIFFERENCES, StderrProgress, configure_threads};
+use super::{EXIT_DIFFERENCES, EXIT_UNTRUSTED_PLUGINS, StderrProgress, configure_threads};
 use crate::provenance::signature::read_public_key;
-use crate::audit::{add_signature_check, record_in, verify};
+use crate::audit::{VerifyOptions, VerifyReport, add_signature_check, record_in, verify};
 
 /// Arguments of `popgauge verify`.
 #[derive(Debug, clap::Args)]
@@ -19,6 +20,10 @@ pub struct Args {
     /// Check the record's signature (provenance.json.sig) against this ed25519 public key (PEM).
     #[arg(long, value_name = "FILE")]
     pub public_key: Option<PathBuf>,
+    /// Run the code of the plugin library with this SHA-256 (repeatable); without it, plugin
+    /// steps are not re-run, since a case's author wrote both its library and the hash.
+    #[arg(long = "trust-plugin", value_name = "SHA256", value_parser = parse_sha256)]
+    pub trust_plugin: Vec<String>,
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
@@ -36,7 +41,11 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
     let record = if args.provenance.is_dir() { record_in(&args.provenance) } else { args.provenance.clone() };
     // A bad key file is refused before any work.
     let key = args.public_key.as_deref().map(read_public_key).transpose()?;
-    let mut report = verify(&record, args.data.as_deref(), &mut StderrProgress::new(args.quiet))?;
+    let options = VerifyOptions {
+        data: args.data.clone(),
+        trusted_plugins: args.trust_plugin.iter().cloned().collect::<BTreeSet<_>>(),
+    };
+    let mut report = verify(&record, &options, &mut StderrProgress::new(args.quiet))?;
     add_signature_check(&mut report, &record, key.as_ref());
     for note in &report.notes {
         println!("{note}");
@@ -44,12 +53,42 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
     for item in &report.items {
         println!("{item}");
     }
+    Ok(verdict(&report))
+}
+
+/// The closing line and the exit code.
+fn verdict(report: &VerifyReport) -> ExitCode {
     let differences = report.differences();
-    if differences == 0 {
-        println!("verified: every input, step and output is the same as recorded");
-        Ok(ExitCode::SUCCESS)
-    } else {
+    let not_checked = report.not_checked();
+    if differences > 0 {
         println!("NOT verified: {differences} item(s) differ from the record");
-        Ok(ExitCode::from(EXIT_DIFFERENCES))
+        ExitCode::from(EXIT_DIFFERENCES)
+    } else if not_checked > 0 {
+        let steps: Vec<String> = report.withheld.iter().map(|w| format!("\"{}\"", w.id)).collect();
+        println!(
+            "verified except {not_checked} item(s): plugin step(s) {} not re-run (their code is not trusted) and what depends on them",
+            steps.join(", ")
+        );
+        for step in &report.withheld {
+            println!(
+                "  help: review {} (step \"{}\"), then add --trust-plugin {} to re-run it",
+                step.library, step.id, step.sha256
+            );
+        }
+        ExitCode::from(EXIT_UNTRUSTED_PLUGINS)
+    } else {
+        println!("verified: every input, step and output is the same as recorded");
+        ExitCode::SUCCESS
+    }
+}
+
+/// A SHA-256 as 64 hexadecimal digits (any case), kept in lower case.
+fn parse_sha256(text: &str) -> Result<String, String> {
+    if text.len() == 64 && text.chars().all(|c| c.is_ascii_hexdigit()) {
+        Ok(text.to_ascii_lowercase())
+    } else {
+        Err(format!(
+            "\"{text}\" is not a SHA-256 (64 hexadecimal digits); the record's plugin lines and `popgauge steps --plugin` print it"
+        ))
     }
 }

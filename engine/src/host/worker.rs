@@ -6,6 +6,10 @@
 //! parameters, earlier results) travels as JSON on the child's stdin, and the answer as JSON on
 //! its stdout. The child moves its own stdout aside before loading the library, so a plugin
 //! that prints cannot corrupt the answer.
+//!
+//! Each call gets its own scratch folder (the child's working folder and `TMPDIR`, removed
+//! after the call), and the child restricts itself ([`super::sandbox`]) before it loads the
+//! library: it reports what was in force with its answer.
 
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
@@ -16,6 +20,7 @@ use popgauge_abi::{AlleleCode, Descriptor, GenotypeMatrix, GenotypeView, LocusMe
 use serde::{Deserialize, Serialize};
 
 use super::library::LoadedLibrary;
+use super::sandbox::{SandboxPlan, SandboxState};
 use super::{LoadError, PluginScratch, parse_descriptor};
 
 /// Environment variable naming the executable to run as the worker (default: this executable).
@@ -34,6 +39,7 @@ pub struct GenotypeFile {
 struct WorkerRequest {
     library: PathBuf,
     shown: String,
+    sandbox: SandboxPlan,
     #[serde(flatten)]
     action: Action,
 }
@@ -73,8 +79,8 @@ struct WireLocus {
 #[derive(Debug, Serialize, Deserialize)]
 #[serde(tag = "answer", rename_all = "kebab-case")]
 enum WorkerResponse {
-    /// The library's status and bytes, from `describe` or `run`.
-    Called { status: i32, output: String },
+    /// The library's status and bytes, from `describe` or `run`, and the sandbox it ran in.
+    Called { status: i32, output: String, sandbox: SandboxState },
     /// The library was refused while loading.
     Refused { error: LoadError },
     /// The worker could not do what was asked (bad request, unreadable genotype file).
@@ -85,6 +91,11 @@ enum WorkerResponse {
 enum ChildFailure {
     Spawn(String),
     Crashed(String),
+    /// Stopped by the sandbox or a resource limit: what happened, and a `help:` text.
+    Stopped {
+        what: String,
+        help: String,
+    },
     TimedOut(Duration),
     Exited(String),
     Garbled(String),
@@ -95,6 +106,7 @@ impl ChildFailure {
         match self {
             ChildFailure::Spawn(e) => format!("could not be started in a worker process ({e})"),
             ChildFailure::Crashed(how) => format!("crashed ({how})"),
+            ChildFailure::Stopped { what, help } => format!("{what}\n  help: {help}"),
             ChildFailure::TimedOut(limit) => format!("did not finish within {} s and was stopped", limit.as_secs_f64()),
             ChildFailure::Exited(how) => how.clone(),
             ChildFailure::Garbled(e) => format!("answered with something that is not the worker protocol ({e})"),
@@ -106,11 +118,17 @@ impl ChildFailure {
 ///
 /// # Errors
 /// The child's [`LoadError`], or [`LoadError::Worker`] when it crashed or hung.
-pub fn describe_in_child(library: &Path, shown: &str, timeout: Duration) -> Result<Descriptor, LoadError> {
-    let request = WorkerRequest { library: library.into(), shown: shown.into(), action: Action::Describe };
+pub fn describe_in_child(library: &Path, shown: &str, limits: Limits) -> Result<Descriptor, LoadError> {
     let worker_failed = |f: ChildFailure| LoadError::Worker { path: shown.into(), reason: f.reason() };
-    match call_child(&request, timeout).map_err(worker_failed)? {
-        WorkerResponse::Called { status: popgauge_abi::ffi::STATUS_OK, output } => {
+    let work = WorkFolder::beside(library).map_err(|e| worker_failed(ChildFailure::Spawn(e.to_string())))?;
+    let request = WorkerRequest {
+        library: library.into(),
+        shown: shown.into(),
+        sandbox: limits.plan(vec![library.into()], work.path()),
+        action: Action::Describe,
+    };
+    match call_child(&request, limits.timeout).map_err(worker_failed)? {
+        WorkerResponse::Called { status: popgauge_abi::ffi::STATUS_OK, output, .. } => {
             parse_descriptor(output.as_bytes(), shown)
         }
         WorkerResponse::Called { output, .. } => {
@@ -118,6 +136,44 @@ pub fn describe_in_child(library: &Path, shown: &str, timeout: Duration) -> Resu
         }
         WorkerResponse::Refused { error } => Err(error),
         WorkerResponse::Failed { message } => Err(LoadError::Worker { path: shown.into(), reason: message }),
+    }
+}
+
+/// The limits of a worker: wall-clock time and memory.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Limits {
+    /// The time limit of one call (wall clock).
+    pub timeout: Duration,
+    /// The limit of the worker's writable memory, in MiB.
+    pub memory_mib: u64,
+}
+
+impl Limits {
+    /// The sandbox of a call that may read `read` and write `work`. CPU time is limited to the
+    /// time limit on every processor, so a worker left behind cannot spin for ever.
+    fn plan(self, read: Vec<PathBuf>, work: &Path) -> SandboxPlan {
+        let processors = std::thread::available_parallelism().map_or(1, |n| n.get() as u64);
+        SandboxPlan {
+            read,
+            write: work.to_path_buf(),
+            memory_bytes: self.memory_mib.saturating_mul(1 << 20),
+            cpu_seconds: self.timeout.as_secs().max(1).saturating_mul(processors),
+        }
+    }
+}
+
+/// The scratch folder of one call: the child's working folder, removed after the call.
+struct WorkFolder(tempfile::TempDir);
+
+impl WorkFolder {
+    /// A new folder beside the library copy (in the run's private plugin folder).
+    fn beside(library: &Path) -> std::io::Result<WorkFolder> {
+        let parent = library.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
+        Ok(WorkFolder(tempfile::Builder::new().prefix("worker-").tempdir_in(parent)?))
+    }
+
+    fn path(&self) -> &Path {
+        self.0.path()
     }
 }
 
@@ -133,17 +189,20 @@ pub struct RunCall<'a> {
     pub view: &'a GenotypeView<'a>,
     /// The request JSON.
     pub request: &'a [u8],
-    /// The time limit.
-    pub timeout: Duration,
+    /// The time and memory limits.
+    pub limits: Limits,
 }
 
-/// Runs the step in a child; returns the library's status and bytes.
+/// Runs the step in a child; returns the library's status and bytes and the sandbox it ran in.
 ///
 /// # Errors
 /// A [`StepError`] saying how the child failed (crash with the signal, time limit, …).
-pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
+pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>, SandboxState), StepError> {
     let genotypes = genotype_file(call.scratch, call.view.matrix())
         .map_err(|e| StepError::new(format!("the genotype file for the plugin worker cannot be written: {e}")))?;
+    let work = WorkFolder::beside(call.library)
+        .map_err(|e| StepError::new(format!("the scratch folder for the plugin worker cannot be made: {e}")))?;
+    let sandbox = call.limits.plan(vec![call.library.into(), genotypes.clone()], work.path());
     let matrix = call.view.matrix();
     let payload = RunPayload {
         genotypes,
@@ -167,9 +226,9 @@ pub fn run_in_child(call: RunCall<'_>) -> Result<(i32, Vec<u8>), StepError> {
         request: String::from_utf8_lossy(call.request).into_owned(),
     };
     let request =
-        WorkerRequest { library: call.library.into(), shown: call.shown.into(), action: Action::Run(payload) };
-    match call_child(&request, call.timeout).map_err(|f| StepError::new(format!("the plugin {}", f.reason())))? {
-        WorkerResponse::Called { status, output } => Ok((status, output.into_bytes())),
+        WorkerRequest { library: call.library.into(), shown: call.shown.into(), sandbox, action: Action::Run(payload) };
+    match call_child(&request, call.limits.timeout).map_err(|f| StepError::new(format!("the plugin {}", f.reason())))? {
+        WorkerResponse::Called { status, output, sandbox } => Ok((status, output.into_bytes(), sandbox)),
         WorkerResponse::Refused { error } => Err(StepError::new(error.to_string())),
         WorkerResponse::Failed { message } => Err(StepError::new(format!("the plugin worker failed: {message}"))),
     }
@@ -208,6 +267,8 @@ fn call_child(request: &WorkerRequest, timeout: Duration) -> Result<WorkerRespon
     let mut child = crate::interrupt::spawn_worker(
         Command::new(executable)
             .arg("plugin-worker")
+            .current_dir(&request.sandbox.write)
+            .env("TMPDIR", &request.sandbox.write)
             .stdin(Stdio::piped())
             .stdout(Stdio::piped())
             .stderr(Stdio::piped()),
@@ -227,7 +288,7 @@ fn call_child(request: &WorkerRequest, timeout: Duration) -> Result<WorkerRespon
     let output = stdout.and_then(|h| h.join().ok()).unwrap_or_default();
     let errors = stderr.and_then(|h| h.join().ok()).unwrap_or_default();
     if let Some(how) = signal_of(&status) {
-        return Err(ChildFailure::Crashed(how));
+        return Err(stopped_by_sandbox(&status, &errors, &request.sandbox).unwrap_or(ChildFailure::Crashed(how)));
     }
     if !status.success() {
         let said = String::from_utf8_lossy(&errors).lines().last().unwrap_or("").trim().to_string();
@@ -268,6 +329,40 @@ fn wait_with_limit(child: &crate::interrupt::Worker, timeout: Duration) -> Resul
     }
 }
 
+/// How a child ended by the sandbox or a resource limit is explained: a forbidden system call
+/// (SIGSYS), the CPU time limit (SIGXCPU, or SIGKILL past the hard limit is not told apart from
+/// other kills), an allocation refused under the memory limit (Rust's message, then SIGABRT).
+#[cfg(unix)]
+fn stopped_by_sandbox(status: &ExitStatus, errors: &[u8], plan: &SandboxPlan) -> Option<ChildFailure> {
+    use std::os::unix::process::ExitStatusExt;
+    let said = String::from_utf8_lossy(errors);
+    let allocation = said.lines().rev().find(|l| l.starts_with("memory allocation of ")).map(str::trim);
+    match status.signal()? {
+        libc::SIGSYS => Some(ChildFailure::Stopped {
+            what: "was stopped by the worker's sandbox (signal 31): it tried to open a network socket, start a process or program, or trace another process".into(),
+            help: "a plugin step may only compute on the data it is given; ask the plugin's author what it tried to do".into(),
+        }),
+        libc::SIGXCPU => Some(ChildFailure::Stopped {
+            what: format!("was stopped after {} s of CPU time, the worker's limit (signal 24)", plan.cpu_seconds),
+            help: "raise `timeout_seconds` for this step if the plugin needs more time".into(),
+        }),
+        libc::SIGABRT if allocation.is_some() => Some(ChildFailure::Stopped {
+            what: format!(
+                "ran out of memory: {} (the worker's limit is {} MiB)",
+                allocation.unwrap_or_default(),
+                plan.memory_bytes >> 20
+            ),
+            help: "raise `memory_limit_mib` for this step if the plugin needs more memory".into(),
+        }),
+        _ => None,
+    }
+}
+
+#[cfg(not(unix))]
+fn stopped_by_sandbox(_status: &ExitStatus, _errors: &[u8], _plan: &SandboxPlan) -> Option<ChildFailure> {
+    None
+}
+
 /// "signal 11, segmentation fault" when the child was ended by a signal.
 #[cfg(unix)]
 fn signal_of(status: &ExitStatus) -> Option<String> {
@@ -283,6 +378,8 @@ fn signal_of(status: &ExitStatus) -> Option<String> {
         11 => "segmentation fault",
         13 => "broken pipe",
         15 => "terminated",
+        24 => "CPU time limit exceeded",
+        31 => "bad system call",
         _ => "",
     };
     Some(if name.is_empty() { format!("signal {signal}") } else { format!("signal {signal}, {name}") })
@@ -342,6 +439,8 @@ fn set_stdout_aside() -> std::io::Result<std::fs::File> {
 }
 
 fn answer(request: WorkerRequest) -> WorkerResponse {
+    // Before the library is loaded: its initialisers run inside the sandbox too.
+    let sandbox = super::sandbox::apply(&request.sandbox);
     let library = match LoadedLibrary::open(&request.library, &request.shown) {
         Ok(library) => library,
         Err(error) => return WorkerResponse::Refused { error },
@@ -349,13 +448,13 @@ fn answer(request: WorkerRequest) -> WorkerResponse {
     match request.action {
         Action::Describe => {
             let (status, bytes) = library.describe_raw();
-            WorkerResponse::Called { status, output: String::from_utf8_lossy(&bytes).into_owned() }
+            WorkerResponse::Called { status, output: String::from_utf8_lossy(&bytes).into_owned(), sandbox }
         }
-        Action::Run(payload) => run_payload(&library, payload),
+        Action::Run(payload) => run_payload(&library, payload, sandbox),
     }
 }
 
-fn run_payload(library: &LoadedLibrary, payload: RunPayload) -> WorkerResponse {
+fn run_payload(library: &LoadedLibrary, payload: RunPayload, sandbox: SandboxState) -> WorkerResponse {
     let failed = |message: String| WorkerResponse::Failed { message };
     let file = match std::fs::File::open(&payload.genotypes) {
         Ok(f) => f,
@@ -400,7 +499,9 @@ fn run_payload(library: &LoadedLibrary, payload: RunPayload) -> WorkerResponse {
     }
     let view = GenotypeView::new(&matrix, &payload.active_samples, &payload.active_loci);
     match library.run(&view, payload.request.as_bytes()) {
-        Ok((status, bytes)) => WorkerResponse::Called { status, output: String::from_utf8_lossy(&bytes).into_owned() },
+        Ok((status, bytes)) => {
+            WorkerResponse::Called { status, output: String::from_utf8_lossy(&bytes).into_owned(), sandbox }
+        }
         Err(e) => failed(e.message),
     }
 }

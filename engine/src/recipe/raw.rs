@@ -154,6 +154,11 @@ pub struct RawStep {
     #[serde(default)]
     #[schemars(with = "Option<u64>")]
     pub timeout_seconds: Option<Spanned<i64>>,
+    /// Memory limit in MiB of a `plugin:` step run in a child process (default 8192); a plugin
+    /// that needs more is stopped and the step marked failed.
+    #[serde(default)]
+    #[schemars(with = "Option<u64>")]
+    pub memory_limit_mib: Option<Spanned<i64>>,
     /// The step's parameters; `popgauge steps` lists them.
     #[serde(default)]
     #[schemars(with = "Option<BTreeMap<String, serde_json::Value>>")]

@@ -16,7 +16,10 @@ use super::{
     InputFile, PlannedStep, RECIPE_FILE, Recipe, RecipeError, ReportSpec, SiteFilters,
 };
 use crate::dates::{CivilDate, today};
-use crate::host::{DEFAULT_TIMEOUT, Isolation, LoadError, PluginSpec, PluginScratch, load_plugin};
+use crate::host::{
+    DEFAULT_MEMORY_LIMIT_MIB, DEFAULT_TIMEOUT, Isolation, Limits, LoadError, PluginScratch, PluginSpec, PluginTrust,
+    load_plugin_trusting,
+};
 use crate::source::Location;
 
 /// Reads and resolves `CASE/case.toml`.
@@ -26,12 +29,20 @@ use crate::source::Location;
 /// # Errors
 /// A [`RecipeError`] naming the file, line and key, with a `help:` line.
 pub fn load_recipe(case_dir: &Path, allow_outside: bool) -> Result<Recipe, RecipeError> {
+    load_recipe_trusting(case_dir, allow_outside, &PluginTrust::default())
+}
+
+/// Reads and resolves `CASE/case.toml`, loading only the plugin libraries `trust` admits.
+///
+/// # Errors
+/// As [`load_recipe`].
+pub fn load_recipe_trusting(case_dir: &Path, allow_outside: bool, trust: &PluginTrust) -> Result<Recipe, RecipeError> {
     let recipe_path = case_dir.join(RECIPE_FILE);
     let bytes = std::fs::read(&recipe_path)
         .map_err(|source| RecipeError::Unreadable { path: recipe_path.display().to_string(), source })?;
     let text = decode_recipe(&bytes)?;
     let raw = parse(&text)?;
-    Resolver { case_dir, text: &text, allow_outside, scratch: OnceCell::new() }.resolve(raw, recipe_path)
+    Resolver { case_dir, text: &text, allow_outside, trust, scratch: OnceCell::new() }.resolve(raw, recipe_path)
 }
 
 /// Largest recipe accepted (1 MiB): a recipe is a page of settings; anything larger is not one.
@@ -117,6 +128,7 @@ struct Resolver<'a> {
     case_dir: &'a Path,
     text: &'a str,
     allow_outside: bool,
+    trust: &'a PluginTrust,
     /// Private folder for plugin library copies, made when the first plugin step is planned.
     scratch: OnceCell<Arc<PluginScratch>>,
 }
@@ -395,6 +407,13 @@ impl Resolver<'_> {
                 "remove the `timeout_seconds` line",
             ));
         }
+        if let Some(memory) = &step.memory_limit_mib {
+            return Err(self.invalid(
+                memory,
+                "`memory_limit_mib` applies to external plugin steps only".into(),
+                "remove the `memory_limit_mib` line",
+            ));
+        }
         let params = self.resolve_params(step, line, &implementation.descriptor())?;
         Ok(PlannedStep {
             id: step.id.get_ref().clone(),
@@ -422,7 +441,7 @@ impl Resolver<'_> {
         let id = step.id.get_ref();
         let spec = self.plugin_spec(step, path)?;
         let scratch = self.plugin_scratch(&step.uses)?;
-        let external = load_plugin(&spec, &scratch).map_err(|error| {
+        let external = load_plugin_trusting(&spec, &scratch, self.trust, id).map_err(|error| {
             let line_of = |s: &Spanned<String>| self.at(s).line.unwrap_or(line);
             let at_line = match (&error, &step.sha256) {
                 (LoadError::Sha256 { .. }, Some(sha)) => line_of(sha),
@@ -497,7 +516,22 @@ impl Resolver<'_> {
             }
             Some(t) => Duration::from_secs(*t.get_ref() as u64),
         };
-        Ok(PluginSpec { shown: path.into(), path: self.case_dir.join(written), expected_sha256, isolation, timeout })
+        let memory_mib = match &step.memory_limit_mib {
+            None => DEFAULT_MEMORY_LIMIT_MIB,
+            Some(m) if !(64..=1_048_576).contains(m.get_ref()) => {
+                return Err(self.invalid(
+                    m,
+                    format!(
+                        "`memory_limit_mib` is {}, but it must be a whole number of MiB from 64 to 1048576",
+                        m.get_ref()
+                    ),
+                    &format!("for example {DEFAULT_MEMORY_LIMIT_MIB} (8 GiB, the default)"),
+                ));
+            }
+            Some(m) => *m.get_ref() as u64,
+        };
+        let limits = Limits { timeout, memory_mib };
+        Ok(PluginSpec { shown: path.into(), path: self.case_dir.join(written), expected_sha256, isolation, limits })
     }
 
     fn plugin_scratch(&self, at: &Spanned<String>) -> Result<Arc<PluginScratch>, RecipeError> {

@@ -109,6 +109,14 @@ pub(crate) fn step_prose(
     }
 }
 
+/// The sentence added to a plugin step's prose when its worker ran without (part of) the
+/// operating system's sandbox (finding `worker-not-sandboxed`).
+pub(crate) fn unsandboxed(id: &str) -> String {
+    format!(
+        " The code of step {id} ran in a separate worker process, but without the operating system's sandbox that popgauge uses where the kernel offers one (its findings say what was missing), so it was not confined to reading its inputs."
+    )
+}
+
 fn trimmed(value: f64) -> String {
     format::significant(value, 3).trim_end_matches('0').trim_end_matches('.').to_string()
 }
@@ -208,5 +216,6 @@ mod tests {
         assert!(temporal.contains("plan I, where") && temporal.contains("/ 2 years per generation"), "{temporal}");
         let plugin = step_prose("kin", "plugin:libkin.so", &BTreeMap::new(), None);
         assert!(plugin.contains("external step library libkin.so"), "{plugin}");
+        assert!(unsandboxed("kin").starts_with(" The code of step kin ran in a separate worker process, but without"));
     }
 }
