@@ -345,7 +345,7 @@ fn d_and_gst_pp_intervals_share_the_fst_replicates() {
     }
 }
 
-/// DESIGN (no null without a finding): with one bootstrap replicate no interval can be formed,
+/// No null without a finding saying why: with one bootstrap replicate no interval can be formed,
 /// so jost_d_low … gst_pp_high are null beside defined points, and one
 /// `differentiation-interval-undefined` finding names every comparison and statistic (as
 /// `fst-interval-undefined` does for FST).
@@ -876,7 +876,7 @@ fn nothing_to_compare() {
     assert_eq!(number(table(&by_year, "pairwise"), 0, "fst_p"), None);
 }
 
-/// DESIGN results contract: the minimum columns of `pairwise` and `global`; the usual cautions
+/// The results contract: the minimum columns of `pairwise` and `global`; the usual cautions
 /// reach the reader; every method used is cited.
 #[test]
 fn contract_columns_cautions_and_citations() {

@@ -321,7 +321,7 @@ fn same_chromosome_pairs_are_skipped() {
     assert!(findings_with(&kept, "same-chromosome-pairs-skipped").is_empty());
 }
 
-/// `max_loci` (DESIGN parameter): a seeded subset of that many loci, the same on every run,
+/// `max_loci` caps the panel at a seeded subset of that many loci, the same on every run and
 /// listed in a finding (common practice for reproducibility).
 #[test]
 fn max_loci_uses_a_listed_seeded_subset() {
