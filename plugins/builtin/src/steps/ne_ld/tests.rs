@@ -1,7 +1,7 @@
 //! Unit tests of `ne-ld` on small hand-made data; the simulation checks of bias and coverage
 //! are in `coverage.rs`.
 
-use popgauge_abi::{Cell, GenotypeMatrix, LocusMeta};
+use popgauge_abi::{Cell, GenotypeMatrix, LocusMeta, Where};
 use serde_json::json;
 
 use super::estimate::{Mating, expected_sample_r2, ne_from_drift_r2, ne_from_r2, ne_interval};
