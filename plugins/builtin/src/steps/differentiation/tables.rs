@@ -8,6 +8,7 @@ use crate::stats::bootstrap::Interval;
 
 use super::SetEstimates;
 use super::ibd::IsolationByDistance;
+use super::pairs::ComparisonEstimate;
 
 pub(super) fn year_key(year: Option<i32>) -> String {
     year.map_or_else(|| "pooled".to_string(), |y| y.to_string())
@@ -58,7 +59,7 @@ pub(super) fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, St
         for pair in &set.pairs {
             let (group_a, group_b) = (&set.set.groups[pair.a], &set.set.groups[pair.b]);
             let e = &pair.estimate;
-            table.push_row(vec![
+            let mut cells = vec![
                 Cell::text(&group_a.population),
                 Cell::text(&group_b.population),
                 year_cell(set.set.year),
@@ -70,15 +71,9 @@ pub(super) fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, St
                 high(e.intervals.fst),
                 Cell::maybe(pair.permutation.map(|p| p.p_value())),
                 pair.permutation.map_or(Cell::Null, |p| count_cell(p.replicates)),
-                Cell::maybe(e.indices.jost_d),
-                low(e.intervals.jost_d),
-                high(e.intervals.jost_d),
-                Cell::maybe(e.indices.gst),
-                Cell::maybe(e.indices.gst_prime),
-                Cell::maybe(e.indices.gst_double_prime),
-                low(e.intervals.gst_double_prime),
-                high(e.intervals.gst_double_prime),
-            ])?;
+            ];
+            cells.extend(gene_diversity_cells(e));
+            table.push_row(cells)?;
         }
     }
     Ok(table)
@@ -106,7 +101,7 @@ pub(super) fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, Step
     ]);
     for set in estimates {
         let Some(e) = &set.global else { continue };
-        table.push_row(vec![
+        let mut cells = vec![
             Cell::text(set.set.describe()),
             year_cell(set.set.year),
             count_cell(set.set.groups.len()),
@@ -116,17 +111,26 @@ pub(super) fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, Step
             low(e.intervals.fst),
             high(e.intervals.fst),
             count_cell(e.bootstrap_replicates),
-            Cell::maybe(e.indices.jost_d),
-            low(e.intervals.jost_d),
-            high(e.intervals.jost_d),
-            Cell::maybe(e.indices.gst),
-            Cell::maybe(e.indices.gst_prime),
-            Cell::maybe(e.indices.gst_double_prime),
-            low(e.intervals.gst_double_prime),
-            high(e.intervals.gst_double_prime),
-        ])?;
+        ];
+        cells.extend(gene_diversity_cells(e));
+        table.push_row(cells)?;
     }
     Ok(table)
+}
+
+/// Jost's D and the G_ST family with their intervals, the last columns of `pairwise` and
+/// `global`: jost_d, jost_d_low, jost_d_high, gst, gst_p, gst_pp, gst_pp_low, gst_pp_high.
+fn gene_diversity_cells(e: &ComparisonEstimate) -> [Cell; 8] {
+    [
+        Cell::maybe(e.indices.jost_d),
+        low(e.intervals.jost_d),
+        high(e.intervals.jost_d),
+        Cell::maybe(e.indices.gst),
+        Cell::maybe(e.indices.gst_prime),
+        Cell::maybe(e.indices.gst_double_prime),
+        low(e.intervals.gst_double_prime),
+        high(e.intervals.gst_double_prime),
+    ]
 }
 
 pub(super) fn ibd_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {

@@ -36,6 +36,18 @@ fn earlier(id: &str, uses: &str, name: &str, columns: &[&str], rows: Vec<Vec<Cel
     }
 }
 
+/// An earlier `ne-temporal` result (id `temp`) whose `estimates` table has these rows of
+/// population, year_start, year_end, ne_fs, ne_low and ne_high.
+fn temporal_result(rows: Vec<Vec<Cell>>) -> StepResult {
+    earlier(
+        "temp",
+        "ne-temporal",
+        "estimates",
+        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
+        rows,
+    )
+}
+
 fn n(x: f64) -> Cell {
     Cell::number(x)
 }
@@ -94,16 +106,10 @@ fn earlier_results() -> Vec<StepResult> {
             ld_row("North", 2015, n(0.02), 40.0, n(300.0), [None, None, None]),
         ],
     );
-    let temporal = earlier(
-        "temp",
-        "ne-temporal",
-        "estimates",
-        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
-        vec![
-            vec![t("South"), Cell::Int(2010), Cell::Int(2015), n(900.0), n(400.0), Cell::Inf],
-            vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(600.0), n(300.0), Cell::Inf],
-        ],
-    );
+    let temporal = temporal_result(vec![
+        vec![t("South"), Cell::Int(2010), Cell::Int(2015), n(900.0), n(400.0), Cell::Inf],
+        vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(600.0), n(300.0), Cell::Inf],
+    ]);
     let diversity = earlier(
         "div",
         "diversity",

@@ -73,17 +73,11 @@ fn status_and_trend_choose_the_same_estimate() {
     ld_rows.push(ld_row("E", 2020, n(0.05), 12.0, n(70.0), jack(70.0)));
     ld_rows.push(ld_row("E", 2020, n(0.02), 12.0, n(65.0), jack(65.0)));
     let ld = earlier("ld", "ne-ld", "estimates", &LD_COLUMNS, ld_rows);
-    let temporal = earlier(
-        "temp",
-        "ne-temporal",
-        "estimates",
-        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
-        vec![
-            vec![t("C"), Cell::Int(2010), Cell::Int(2015), n(700.0), n(300.0), Cell::Inf],
-            vec![t("C"), Cell::Int(2010), Cell::Int(2020), n(500.0), n(250.0), n(2000.0)],
-            vec![t("C"), Cell::Int(2015), Cell::Int(2020), n(350.0), n(150.0), n(1500.0)],
-        ],
-    );
+    let temporal = temporal_result(vec![
+        vec![t("C"), Cell::Int(2010), Cell::Int(2015), n(700.0), n(300.0), Cell::Inf],
+        vec![t("C"), Cell::Int(2010), Cell::Int(2020), n(500.0), n(250.0), n(2000.0)],
+        vec![t("C"), Cell::Int(2015), Cell::Int(2020), n(350.0), n(150.0), n(1500.0)],
+    ]);
     let hetx = earlier(
         "hx",
         "ne-hetx",

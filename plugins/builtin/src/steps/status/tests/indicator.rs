@@ -1,6 +1,7 @@
 //! The genetic-diversity indicator of `status`: the share of populations above Ne 500, by point
 //! estimate and by lower bound, strict at exactly 500.
 
+use super::super::tables::INDICATOR_COLUMNS;
 use super::*;
 
 /// Hoban et al. (2020) and the GBF headline indicator A.4 ("the proportion of populations
@@ -12,16 +13,7 @@ fn indicator_counts_point_and_lower_bound() {
     let output = default_run();
     let indicator = table(&output, "indicator");
     assert_eq!(indicator.rows.len(), 2);
-    let columns = [
-        "threshold",
-        "populations",
-        "with_estimate",
-        "above_point",
-        "share_point",
-        "above_lower_bound",
-        "share_lower_bound",
-    ];
-    let row = |r: usize| columns.map(|c| number(indicator, r, c));
+    let row = |r: usize| INDICATOR_COLUMNS.map(|c| number(indicator, r, c));
     assert_eq!(row(0), [Some(50.0), Some(3.0), Some(2.0), Some(2.0), Some(1.0), Some(2.0), Some(1.0)]);
     assert_eq!(row(1), [Some(500.0), Some(3.0), Some(2.0), Some(1.0), Some(0.5), Some(0.0), Some(0.0)]);
 }

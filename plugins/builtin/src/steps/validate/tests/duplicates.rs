@@ -70,29 +70,21 @@ fn duplicate_genotypes_are_excluded_by_default() {
 /// check is skipped and says so.
 #[test]
 fn duplicate_check_is_skipped_with_few_loci() {
-    let output = run(
+    let data = || {
         MatrixBuilder::new(&["L1", "L2"]).samples("s", "P", 2020, 4, &["1/2", "1/1"]).sample(
             "t",
             "P",
             2020,
             &["1/1", "2/2"],
-        ),
-        json!({}),
-    );
+        )
+    };
+    let output = run(data(), json!({}));
     assert!(findings_with(&output, "duplicate-genotypes").is_empty());
     let skipped = findings_with(&output, "duplicate-check-skipped");
     assert_eq!(skipped.len(), 1);
     assert!(skipped[0].message.contains("2 loci are kept, fewer than min_loci_for_duplicates = 5"));
     // Lowering the minimum finds the four identical samples: 6 pairs.
-    let output = run(
-        MatrixBuilder::new(&["L1", "L2"]).samples("s", "P", 2020, 4, &["1/2", "1/1"]).sample(
-            "t",
-            "P",
-            2020,
-            &["1/1", "2/2"],
-        ),
-        json!({"min_loci_for_duplicates": 2}),
-    );
+    let output = run(data(), json!({"min_loci_for_duplicates": 2}));
     assert!(findings_with(&output, "duplicate-genotypes")[0].message.starts_with("6 pair(s)"));
 }
 
