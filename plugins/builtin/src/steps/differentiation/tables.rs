@@ -34,7 +34,7 @@ pub(super) fn high(interval: Option<Interval>) -> Cell {
 }
 
 pub(super) fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
+    let mut table = with_gene_diversity_columns(&[
         "pop_a",
         "pop_b",
         "year",
@@ -46,14 +46,6 @@ pub(super) fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, St
         "fst_high",
         "fst_p",
         "permutations",
-        "jost_d",
-        "jost_d_low",
-        "jost_d_high",
-        "gst",
-        "gst_p",
-        "gst_pp",
-        "gst_pp_low",
-        "gst_pp_high",
     ]);
     for set in estimates {
         for pair in &set.pairs {
@@ -80,7 +72,7 @@ pub(super) fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, St
 }
 
 pub(super) fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
+    let mut table = with_gene_diversity_columns(&[
         "comparison",
         "year",
         "populations",
@@ -90,14 +82,6 @@ pub(super) fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, Step
         "fst_low",
         "fst_high",
         "bootstrap",
-        "jost_d",
-        "jost_d_low",
-        "jost_d_high",
-        "gst",
-        "gst_p",
-        "gst_pp",
-        "gst_pp_low",
-        "gst_pp_high",
     ]);
     for set in estimates {
         let Some(e) = &set.global else { continue };
@@ -118,8 +102,17 @@ pub(super) fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, Step
     Ok(table)
 }
 
-/// Jost's D and the G_ST family with their intervals, the last columns of `pairwise` and
-/// `global`: jost_d, jost_d_low, jost_d_high, gst, gst_p, gst_pp, gst_pp_low, gst_pp_high.
+/// Jost's D and the G_ST family with their intervals: the last columns of `pairwise` and
+/// `global`, filled by [`gene_diversity_cells`].
+const GENE_DIVERSITY_COLUMNS: [&str; 8] =
+    ["jost_d", "jost_d_low", "jost_d_high", "gst", "gst_p", "gst_pp", "gst_pp_low", "gst_pp_high"];
+
+/// A table of the `columns` followed by [`GENE_DIVERSITY_COLUMNS`].
+fn with_gene_diversity_columns(columns: &[&str]) -> Table {
+    Table::new(&[columns, &GENE_DIVERSITY_COLUMNS].concat())
+}
+
+/// The cells of [`GENE_DIVERSITY_COLUMNS`] for one comparison.
 fn gene_diversity_cells(e: &ComparisonEstimate) -> [Cell; 8] {
     [
         Cell::maybe(e.indices.jost_d),
