@@ -21,9 +21,10 @@
 //! and the pairs go through the dense kernels ([`kernels`]).
 //!
 //! **Identical results.** The moments are the same exact integers as the byte path's; r̂² comes
-//! from the same [`r2_from_spreads`](super::pairs::r2_from_spreads); the pairs are cut into the same chunks ([`ChunkCuts`]) and
-//! added to each criterion's sums in the same order with the same operations. Estimates are
-//! therefore bit-identical to the general path (property tests in `tests.rs`).
+//! from the same [`r2_from_spreads`](super::pairs::r2_from_spreads); the pairs are cut into the
+//! same chunks ([`ChunkCuts`]) and added to each criterion's sums in the same order with the
+//! same operations. Estimates are therefore bit-identical to the general path (property tests
+//! in `tests/packed_path.rs`).
 //!
 //! **Instruction sets.** Three builds of the chunk loop exist, and [`sum_pairs_packed`] picks one
 //! per chunk at run time on x86-64:
@@ -38,7 +39,7 @@
 //!
 //! Rust never fuses or reorders floating-point operations, and the AVX-512 kernel performs the
 //! portable kernel's IEEE operations in the same order lane by lane, so every path gives the
-//! same bits (`tests.rs` runs both dense kernels where the processor allows).
+//! same bits (`tests/packed_path.rs` runs both dense kernels where the processor allows).
 
 mod kernels;
 mod lanes;
