@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use std::process::Command;
 use std::sync::{Mutex, OnceLock};
 
-use popgauge::provenance::hash::sha256_hex;
+use popgauge::hash::sha256_hex;
 
 use crate::support::{Case, Output, repo_root};
 

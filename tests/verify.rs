@@ -210,7 +210,7 @@ fn another_build_is_said_plainly_and_is_not_a_difference() {
 
 #[test]
 fn an_edited_pdf_is_detected() {
-    use popgauge::provenance::hash::sha256_hex;
+    use popgauge::hash::sha256_hex;
     let case = assessed();
     let path = case.path().join("out/assessment.pdf");
     let original = std::fs::read(&path).unwrap();

@@ -17,7 +17,7 @@ use std::time::Duration;
 
 use criterion::Criterion;
 use popgauge::host::{Isolation, PluginScratch, PluginSpec, load_plugin, worker::WORKER_ENV};
-use popgauge::provenance::hash::sha256_hex;
+use popgauge::hash::sha256_hex;
 use popgauge_abi::{
     AlleleCode, AssessmentInfo, GenotypeMatrix, LocusMeta, Params, SampleMeta, Seed, Step, StepContext,
 };

@@ -1,14 +1,12 @@
 //! # popgauge
 //!
-//! The core of popgauge: it reads an assessment recipe (`case.toml`) and the genotype data it
-//! names, runs the recipe's steps (each a [`popgauge_abi::Step`]) in order, and writes
-//! `results.json`, one CSV per result table and a provenance record into an output folder,
-//! atomically.
-//!
-//! Principal parts: [`recipe`] (strict parsing and resolution), [`data`] (readers into a
-//! [`popgauge_abi::GenotypeMatrix`]), [`engine`] (running steps), [`provenance`] (hashes and
-//! the record), [`host`] (external plugin libraries), [`output`] (atomic folder writing), [`pretty`] (the layout of the JSON files), [`pipeline`] (all of it for one case) and
-//! [`cli`] (the command line).
+//! The `popgauge` command line: [`cli`] (the commands), [`pipeline`] (all of one case: read,
+//! run the steps, typeset, write the output folder with its provenance record), [`audit`]
+//! (re-running a case from its record, for `verify`) and [`planning`] (sizing a sampling
+//! design by simulation). The work itself is in two crates re-exported here:
+//! `popgauge-engine` (recipe, readers, steps, results, provenance; no typesetting) and
+//! `popgauge-report` (the document), so `popgauge::recipe`, `popgauge::report` and the other
+//! modules below keep one path for users of the library.
 //!
 //! ```no_run
 //! use popgauge::pipeline::{run_case, RunOptions};
@@ -21,20 +19,12 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod audit;
 pub mod cli;
-pub mod data;
-pub mod dates;
-pub mod engine;
-pub mod host;
-pub mod interrupt;
-pub mod output;
 pub mod pipeline;
 pub mod planning;
-pub mod pretty;
-pub mod progress;
-pub mod provenance;
-pub mod recipe;
-pub mod report;
-pub mod results;
-pub mod schemas;
-pub mod source;
+
+pub use popgauge_engine::{
+    data, dates, engine, hash, host, interrupt, output, pretty, progress, provenance, recipe, results, schemas, source,
+};
+pub use popgauge_report as report;

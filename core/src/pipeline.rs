@@ -11,7 +11,7 @@ use crate::dates::now_rfc3339;
 use crate::engine::{EngineError, EngineOutput, run_steps};
 use crate::output::{OutputError, OutputFiles, check_target, write_folder};
 use crate::progress::Progress;
-use crate::provenance::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
+use crate::hash::{FileDigest, digest_bytes, hash_canonical, sha256_hex};
 use crate::provenance::prov::ProvDocument;
 use crate::provenance::record::{
     AssessmentEntry, FileEntry, PROVENANCE_SCHEMA, PluginEntry, ProvenanceRecord, RunEntry, StepEntry, ToolBuild,
@@ -294,6 +294,6 @@ fn provenance_record(
         outputs,
         prov: ProvDocument::default(),
     };
-    record.prov = ProvDocument::of(&record);
+    record.prov = ProvDocument::of(&record.facts());
     record
 }

@@ -3,6 +3,11 @@
 use crate::markers::PreparedLocus;
 use crate::random::SimRng;
 
+/// The position of a population in `SimulationConfig::populations` (the simulation's
+/// population order, which also indexes the migration matrix).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct PopulationIdx(pub usize);
+
 /// A unique number given to every simulated individual at birth; two sampled records with the
 /// same id are the same animal.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]

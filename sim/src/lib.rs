@@ -69,12 +69,13 @@ mod snp_panel;
 mod wide_table;
 
 pub use cohort::IndividualId;
+pub use cohort::PopulationIdx;
 pub use error::SimError;
 pub use markers::{Locus, LocusKind, LocusSpec, MarkerModel, MicrosatelliteModel, SnpModel};
 pub use pedigree::{BIN_BP, Genome, Mating, PedigreeAnimal, PedigreeSample, PedigreeStudy, simulate_pedigrees};
 pub use sample::{SampleRequest, SampleSet, SampledIndividual};
 pub use schedule::{MAX_POPULATION_SIZE, MigrationPhase, MigrationRates, MigrationSchedule, SizeSchedule};
-pub use simulation::{BurnIn, PopulationIdx, PopulationSpec, Simulation, SimulationConfig};
+pub use simulation::{BurnIn, PopulationSpec, Simulation, SimulationConfig};
 pub use snp_panel::{
     CaseFiles, FIRST_SAMPLING_GENERATION, GENERATION_TIME_YEARS, GENERATIONS_BETWEEN_SAMPLES, PanelData,
     SAMPLING_YEARS, SnpPanel, write_case,

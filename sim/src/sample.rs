@@ -1,9 +1,8 @@
 //! Sampled genotypes: what a field team would bring back to the laboratory.
 
-use crate::cohort::IndividualId;
+use crate::cohort::{IndividualId, PopulationIdx};
 use crate::error::SimError;
 use crate::markers::Locus;
-use crate::simulation::PopulationIdx;
 
 /// Which individuals to take, and how to label them.
 #[derive(Clone, Debug, PartialEq, Eq)]

@@ -2,16 +2,12 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
-use crate::cohort::{Breeding, Cohort, immigration_row};
+use crate::cohort::{Breeding, Cohort, PopulationIdx, immigration_row};
 use crate::error::SimError;
 use crate::markers::{Locus, LocusSpec, PreparedLocus};
 use crate::random::{SimRng, Stream};
 use crate::sample::{SampleRequest, SampleSet, SampledIndividual};
 use crate::schedule::{MigrationSchedule, SizeSchedule};
-
-/// The position of a population in [`SimulationConfig::populations`].
-#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
-pub struct PopulationIdx(pub usize);
 
 /// One simulated population: its name (the `population` column) and its sizes.
 #[derive(Debug)]

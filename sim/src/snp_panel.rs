@@ -26,12 +26,13 @@ use std::fs;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
+use crate::cohort::PopulationIdx;
 use crate::error::SimError;
 use crate::markers::{LocusKind, LocusSpec, MarkerModel, SnpModel};
 use crate::random::{SimRng, Stream, chance_threshold};
 use crate::sample::{SampleRequest, SampleSet};
 use crate::schedule::{MigrationSchedule, SizeSchedule};
-use crate::simulation::{BurnIn, PopulationIdx, PopulationSpec, Simulation, SimulationConfig};
+use crate::simulation::{BurnIn, PopulationSpec, Simulation, SimulationConfig};
 
 /// The generation sampled in the first sampling year (2019).
 pub const FIRST_SAMPLING_GENERATION: u32 = 12;

@@ -4,7 +4,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use crate::provenance::signature::sign_record;
-use crate::provenance::verify::record_in;
+use crate::audit::record_in;
 
 /// Arguments of `popgauge sign`.
 #[derive(Debug, clap::Args)]

@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use super::{EXIT_DIFFERENCES, StderrProgress, configure_threads};
 use crate::provenance::signature::read_public_key;
-use crate::provenance::verify::{add_signature_check, record_in, verify};
+use crate::audit::{add_signature_check, record_in, verify};
 
 /// Arguments of `popgauge verify`.
 #[derive(Debug, clap::Args)]

@@ -364,7 +364,7 @@ mod tests {
         assert_eq!(Cell::Null.to_string(), "");
     }
 
-    /// The results contract (core/src/report/contract.rs): an infinite estimate is "inf", an
+    /// The results contract (report/src/contract.rs): an infinite estimate is "inf", an
     /// undefined one null; no NaN or infinity reaches JSON or CSV even from a cell built without
     /// `Cell::number`.
     #[test]

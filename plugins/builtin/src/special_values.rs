@@ -1,6 +1,6 @@
 //! Findings that explain the special values of a step's tables.
 //!
-//! Results contract (core/src/report/contract.rs): no NaN or infinity reaches a table except as the
+//! Results contract (report/src/contract.rs): no NaN or infinity reaches a table except as the
 //! documented `"inf"` or `null`, each with a finding explaining why. The steps add these findings
 //! where their tables are assembled, reading the tables themselves, so what a finding lists is
 //! exactly what a reader sees. One finding per (step, reason) names the rows it concerns, at most

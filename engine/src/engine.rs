@@ -12,7 +12,7 @@ use crate::data::LoadedData;
 use crate::dates::now_rfc3339_millis;
 use crate::host::PluginRecord;
 use crate::progress::Progress;
-use crate::provenance::hash::{derive_seed, hash_canonical};
+use crate::hash::{derive_seed, hash_canonical};
 use crate::recipe::Recipe;
 
 /// What the engine records about one step for the provenance record.

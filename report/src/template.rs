@@ -14,7 +14,7 @@ use super::ReportError;
 pub const MAIN_FILE: &str = "assessment.typ";
 
 /// The standard template's main file, embedded at build time.
-const STANDARD_MAIN: &str = include_str!("../../../templates/standard/assessment.typ");
+const STANDARD_MAIN: &str = include_str!("../../templates/standard/assessment.typ");
 
 /// A template folder may hold at most this many files …
 const MAX_FILES: usize = 256;

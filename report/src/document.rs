@@ -449,7 +449,7 @@ mod tests {
         assert!(merged[2].starts_with("Nei M (1987)"));
     }
 
-    fn source_of(results: &crate::results::ResultsDocument) -> Built {
+    fn source_of(results: &popgauge_engine::results::ResultsDocument) -> Built {
         let file = FileFacts { role: "recipe".into(), path: "case.toml".into(), size: 3, sha256: "ab".repeat(32) };
         build(&ReportSource { results, runs: &[], recipe: file, inputs: vec![], fingerprint: "0011223344556677" })
     }
@@ -459,7 +459,7 @@ mod tests {
     /// analysis, shown with its values formatted by column name.
     #[test]
     fn absent_steps_leave_sections_empty_and_plugins_become_additional_analyses() {
-        let results: crate::results::ResultsDocument = serde_json::from_value(serde_json::json!({
+        let results: popgauge_engine::results::ResultsDocument = serde_json::from_value(serde_json::json!({
             "schema": "popgauge.results/1",
             "tool": {"name": "popgauge", "version": "0.1.0"},
             "assessment": {"title": "T #1", "species": "S", "assessor": "", "organisation": "", "date": "2026-02-03", "seed": 1, "thresholds": [100.0, 1000.0]},
@@ -496,7 +496,7 @@ mod tests {
                 serde_json::json!(["A", 2020, format!("snp{i:05}"), 50, 2, 0.3 + f64::from(i) / 10_000.0, 0.5, 0.0])
             })
             .collect();
-        let results: crate::results::ResultsDocument = serde_json::from_value(serde_json::json!({
+        let results: popgauge_engine::results::ResultsDocument = serde_json::from_value(serde_json::json!({
             "schema": "popgauge.results/1",
             "tool": {"name": "popgauge", "version": "0.1.0"},
             "assessment": {"title": "T", "species": "S", "assessor": "", "organisation": "", "date": "2026-02-03", "seed": 1, "thresholds": [50.0, 500.0]},

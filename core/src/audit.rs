@@ -14,10 +14,10 @@ use popgauge_abi::{Cell, StepResult, Table, format_number};
 
 use ed25519_dalek::VerifyingKey;
 
-use super::prov::ProvDocument;
-use super::signature::{SignatureCheck, check_signature, signature_path};
-use super::hash::{derive_seed, hash_canonical, sha256_hex};
-use super::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
+use crate::provenance::prov::ProvDocument;
+use crate::provenance::signature::{SignatureCheck, check_signature, signature_path};
+use crate::hash::{derive_seed, hash_canonical, sha256_hex};
+use crate::provenance::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
 use crate::engine::run_steps;
 use crate::pipeline::{LoadedCase, RunError, load_case, render_outputs};
 use crate::progress::Progress;
@@ -193,7 +193,7 @@ fn build_difference(recorded: &ToolBuild, running: &ToolBuild) -> Option<String>
 
 /// Whether the record's PROV view still follows from the rest of the record.
 fn check_prov(record: &ProvenanceRecord, report: &mut VerifyReport) {
-    let derived = ProvDocument::of(record);
+    let derived = ProvDocument::of(&record.facts());
     let verdict = if derived == record.prov {
         Verdict::Same
     } else {

@@ -12,8 +12,8 @@ use super::super::figures::{Figure, IntervalPoint, Series};
 use super::super::format::{self, NumberStyle};
 use super::table::{HeatCell, HeatTable, TableData, generic, readable};
 use super::{BODY_ROWS, Extras};
-use crate::engine::StepRun;
-use crate::results::{RESULTS_FILE, table_file};
+use popgauge_engine::engine::StepRun;
+use popgauge_engine::results::{RESULTS_FILE, table_file};
 
 /// What every section builder reads.
 pub(crate) struct Context<'a> {

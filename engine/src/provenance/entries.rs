@@ -1,15 +1,13 @@
-//! The provenance record (`provenance.json`): what went in, what ran, what came out.
+//! The parts of the provenance record: the tool build, the files, the steps, the assessment
+//! and the run. The record ([`super::record`]) and its PROV view ([`super::prov`]) are both
+//! built from these.
 
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 use popgauge_abi::{Descriptor, Params};
 
-use super::prov::ProvDocument;
 use crate::host::PluginRecord;
-
-/// Schema identifier written into every record.
-pub const PROVENANCE_SCHEMA: &str = "popgauge.provenance/1";
 
 /// The tool that made the record.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
@@ -36,7 +34,7 @@ impl ToolBuild {
         ToolBuild {
             name: "popgauge".into(),
             version: env!("CARGO_PKG_VERSION").into(),
-            // Set by core/build.rs.
+            // Set by engine/build.rs.
             commit: env!("POPGAUGE_BUILD_COMMIT").into(),
             target: env!("POPGAUGE_BUILD_TARGET").into(),
             rustc: env!("POPGAUGE_BUILD_RUSTC").into(),
@@ -143,30 +141,4 @@ pub struct RunEntry {
     /// The case folder relative to the output folder (`..` for the default `CASE/out`), where
     /// `popgauge verify` looks for the inputs unless told otherwise with `--data`.
     pub case_folder: String,
-}
-
-/// The whole record.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
-#[serde(deny_unknown_fields)]
-#[schemars(title = "popgauge provenance record (provenance.json)")]
-pub struct ProvenanceRecord {
-    /// `popgauge.provenance/1`.
-    pub schema: String,
-    /// The tool build.
-    pub tool: ToolBuild,
-    /// The assessment.
-    pub assessment: AssessmentEntry,
-    /// The run.
-    pub run: RunEntry,
-    /// The recipe file.
-    pub recipe: FileEntry,
-    /// The data files.
-    pub inputs: Vec<FileEntry>,
-    /// The steps in run order.
-    pub steps: Vec<StepEntry>,
-    /// Every output file except this record.
-    pub outputs: Vec<FileEntry>,
-    /// The same facts in W3C PROV terms (PROV-JSON), derived from the members above by
-    /// [`ProvDocument::of`]; verify checks that it still follows from them.
-    pub prov: ProvDocument,
 }

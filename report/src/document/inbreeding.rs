@@ -12,7 +12,7 @@ use super::super::format::{self, NumberStyle};
 use super::Extras;
 use super::sections::{Context, text, whole};
 use super::table::TableData;
-use crate::results::table_file;
+use popgauge_engine::results::table_file;
 
 /// The inbreeding-of-individuals section.
 #[derive(Debug, Clone, Serialize)]

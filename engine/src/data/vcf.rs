@@ -33,7 +33,7 @@ use super::sample_sheet::SampleSheet;
 use super::site_filter::{SiteTally, name_list, site_verdict};
 use super::wide_table::is_valid_label;
 use crate::progress::Progress;
-use crate::provenance::hash::{DigestingReader, FileDigest};
+use crate::hash::{DigestingReader, FileDigest};
 use crate::recipe::SiteFilters;
 use crate::source::{Location, excerpt};
 use panic_guard::PanicGuard;

@@ -152,7 +152,7 @@ fn bgzipped_and_plain_files_read_the_same() {
     assert_eq!(plain.matrix, compressed.matrix);
     // The digest is of the bytes on disk, compressed ones included.
     let bytes = std::fs::read(compressed_file.path()).unwrap();
-    assert_eq!(compressed.digest, crate::provenance::hash::digest_bytes(&bytes));
+    assert_eq!(compressed.digest, crate::hash::digest_bytes(&bytes));
 }
 
 #[test]

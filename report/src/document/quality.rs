@@ -12,7 +12,7 @@ use super::super::format::{self, NumberStyle};
 use super::sections::{Context, text, whole};
 use super::table::TableData;
 use super::{BODY_LIMIT, BODY_ROWS, Extras};
-use crate::results::table_file;
+use popgauge_engine::results::table_file;
 use popgauge_builtin::stats::bootstrap::median;
 
 /// The data-quality tables.
@@ -81,7 +81,7 @@ pub(crate) fn quality_section(ctx: &Context<'_>, extras: &mut Extras) -> Option<
     let median_missing = median(facts.iter().filter_map(|f| f.missing).collect());
     let flags = flags(&facts, median_missing);
     let sheet = &ctx.results.doc().data.locus_sheet;
-    let sheet_of: BTreeMap<&str, &crate::results::LocusInfo> = sheet.iter().map(|l| (l.locus.as_str(), l)).collect();
+    let sheet_of: BTreeMap<&str, &popgauge_engine::results::LocusInfo> = sheet.iter().map(|l| (l.locus.as_str(), l)).collect();
     let has_sheet = !sheet.is_empty();
     let mut loci = TableData::new(&[
         ("Locus", false),

@@ -14,7 +14,7 @@ use ed25519_dalek::{Signature, Signer, SigningKey, Verifier, VerifyingKey};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
-use super::hash::sha256_hex;
+use crate::hash::sha256_hex;
 
 /// Schema identifier of a signature file.
 pub const SIGNATURE_SCHEMA: &str = "popgauge.signature/1";

@@ -14,7 +14,7 @@ use std::collections::BTreeSet;
 use popgauge_abi::{Finding, GenotypeMatrix, PopulationInfo, Where};
 
 use crate::progress::Progress;
-use crate::provenance::hash::{FileDigest, digest_bytes};
+use crate::hash::{FileDigest, digest_bytes};
 use crate::recipe::{DataSpec, GenotypeFormat, InputFile, Recipe};
 use crate::source::Location;
 

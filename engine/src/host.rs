@@ -26,7 +26,7 @@ use popgauge_abi::ffi::{ABI_VERSION, ENTRY_SYMBOL, STATUS_OK, STATUS_PANIC, STAT
 use popgauge_abi::{Descriptor, Step, StepContext, StepError, StepOutput};
 use serde::{Deserialize, Serialize};
 
-use crate::provenance::hash::sha256_hex;
+use crate::hash::sha256_hex;
 
 /// The time limit of an external step when the recipe gives none.
 pub const DEFAULT_TIMEOUT: Duration = Duration::from_secs(600);

@@ -11,12 +11,13 @@
 //! can be checked by re-running.
 //!
 //! ```no_run
-//! # use popgauge::report::{render, template::Template, ReportSource};
-//! # fn demo(source: &ReportSource<'_>) -> Result<(), popgauge::report::ReportError> {
+//! # use popgauge_report::{render, template::Template, ReportSource};
+//! # fn demo(source: &ReportSource<'_>) -> Result<(), popgauge_report::ReportError> {
 //! let report = render(source, &Template::standard())?;
 //! std::fs::write("assessment.pdf", &report.pdf).ok();
 //! # Ok(()) }
 //! ```
+#![warn(missing_docs)]
 
 pub mod contract;
 pub mod document;
@@ -27,8 +28,8 @@ pub mod typst;
 
 use std::path::Path;
 
-use crate::engine::StepRun;
-use crate::results::ResultsDocument;
+use popgauge_engine::engine::StepRun;
+use popgauge_engine::results::ResultsDocument;
 use template::Template;
 
 /// The document's file name in the output folder.
@@ -233,7 +234,13 @@ fn escape_control_characters(value: &mut serde_json::Value) {
         serde_json::Value::String(text) if text.chars().any(|c| c.is_control() && c != '\n' && c != '\t') => {
             *text = text
                 .chars()
-                .map(|c| if c.is_control() && c != '\n' && c != '\t' { c.escape_default().to_string() } else { c.to_string() })
+                .map(|c| {
+                    if c.is_control() && c != '\n' && c != '\t' {
+                        c.escape_default().to_string()
+                    } else {
+                        c.to_string()
+                    }
+                })
                 .collect();
         }
         serde_json::Value::Array(items) => items.iter_mut().for_each(escape_control_characters),

@@ -6,7 +6,7 @@
 
 use popgauge_abi::{Cell, StepResult, StepStatus, Table};
 
-use crate::results::ResultsDocument;
+use popgauge_engine::results::ResultsDocument;
 
 /// Built-in `uses` names the document has a section for.
 pub mod uses {

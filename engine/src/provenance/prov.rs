@@ -1,6 +1,6 @@
 //! The provenance record in W3C PROV terms (PROV-DM), serialised in the PROV-JSON shape.
 //!
-//! The view is derived from the readable record by [`ProvDocument::of`] and nothing else, so it
+//! The view is derived from the readable record's facts ([`RunFacts`]) by [`ProvDocument::of`] and nothing else, so it
 //! adds no facts of its own and `popgauge verify` can check that it still follows from them.
 //! Identifiers are qualified names under the `popgauge` prefix:
 //!
@@ -26,7 +26,27 @@ use std::collections::BTreeMap;
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
-use super::record::{FileEntry, ProvenanceRecord};
+use super::entries::{AssessmentEntry, FileEntry, RunEntry, StepEntry, ToolBuild};
+
+/// The facts of one run that its PROV view states (the provenance record holds them and
+/// hands them over with `ProvenanceRecord::facts`).
+#[derive(Debug, Clone, Copy)]
+pub struct RunFacts<'a> {
+    /// The tool build.
+    pub tool: &'a ToolBuild,
+    /// The assessment.
+    pub assessment: &'a AssessmentEntry,
+    /// The run.
+    pub run: &'a RunEntry,
+    /// The recipe file.
+    pub recipe: &'a FileEntry,
+    /// The data and template files.
+    pub inputs: &'a [FileEntry],
+    /// The steps in run order.
+    pub steps: &'a [StepEntry],
+    /// Every output file except the record.
+    pub outputs: &'a [FileEntry],
+}
 
 /// The namespace IRI of popgauge's qualified names.
 pub const POPGAUGE_NAMESPACE: &str = "urn:popgauge:";
@@ -234,8 +254,8 @@ fn local(id: &str) -> &str {
 }
 
 impl ProvDocument {
-    /// The PROV view of `record` (its own `prov` member is ignored).
-    pub fn of(record: &ProvenanceRecord) -> ProvDocument {
+    /// The PROV view of a run's facts.
+    pub fn of(record: &RunFacts<'_>) -> ProvDocument {
         let mut doc = ProvDocument::default();
         doc.prefix.insert("popgauge".into(), POPGAUGE_NAMESPACE.into());
         doc.prefix.insert("prov".into(), PROV_NAMESPACE.into());
@@ -246,7 +266,7 @@ impl ProvDocument {
         doc
     }
 
-    fn add_agents(&mut self, record: &ProvenanceRecord) {
+    fn add_agents(&mut self, record: &RunFacts<'_>) {
         let tool = &record.tool;
         self.agent.insert(
             TOOL.into(),
@@ -271,7 +291,7 @@ impl ProvDocument {
         }
     }
 
-    fn add_run(&mut self, record: &ProvenanceRecord) {
+    fn add_run(&mut self, record: &RunFacts<'_>) {
         self.activity.insert(
             RUN.into(),
             Activity {
@@ -286,18 +306,18 @@ impl ProvDocument {
             },
         );
         self.associate(RUN, TOOL);
-        for file in std::iter::once(&record.recipe).chain(&record.inputs) {
+        for file in std::iter::once(record.recipe).chain(record.inputs) {
             let id = input_id(&file.path);
             self.entity.insert(id.clone(), file_entity("popgauge:input", file));
             self.use_entity(RUN, &id);
         }
     }
 
-    fn add_steps(&mut self, record: &ProvenanceRecord) {
+    fn add_steps(&mut self, record: &RunFacts<'_>) {
         let data_inputs: Vec<String> =
             record.inputs.iter().filter(|f| f.role != "template").map(|f| input_id(&f.path)).collect();
         let mut earlier: Vec<String> = Vec::new();
-        for step in &record.steps {
+        for step in record.steps {
             let activity = step_id(&step.id);
             self.activity.insert(
                 activity.clone(),
@@ -343,8 +363,8 @@ impl ProvDocument {
         }
     }
 
-    fn add_outputs(&mut self, record: &ProvenanceRecord) {
-        for file in &record.outputs {
+    fn add_outputs(&mut self, record: &RunFacts<'_>) {
+        for file in record.outputs {
             let id = output_id(&file.path);
             self.entity.insert(id.clone(), file_entity("popgauge:output", file));
             self.generate(&id, RUN);

@@ -43,7 +43,15 @@ fn watch_git_state() {
     }
     // The dirty flag follows edits to the sources the binary is built from.
     let root = manifest_dir();
-    let sources = ["src", "../plugins/abi/src", "../plugins/builtin/src", "../sim/src", "../templates"];
+    let sources = [
+        "src",
+        "../core/src",
+        "../report/src",
+        "../plugins/abi/src",
+        "../plugins/builtin/src",
+        "../sim/src",
+        "../templates",
+    ];
     paths.extend(sources.iter().map(|p| root.join(p)));
     for path in paths.iter().filter(|p| p.exists()) {
         println!("cargo:rerun-if-changed={}", path.display());
