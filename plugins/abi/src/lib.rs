@@ -20,6 +20,9 @@
 //!   the earlier results and a preference list of [`NeSource`]s (one rule for every reader;
 //!   column names of the Ne tables in [`ne_columns`]).
 //! - [`Finding`] is a data-quality or interpretation note with a [`FindingLevel`].
+//! - [`resampling`] holds the statistics the built-in steps share with plugins: the seeded
+//!   random stream of a step ([`resampling::rng`]), the bootstrap over loci and its percentile
+//!   interval, the delete-one jackknife, the median and quantiles.
 //! - [`ffi`] is the versioned C ABI of external step libraries (`popgauge_plugin.h` mirrors
 //!   it); [`sdk`] and [`export_step!`] turn a `Step` implementation into such a library.
 //!
@@ -56,6 +59,7 @@ mod output;
 mod packed;
 mod params;
 pub mod representative;
+pub mod resampling;
 pub mod sdk;
 mod step;
 mod suggest;

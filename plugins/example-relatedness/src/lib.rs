@@ -2,7 +2,8 @@
 //!
 //! An external popgauge step built against the SDK only (`popgauge-abi`): the mean pairwise
 //! relatedness within each sampling group with the estimator of Queller & Goodnight (1989),
-//! and a percentile bootstrap interval over loci.
+//! and a percentile bootstrap interval over loci drawn with the SDK's
+//! [`popgauge_abi::resampling`] (the same seeded stream and interval as the built-in steps).
 //!
 //! # Method
 //! For a pair of individuals x = (a, b) and y = (c, d) typed at a locus, with allele
@@ -31,18 +32,20 @@
 //! Queller DC, Goodnight KF (1989) Estimating relatedness using genetic markers.
 //! *Evolution* 43:258–275.
 
+use popgauge_abi::resampling::{bootstrap_loci, percentile_interval, rng};
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, ParamKind, Step, StepContext, StepError,
-    StepOutput, Table, Where,
+    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, ParamKind, Step, StepContext, StepError, StepOutput,
+    Table, Where,
 };
 use serde::Deserialize;
 use serde_json::json;
 
-mod resample;
-
 /// The reference of the method.
 pub const QUELLER_GOODNIGHT_1989: &str =
     "Queller DC, Goodnight KF (1989) Estimating relatedness using genetic markers. Evolution 43:258–275.";
+
+/// Level of the bootstrap interval of `r_mean`.
+const CONFIDENCE_LEVEL: f64 = 0.95;
 
 /// A group with fewer samples than this gets a `low-sample-size` warning (common practice).
 const LOW_SAMPLE_SIZE: usize = 10;
@@ -74,7 +77,12 @@ impl Step for Relatedness {
             json!(1000),
             "bootstrap replicates over loci for the interval of r_mean (0 = none)",
         )
-        .param("pairs_table", ParamKind::Boolean, json!(true), "also write the r of every pair (table `pairs`)")
+        .param(
+            "pairs_table",
+            ParamKind::Boolean,
+            json!(true),
+            "also write the r of every pair (table `pairs`)",
+        )
     }
 
     fn run(&self, ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
@@ -168,9 +176,11 @@ fn by_group_table(groups: &[GroupRelatedness], params: &Params, ctx: &StepContex
     for estimate in groups {
         let r_mean = estimate.mean_r(&all_loci);
         let stream = format!("{}/{}", estimate.group.population, estimate.group.year);
-        let interval = resample::bootstrap_interval(ctx.seed, &stream, all_loci.len(), params.bootstrap, |loci| {
-            estimate.mean_r(loci)
-        });
+        let mut replicates =
+            bootstrap_loci(all_loci.len(), params.bootstrap as usize, &mut rng(ctx.seed, &stream), |loci| {
+                estimate.mean_r(loci)
+            });
+        let interval = percentile_interval(&mut replicates, CONFIDENCE_LEVEL);
         let usable_loci = (0..estimate.n_loci)
             .filter(|&l| (0..estimate.pairs.len()).any(|p| estimate.contributions[p * estimate.n_loci + l].is_some()))
             .count();
@@ -181,8 +191,8 @@ fn by_group_table(groups: &[GroupRelatedness], params: &Params, ctx: &StepContex
             Cell::Int(estimate.pairs.len() as i64),
             Cell::Int(usable_loci as i64),
             Cell::maybe(r_mean),
-            Cell::maybe(interval.map(|i| i.0)),
-            Cell::maybe(interval.map(|i| i.1)),
+            Cell::maybe(interval.map(|i| i.low)),
+            Cell::maybe(interval.map(|i| i.high)),
         ])?;
     }
     Ok(table)

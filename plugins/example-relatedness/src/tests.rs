@@ -1,7 +1,6 @@
 use popgauge_abi::{AlleleCode, AssessmentInfo, GenotypeMatrix, LocusMeta, Params as ResolvedParams, SampleMeta, Seed};
 
 use super::*;
-use crate::resample::SplitMix64;
 
 /// Builds a matrix from per-sample genotypes given as allele codes (1-based, 0 untyped).
 fn matrix(samples: &[(&str, &str, i32)], genotypes: &[Vec<(u16, u16)>], alleles_per_locus: usize) -> GenotypeMatrix {
@@ -145,4 +144,47 @@ fn descriptor_is_well_formed() {
     }
     // SAFETY: the macro's entry symbol returns a pointer to a static table.
     assert_eq!(unsafe { (*popgauge_plugin_entry()).abi_version }, popgauge_abi::ffi::ABI_VERSION);
+}
+
+/// SplitMix64 (Steele, Lea & Flood 2014): a small, well-mixed 64-bit generator that simulates
+/// the test data (the step itself draws from the SDK's `resampling::rng`).
+struct SplitMix64(u64);
+
+impl SplitMix64 {
+    /// A stream for one purpose: the seed mixed with an FNV-1a hash of `stream`.
+    fn new(seed: Seed, stream: &str) -> SplitMix64 {
+        let mut hash: u64 = 0xcbf2_9ce4_8422_2325;
+        for byte in stream.bytes() {
+            hash = (hash ^ u64::from(byte)).wrapping_mul(0x0100_0000_01b3);
+        }
+        SplitMix64(seed.0 ^ hash)
+    }
+
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^ (z >> 31)
+    }
+
+    /// A number in `0..n` (multiply-shift; the bias is below 2⁻⁶⁴·n).
+    fn below(&mut self, n: usize) -> usize {
+        ((u128::from(self.next_u64()) * n as u128) >> 64) as usize
+    }
+}
+
+/// Common practice: the same seed and stream give the same simulated draws; draws stay in range.
+#[test]
+fn draws_are_reproducible_and_in_range() {
+    let draw = |stream: &str| {
+        let mut rng = SplitMix64::new(Seed(9), stream);
+        (0..100).map(|_| rng.below(7)).collect::<Vec<_>>()
+    };
+    assert_eq!(draw("a"), draw("a"));
+    assert_ne!(draw("a"), draw("b"));
+    assert!(draw("a").iter().all(|&x| x < 7));
+    let mut seen = [false; 7];
+    draw("a").iter().for_each(|&x| seen[x] = true);
+    assert!(seen.iter().all(|&s| s), "every value can be drawn");
 }

@@ -94,17 +94,19 @@
 //! Chesser (1983); Hedrick (2005); Meirmans & Hedrick (2011); Jost (2008); with isolation by
 //! distance also Rousset (1997), Mantel (1967), Sinnott (1984), Moritz (1980).
 
+mod findings;
 mod ibd;
 mod pairs;
 mod special_values;
+mod tables;
 #[cfg(test)]
 mod tests;
 
 use std::collections::BTreeMap;
 
 use popgauge_abi::{
-    AlleleCounts, Cell, Descriptor, Finding, GenotypeView, Group, PackedGenotypes, ParamKind, Seed, Step, StepContext,
-    StepError, StepOutput, Table, Where,
+    AlleleCounts, Descriptor, GenotypeView, Group, PackedGenotypes, ParamKind, Seed, Step, StepContext, StepError,
+    StepOutput,
 };
 
 use crate::packing::pack;
@@ -112,12 +114,14 @@ use rayon::prelude::*;
 use serde::Deserialize;
 use serde_json::json;
 
-use crate::stats::bootstrap::{Interval, rng};
+use crate::stats::bootstrap::rng;
 use crate::stats::gst::{HEDRICK_2005, JOST_2008, MEIRMANS_HEDRICK_2011, NEI_1973, NEI_CHESSER_1983};
 use crate::stats::permutation::{MANTEL_1967, PermutationOutcome, permutation_test_in_batches};
 use crate::stats::weir_cockerham::WEIR_COCKERHAM_1984;
-use ibd::{IsolationByDistance, MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
+use findings::collect_findings;
+use ibd::{MORITZ_1980, ROUSSET_1997, SINNOTT_1984};
 use pairs::{ComparisonEstimate, PairPermutation};
+use tables::{global_table, ibd_table, ibd_test_table, pairwise_table, year_key};
 
 /// A group with fewer samples than this gets a `low-sample-size` warning (docs/methods.md,
 /// "Conventions").
@@ -321,345 +325,6 @@ fn estimate_pair(
             permutation_test_in_batches(&mut labels, observed, params.permutations as usize, &mut stream, &mut permuted)
         });
     PairResult { a, b, estimate, permutation }
-}
-
-fn year_key(year: Option<i32>) -> String {
-    year.map_or_else(|| "pooled".to_string(), |y| y.to_string())
-}
-
-fn year_cell(year: Option<i32>) -> Cell {
-    year.map_or(Cell::Null, |y| Cell::Int(y.into()))
-}
-
-/// A count as a table integer (counts never approach `i64::MAX`).
-fn count_cell(count: usize) -> Cell {
-    Cell::Int(i64::try_from(count).unwrap_or(i64::MAX))
-}
-
-/// The lower bound of an interval as a table cell (`null` without an interval).
-fn low(interval: Option<Interval>) -> Cell {
-    Cell::maybe(interval.map(|i| i.low))
-}
-
-/// The upper bound of an interval as a table cell (`null` without an interval).
-fn high(interval: Option<Interval>) -> Cell {
-    Cell::maybe(interval.map(|i| i.high))
-}
-
-fn pairwise_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
-        "pop_a",
-        "pop_b",
-        "year",
-        "n_a",
-        "n_b",
-        "loci",
-        "fst",
-        "fst_low",
-        "fst_high",
-        "fst_p",
-        "permutations",
-        "jost_d",
-        "jost_d_low",
-        "jost_d_high",
-        "gst",
-        "gst_p",
-        "gst_pp",
-        "gst_pp_low",
-        "gst_pp_high",
-    ]);
-    for set in estimates {
-        for pair in &set.pairs {
-            let (group_a, group_b) = (&set.set.groups[pair.a], &set.set.groups[pair.b]);
-            let e = &pair.estimate;
-            table.push_row(vec![
-                Cell::text(&group_a.population),
-                Cell::text(&group_b.population),
-                year_cell(set.set.year),
-                count_cell(group_a.samples.len()),
-                count_cell(group_b.samples.len()),
-                count_cell(e.loci.len()),
-                Cell::maybe(e.theta),
-                low(e.intervals.fst),
-                high(e.intervals.fst),
-                Cell::maybe(pair.permutation.map(|p| p.p_value())),
-                pair.permutation.map_or(Cell::Null, |p| count_cell(p.replicates)),
-                Cell::maybe(e.indices.jost_d),
-                low(e.intervals.jost_d),
-                high(e.intervals.jost_d),
-                Cell::maybe(e.indices.gst),
-                Cell::maybe(e.indices.gst_prime),
-                Cell::maybe(e.indices.gst_double_prime),
-                low(e.intervals.gst_double_prime),
-                high(e.intervals.gst_double_prime),
-            ])?;
-        }
-    }
-    Ok(table)
-}
-
-fn global_table(estimates: &[SetEstimates<'_>]) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
-        "comparison",
-        "year",
-        "populations",
-        "samples",
-        "loci",
-        "fst",
-        "fst_low",
-        "fst_high",
-        "bootstrap",
-        "jost_d",
-        "jost_d_low",
-        "jost_d_high",
-        "gst",
-        "gst_p",
-        "gst_pp",
-        "gst_pp_low",
-        "gst_pp_high",
-    ]);
-    for set in estimates {
-        let Some(e) = &set.global else { continue };
-        table.push_row(vec![
-            Cell::text(set.set.describe()),
-            year_cell(set.set.year),
-            count_cell(set.set.groups.len()),
-            count_cell(set.set.groups.iter().map(|g| g.samples.len()).sum()),
-            count_cell(e.loci.len()),
-            Cell::maybe(e.theta),
-            low(e.intervals.fst),
-            high(e.intervals.fst),
-            count_cell(e.bootstrap_replicates),
-            Cell::maybe(e.indices.jost_d),
-            low(e.intervals.jost_d),
-            high(e.intervals.jost_d),
-            Cell::maybe(e.indices.gst),
-            Cell::maybe(e.indices.gst_prime),
-            Cell::maybe(e.indices.gst_double_prime),
-            low(e.intervals.gst_double_prime),
-            high(e.intervals.gst_double_prime),
-        ])?;
-    }
-    Ok(table)
-}
-
-fn ibd_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
-    let mut table = Table::new(&["year", "pop_a", "pop_b", "distance_km", "fst", "fst_linearised"]);
-    for pair in &isolation.pairs {
-        table.push_row(vec![
-            year_cell(pair.year),
-            Cell::text(&pair.pop_a),
-            Cell::text(&pair.pop_b),
-            Cell::number(pair.distance_km),
-            Cell::maybe(pair.fst),
-            Cell::maybe(pair.linearised),
-        ])?;
-    }
-    Ok(table)
-}
-
-fn ibd_test_table(isolation: &IsolationByDistance) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
-        "year",
-        "populations",
-        "pairs",
-        "slope",
-        "intercept",
-        "r",
-        "mantel_p",
-        "mantel_p_min",
-        "permutations",
-        "mantel_method",
-    ]);
-    for test in &isolation.tests {
-        table.push_row(vec![
-            year_cell(test.year),
-            count_cell(test.populations),
-            count_cell(test.pairs),
-            Cell::maybe(test.slope),
-            Cell::maybe(test.intercept),
-            Cell::maybe(test.correlation),
-            Cell::maybe(test.mantel.map(|m| m.p_value())),
-            Cell::maybe(test.mantel.map(|m| m.smallest_p_value())),
-            test.mantel.map_or(Cell::Null, |m| count_cell(m.replicates)),
-            test.mantel.map_or(Cell::Null, |m| Cell::text(m.enumeration.as_str())),
-        ])?;
-    }
-    Ok(table)
-}
-
-fn collect_findings(
-    view: &GenotypeView<'_>,
-    estimates: &[SetEstimates<'_>],
-    params: &Params,
-    isolation_findings: Vec<Finding>,
-) -> Vec<Finding> {
-    let mut findings = vec![scope_finding(estimates, params)];
-    for set in estimates {
-        findings.extend(small_group_findings(set.set));
-        findings.extend(untyped_locus_findings(view, set));
-        if set.set.groups.len() < 2 {
-            findings.push(Finding::info(
-                "no-pairs",
-                format!(
-                    "{}: {} group(s), so there is no pair to compare and no global estimate",
-                    set.set.describe(),
-                    set.set.groups.len()
-                ),
-                Where { year: set.set.year, ..Where::default() },
-            ));
-        }
-        for pair in &set.pairs {
-            let (a, b) = (&set.set.groups[pair.a].population, &set.set.groups[pair.b].population);
-            findings.extend(undefined_findings(&pair.estimate, &format!("pair {a}–{b}"), set.set.year));
-        }
-        if let Some(global) = &set.global {
-            findings.extend(undefined_findings(
-                global,
-                &format!("global estimate ({})", set.set.describe()),
-                set.set.year,
-            ));
-        }
-    }
-    if params.permutations == 0 {
-        findings.push(Finding::info(
-            "permutation-test-disabled",
-            "permutations = 0: no permutation test was run, so fst_p is null (set permutations to 999 or more to test)",
-            Where::default(),
-        ));
-    }
-    findings.extend(isolation_findings);
-    findings.push(caution_finding());
-    findings
-}
-
-fn scope_finding(estimates: &[SetEstimates<'_>], params: &Params) -> Finding {
-    let sets: Vec<String> = estimates.iter().map(|s| s.set.describe()).collect();
-    let message = format!(
-        "differentiation compares {} (by_year = {}); FST is Weir & Cockerham's θ as a ratio of sums over alleles and \
-         loci; jost_d, gst, gst_p (G′ST) and gst_pp (G″ST) are ratios of the averages of HS and HT over loci; \
-         the intervals of FST, D and G″ST are 95% percentile bootstraps over loci ({} replicates, the same drawn \
-         loci for the three)",
-        sets.join("; "),
-        params.by_year,
-        params.bootstrap
-    );
-    Finding::info("differentiation-scope", message, Where::default())
-}
-
-fn group_location(set: &ComparisonSet, group: &Group) -> Where {
-    Where { population: Some(group.population.clone()), year: set.year, ..Where::default() }
-}
-
-fn group_name(set: &ComparisonSet, group: &Group) -> String {
-    match set.year {
-        None => format!("population {}", group.population),
-        Some(year) => format!("group {} {year}", group.population),
-    }
-}
-
-fn small_group_findings(set: &ComparisonSet) -> Vec<Finding> {
-    set.groups
-        .iter()
-        .filter(|g| g.samples.len() < LOW_SAMPLE_SIZE)
-        .map(|g| {
-            Finding::warning(
-                "low-sample-size",
-                format!(
-                    "{} has {} samples, fewer than {LOW_SAMPLE_SIZE}: its FST, D and G″ST estimates are imprecise \
-                     and the permutation test has little power",
-                    group_name(set, g),
-                    g.samples.len()
-                ),
-                group_location(set, g),
-            )
-        })
-        .collect()
-}
-
-/// One finding per group with loci typed in none of its individuals (dropped from every
-/// comparison with that group).
-fn untyped_locus_findings(view: &GenotypeView<'_>, set: &SetEstimates<'_>) -> Vec<Finding> {
-    let mut findings = Vec::new();
-    for (group, counts) in set.set.groups.iter().zip(&set.counts) {
-        let untyped: Vec<&str> = counts
-            .iter()
-            .enumerate()
-            .filter(|(_, c)| c.typed == 0)
-            .map(|(locus, _)| view.locus(locus).name.as_str())
-            .collect();
-        if untyped.is_empty() || set.set.groups.len() < 2 {
-            continue;
-        }
-        findings.push(Finding::info(
-            "locus-untyped-in-group",
-            format!(
-                "{} is untyped at {} locus/loci ({}): they are left out of every comparison with it and of the \
-                 global estimate",
-                group_name(set.set, group),
-                untyped.len(),
-                list_names(&untyped)
-            ),
-            group_location(set.set, group),
-        ));
-    }
-    findings
-}
-
-fn list_names(names: &[&str]) -> String {
-    let mut listed = names.iter().take(LOCI_LISTED).copied().collect::<Vec<_>>().join(", ");
-    if names.len() > LOCI_LISTED {
-        listed.push_str(&format!(" and {} more", names.len() - LOCI_LISTED));
-    }
-    listed
-}
-
-/// Findings for a comparison whose θ̂ or whose D, G′ST or G″ST is undefined.
-fn undefined_findings(estimate: &ComparisonEstimate, what: &str, year: Option<i32>) -> Vec<Finding> {
-    let location = || Where { year, ..Where::default() };
-    let mut findings = Vec::new();
-    if estimate.theta.is_none() {
-        findings.push(Finding::warning(
-            "fst-undefined",
-            format!(
-                "{what}: FST is undefined (null) because no locus typed in both groups is polymorphic there, or \
-                 no locus has more than one typed individual per group on average ({} loci usable)",
-                estimate.loci.len()
-            ),
-            location(),
-        ));
-    }
-    let i = &estimate.indices;
-    if i.jost_d.is_none() || i.gst_prime.is_none() || i.gst_double_prime.is_none() {
-        let reason = if estimate.polymorphic_loci == 0 {
-            "no locus is polymorphic in the compared groups with at least two typed individuals per group on \
-             average"
-                .to_string()
-        } else {
-            format!(
-                "over its {} polymorphic loci the within-group diversity HS averages 1 (every gene copy distinct, \
-                 alleles confined to single groups) or k·HT = HS, so the measure has a zero denominator",
-                estimate.polymorphic_loci
-            )
-        };
-        findings.push(Finding::warning(
-            "differentiation-undefined",
-            format!("{what}: Jost's D, G′ST or G″ST is undefined (null): {reason}"),
-            location(),
-        ));
-    }
-    findings
-}
-
-fn caution_finding() -> Finding {
-    Finding::info(
-        "differentiation-caution",
-        "FST, D and G″ST are estimates with sampling uncertainty (see the intervals); pairwise p-values are not \
-         adjusted for the number of pairs; a significant difference is not by itself evidence of separate \
-         management units. Decisions on translocation or management units follow the local regulatory framework \
-         and review by a qualified geneticist.",
-        Where::default(),
-    )
 }
 
 fn citations(with_isolation_by_distance: bool) -> Vec<String> {

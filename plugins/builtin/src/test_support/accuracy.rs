@@ -2,7 +2,11 @@
 //! `steps/ne_temporal/coverage.rs`: closed Wright–Fisher populations of known Ne simulated with
 //! `popgauge-sim` (Ne = N, unlinked loci), a loop over seeded replicates, and the tallies of
 //! bias on the inverse scale, infinite estimates and interval coverage that docs/accuracy.md
-//! reports. Each test prints its figures as a row of that document's tables.
+//! reports, and the checks both steps apply to them: [`Accuracy::check_precise`] for designs
+//! where the estimate should be precise, [`Accuracy::check_large`] and the slow
+//! [`large_design!`] tests for large Ne. Each step's `coverage.rs` keeps only its scenario (how
+//! one replicate is simulated and run, and its row of docs/accuracy.md) and its designs. Each
+//! test prints its figures as a row of that document's tables.
 
 use std::collections::BTreeMap;
 
@@ -200,8 +204,44 @@ impl Accuracy {
 /// Any share of replicates raising a precision finding: designs between the clearly precise
 /// and the clearly imprecise ones.
 pub(crate) const ANY_SHARE: std::ops::RangeInclusive<f64> = 0.0..=1.0;
+/// The share of replicates raising a precision finding where the estimate is precise: rare, at
+/// most a quarter (each step's designs give the exploratory figures behind it).
+pub(crate) const RARE_SHARE: std::ops::RangeInclusive<f64> = 0.0..=0.25;
+/// The share of replicates raising a precision finding where the estimate is not precise: at
+/// least half.
+pub(crate) const MOST_SHARE: std::ops::RangeInclusive<f64> = 0.5..=1.0;
+
+/// Replicates of each large-Ne design run with `--ignored`: at a coverage of 0.95 the standard
+/// error of the measured share is 0.01.
+pub(crate) const LARGE_REPLICATES: u64 = 500;
+
+/// A slow large-Ne design, run only with `--ignored`: the test `$name` calls the calling
+/// module's `check_large(&scenario, flagged)` on the scenario given.
+macro_rules! large_design {
+    ($(#[$doc:meta])* $name:ident, $scenario:expr, $flagged:expr) => {
+        $(#[$doc])*
+        #[test]
+        #[ignore = "slow statistical test: cargo test --release -p popgauge-builtin coverage -- --ignored --nocapture"]
+        fn $name() {
+            check_large(&$scenario, $flagged);
+        }
+    };
+}
+pub(crate) use large_design;
 
 impl Accuracy {
+    /// The check of the designs where an Ne step is expected to be precise: mean 1/N̂e of the
+    /// first estimator within 20% of 1/Ne, and its interval `interval` covering the true Ne in
+    /// at least 80% of replicates (80% is the floor below which the interval could not be
+    /// recommended, common practice). `name` labels the design in the messages.
+    pub(crate) fn check_precise(&self, name: &str, truth: f64, interval: usize) {
+        let tally = &self.estimators[0];
+        let bias = tally.estimate.inverse_bias(truth);
+        let coverage = tally.intervals[interval].coverage();
+        assert!(bias.abs() <= 0.2, "{name}: bias {bias}");
+        assert!(coverage >= 0.8, "{name}: interval coverage {coverage}");
+    }
+
     /// The large-Ne check of both Ne steps: the interval `interval` of the first estimator
     /// covers the truth in at least 80% of replicates, and the finding `code` is raised in a
     /// share of replicates within `flagged`. `name` labels the design in the messages.

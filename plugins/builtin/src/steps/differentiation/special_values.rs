@@ -121,7 +121,7 @@ mod tests {
             .collect()
     }
 
-    /// DESIGN (no null without a finding saying why); the rows are hand-made: A–B lacks its
+    /// No null without a finding saying why; the rows are hand-made: A–B lacks its
     /// interval, A–C its p-value, B–C has no FST at all (`fst-undefined` covers it), and the
     /// pooled isolation-by-distance test has two pairs only.
     #[test]

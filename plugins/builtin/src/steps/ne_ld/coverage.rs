@@ -12,7 +12,8 @@ use serde_json::json;
 
 use super::NeLd;
 use crate::test_support::accuracy::{
-    ANY_SHARE, Accuracy, Design, Estimator, Panel, closed_population, fraction, markdown_row, measure, signed, whole,
+    ANY_SHARE, Accuracy, Design, Estimator, LARGE_REPLICATES, MOST_SHARE, Panel, RARE_SHARE, closed_population,
+    fraction, large_design, markdown_row, measure, signed, whole,
 };
 use crate::test_support::run_step;
 use crate::test_support::sim::matrix_from_samples;
@@ -122,12 +123,7 @@ impl Scenario {
 /// replicate noise at 100 replicates; 80% is the floor below which the interval could not be
 /// recommended (common practice).
 fn check(scenario: &Scenario) {
-    let accuracy = scenario.measure();
-    let tally = &accuracy.estimators[0];
-    let bias = tally.estimate.inverse_bias(scenario.size as f64);
-    let coverage = tally.intervals[2].coverage();
-    assert!(bias.abs() <= 0.2, "{}: bias {bias}", scenario.panel.name);
-    assert!(coverage >= 0.8, "{}: resample coverage {coverage}", scenario.panel.name);
+    scenario.measure().check_precise(scenario.panel.name, scenario.size as f64, 2);
 }
 
 /// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N): 20 microsatellites, Ne = 50, S = 50.
@@ -182,11 +178,11 @@ const ANY: std::ops::RangeInclusive<f64> = ANY_SHARE;
 /// Where the estimate is precise (Ne ≤ 200, S = 60: N̂e within a factor of two of Ne in over
 /// 90% of replicates in an exploratory run of 100 replicates), the warning is rare: at most a
 /// quarter of replicates (that run: 16% for microsatellites, 0% for SNPs).
-const RARE: std::ops::RangeInclusive<f64> = 0.0..=0.25;
+const RARE: std::ops::RangeInclusive<f64> = RARE_SHARE;
 /// Where it is not (Ne ≥ 1,000; within a factor of two in at most 84% of replicates, and in
 /// 7–54% with S = 25 or microsatellites), the warning reaches at least half the replicates
 /// (that run: 66–99%).
-const MOST: std::ops::RangeInclusive<f64> = 0.5..=1.0;
+const MOST: std::ops::RangeInclusive<f64> = MOST_SHARE;
 
 /// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N): 20 microsatellites, Ne = 1,000,
 /// S = 60 — the one large-Ne design of the normal suite (about 2 s): with 100 replicates, an
@@ -199,83 +195,73 @@ fn microsatellites_ne_1000_s_60() {
     check_large(&Scenario::new(Panel::microsatellites(), 1000, 60, 100), MOST);
 }
 
-/// Replicates of each large-Ne design run with `--ignored`: at a coverage of 0.95 the standard
-/// error of the measured share is 0.01.
-const LARGE_REPLICATES: u64 = 500;
-
-macro_rules! large_design {
-    ($(#[$doc:meta])* $name:ident, $panel:expr, $size:expr, $samples:expr, $flagged:expr) => {
-        $(#[$doc])*
-        #[test]
-        #[ignore = "slow statistical test: cargo test --release -p popgauge-builtin coverage -- --ignored --nocapture"]
-        fn $name() {
-            check_large(&Scenario::new($panel, $size, $samples, LARGE_REPLICATES), $flagged);
-        }
-    };
+/// A large-Ne design with [`LARGE_REPLICATES`] replicates.
+fn large(panel: Panel, size: usize, samples: usize) -> Scenario {
+    Scenario::new(panel, size, samples, LARGE_REPLICATES)
 }
 
 large_design!(
     /// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N = 200), 20 microsatellites, S = 25.
-    microsatellites_ne_200_s_25, Panel::microsatellites(), 200, 25, ANY
+    microsatellites_ne_200_s_25, large(Panel::microsatellites(), 200, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 20 microsatellites, S = 60.
-    microsatellites_ne_200_s_60, Panel::microsatellites(), 200, 60, RARE
+    microsatellites_ne_200_s_60, large(Panel::microsatellites(), 200, 60), RARE
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 20 microsatellites, S = 25.
-    microsatellites_ne_500_s_25, Panel::microsatellites(), 500, 25, ANY
+    microsatellites_ne_500_s_25, large(Panel::microsatellites(), 500, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 20 microsatellites, S = 60.
-    microsatellites_ne_500_s_60, Panel::microsatellites(), 500, 60, ANY
+    microsatellites_ne_500_s_60, large(Panel::microsatellites(), 500, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 20 microsatellites, S = 25.
-    microsatellites_ne_1000_s_25, Panel::microsatellites(), 1000, 25, MOST
+    microsatellites_ne_1000_s_25, large(Panel::microsatellites(), 1000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 20 microsatellites, S = 60: the normal-suite design
     /// with as many replicates as the other large designs.
-    microsatellites_ne_1000_s_60_500_replicates, Panel::microsatellites(), 1000, 60, MOST
+    microsatellites_ne_1000_s_60_500_replicates, large(Panel::microsatellites(), 1000, 60), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 20 microsatellites, S = 25.
-    microsatellites_ne_2000_s_25, Panel::microsatellites(), 2000, 25, MOST
+    microsatellites_ne_2000_s_25, large(Panel::microsatellites(), 2000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 20 microsatellites, S = 60.
-    microsatellites_ne_2000_s_60, Panel::microsatellites(), 2000, 60, MOST
+    microsatellites_ne_2000_s_60, large(Panel::microsatellites(), 2000, 60), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 500 SNPs, S = 25.
-    snps_ne_200_s_25, Panel::snps(), 200, 25, ANY
+    snps_ne_200_s_25, large(Panel::snps(), 200, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 500 SNPs, S = 60.
-    snps_ne_200_s_60, Panel::snps(), 200, 60, RARE
+    snps_ne_200_s_60, large(Panel::snps(), 200, 60), RARE
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 500 SNPs, S = 25.
-    snps_ne_500_s_25, Panel::snps(), 500, 25, ANY
+    snps_ne_500_s_25, large(Panel::snps(), 500, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 500 SNPs, S = 60.
-    snps_ne_500_s_60, Panel::snps(), 500, 60, ANY
+    snps_ne_500_s_60, large(Panel::snps(), 500, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 500 SNPs, S = 25.
-    snps_ne_1000_s_25, Panel::snps(), 1000, 25, MOST
+    snps_ne_1000_s_25, large(Panel::snps(), 1000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 500 SNPs, S = 60.
-    snps_ne_1000_s_60, Panel::snps(), 1000, 60, MOST
+    snps_ne_1000_s_60, large(Panel::snps(), 1000, 60), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 500 SNPs, S = 25.
-    snps_ne_2000_s_25, Panel::snps(), 2000, 25, MOST
+    snps_ne_2000_s_25, large(Panel::snps(), 2000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 500 SNPs, S = 60.
-    snps_ne_2000_s_60, Panel::snps(), 2000, 60, MOST
+    snps_ne_2000_s_60, large(Panel::snps(), 2000, 60), MOST
 );

@@ -19,7 +19,8 @@ use serde_json::json;
 
 use super::tests::run_with;
 use crate::test_support::accuracy::{
-    ANY_SHARE, Accuracy, Design, Estimator, Panel, closed_population, fraction, markdown_row, measure, signed, whole,
+    ANY_SHARE, Accuracy, Design, Estimator, LARGE_REPLICATES, MOST_SHARE, Panel, RARE_SHARE, closed_population,
+    fraction, large_design, markdown_row, measure, signed, whole,
 };
 use crate::test_support::sim::matrix_from_samples;
 
@@ -130,12 +131,7 @@ impl Scenario {
 /// replicate noise; 80% is the floor below which the interval could not be recommended,
 /// common practice).
 fn check(scenario: &Scenario) {
-    let accuracy = scenario.measure();
-    let fs = &accuracy.estimators[0];
-    let bias = fs.estimate.inverse_bias(scenario.size as f64);
-    let coverage = fs.intervals[0].coverage();
-    assert!(bias.abs() <= 0.2, "{}: Fs bias {bias}", scenario.panel.name);
-    assert!(coverage >= 0.8, "{}: Fs coverage {coverage}", scenario.panel.name);
+    scenario.measure().check_precise(scenario.panel.name, scenario.size as f64, 0);
 }
 
 /// Simulated truth (popgauge-sim, Wright–Fisher, Ne = N = 50): 20 microsatellites, plan II.
@@ -188,10 +184,10 @@ const ANY: std::ops::RangeInclusive<f64> = ANY_SHARE;
 /// Where the estimate is precise (Ne = 200, S = 60, t = 10: N̂e within a factor of two of Ne in
 /// at least 96% of replicates in an exploratory run of 100 replicates), the warning is rare: at
 /// most a quarter of replicates (that run: 0–2%).
-const RARE: std::ops::RangeInclusive<f64> = 0.0..=0.25;
+const RARE: std::ops::RangeInclusive<f64> = RARE_SHARE;
 /// Where it is not (Ne = 2,000 with S = 25: within a factor of two in 24–47% of replicates in
 /// that run), the warning reaches at least half the replicates (that run: 83–99%).
-const MOST: std::ops::RangeInclusive<f64> = 0.5..=1.0;
+const MOST: std::ops::RangeInclusive<f64> = MOST_SHARE;
 
 /// Simulated truth (Ne = N = 1,000): 20 microsatellites, plan II, S = 60, t = 10 — the one
 /// large-Ne temporal design of the normal suite (about 2 s): with 100 replicates, an
@@ -203,89 +199,78 @@ fn microsatellites_ne_1000_s_60_plan_two() {
     check_large(&Scenario::plan_two(Panel::microsatellites(), 1000, 60, 10, 100), ANY);
 }
 
-/// Replicates of each large-Ne design run with `--ignored`: at a coverage of 0.95 the standard
-/// error of the measured share is 0.01.
-const LARGE_REPLICATES: u64 = 500;
 /// Generations between the two samples of the large-Ne designs.
 const LARGE_GENERATIONS: u32 = 10;
 
-macro_rules! large_design {
-    ($(#[$doc:meta])* $name:ident, $panel:expr, $size:expr, $samples:expr, $flagged:expr) => {
-        $(#[$doc])*
-        #[test]
-        #[ignore = "slow statistical test: cargo test --release -p popgauge-builtin coverage -- --ignored --nocapture"]
-        fn $name() {
-            check_large(
-                &Scenario::plan_two($panel, $size, $samples, LARGE_GENERATIONS, LARGE_REPLICATES),
-                $flagged,
-            );
-        }
-    };
+/// A large-Ne plan II design, sampled [`LARGE_GENERATIONS`] apart, with [`LARGE_REPLICATES`]
+/// replicates.
+fn large(panel: Panel, size: usize, samples: usize) -> Scenario {
+    Scenario::plan_two(panel, size, samples, LARGE_GENERATIONS, LARGE_REPLICATES)
 }
 
 large_design!(
     /// Simulated truth (popgauge-sim: Wright–Fisher, Ne = N = 200), 20 microsatellites, plan II,
     /// S = 25, t = 10.
-    microsatellites_ne_200_s_25_plan_two, Panel::microsatellites(), 200, 25, ANY
+    microsatellites_ne_200_s_25_plan_two, large(Panel::microsatellites(), 200, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 20 microsatellites, plan II, S = 60, t = 10.
-    microsatellites_ne_200_s_60_plan_two, Panel::microsatellites(), 200, 60, RARE
+    microsatellites_ne_200_s_60_plan_two, large(Panel::microsatellites(), 200, 60), RARE
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 20 microsatellites, plan II, S = 25, t = 10.
-    microsatellites_ne_500_s_25_plan_two, Panel::microsatellites(), 500, 25, ANY
+    microsatellites_ne_500_s_25_plan_two, large(Panel::microsatellites(), 500, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 20 microsatellites, plan II, S = 60, t = 10.
-    microsatellites_ne_500_s_60_plan_two, Panel::microsatellites(), 500, 60, ANY
+    microsatellites_ne_500_s_60_plan_two, large(Panel::microsatellites(), 500, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 20 microsatellites, plan II, S = 25, t = 10.
-    microsatellites_ne_1000_s_25_plan_two, Panel::microsatellites(), 1000, 25, ANY
+    microsatellites_ne_1000_s_25_plan_two, large(Panel::microsatellites(), 1000, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 20 microsatellites, plan II, S = 60, t = 10: the
     /// normal-suite design with as many replicates as the other large designs.
-    microsatellites_ne_1000_s_60_plan_two_500_replicates, Panel::microsatellites(), 1000, 60, ANY
+    microsatellites_ne_1000_s_60_plan_two_500_replicates, large(Panel::microsatellites(), 1000, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 20 microsatellites, plan II, S = 25, t = 10.
-    microsatellites_ne_2000_s_25_plan_two, Panel::microsatellites(), 2000, 25, MOST
+    microsatellites_ne_2000_s_25_plan_two, large(Panel::microsatellites(), 2000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 20 microsatellites, plan II, S = 60, t = 10.
-    microsatellites_ne_2000_s_60_plan_two, Panel::microsatellites(), 2000, 60, ANY
+    microsatellites_ne_2000_s_60_plan_two, large(Panel::microsatellites(), 2000, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 500 SNPs, plan II, S = 25, t = 10.
-    snps_ne_200_s_25_plan_two, Panel::snps(), 200, 25, ANY
+    snps_ne_200_s_25_plan_two, large(Panel::snps(), 200, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 200), 500 SNPs, plan II, S = 60, t = 10.
-    snps_ne_200_s_60_plan_two, Panel::snps(), 200, 60, RARE
+    snps_ne_200_s_60_plan_two, large(Panel::snps(), 200, 60), RARE
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 500 SNPs, plan II, S = 25, t = 10.
-    snps_ne_500_s_25_plan_two, Panel::snps(), 500, 25, ANY
+    snps_ne_500_s_25_plan_two, large(Panel::snps(), 500, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 500), 500 SNPs, plan II, S = 60, t = 10.
-    snps_ne_500_s_60_plan_two, Panel::snps(), 500, 60, ANY
+    snps_ne_500_s_60_plan_two, large(Panel::snps(), 500, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 500 SNPs, plan II, S = 25, t = 10.
-    snps_ne_1000_s_25_plan_two, Panel::snps(), 1000, 25, ANY
+    snps_ne_1000_s_25_plan_two, large(Panel::snps(), 1000, 25), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 1,000), 500 SNPs, plan II, S = 60, t = 10.
-    snps_ne_1000_s_60_plan_two, Panel::snps(), 1000, 60, ANY
+    snps_ne_1000_s_60_plan_two, large(Panel::snps(), 1000, 60), ANY
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 500 SNPs, plan II, S = 25, t = 10.
-    snps_ne_2000_s_25_plan_two, Panel::snps(), 2000, 25, MOST
+    snps_ne_2000_s_25_plan_two, large(Panel::snps(), 2000, 25), MOST
 );
 large_design!(
     /// Simulated truth (Ne = N = 2,000), 500 SNPs, plan II, S = 60, t = 10.
-    snps_ne_2000_s_60_plan_two, Panel::snps(), 2000, 60, ANY
+    snps_ne_2000_s_60_plan_two, large(Panel::snps(), 2000, 60), ANY
 );

@@ -184,16 +184,19 @@ fn above(value: f64, threshold: f64) -> bool {
     value > threshold
 }
 
+/// The columns of the `indicator` table.
+pub(super) const INDICATOR_COLUMNS: [&str; 7] = [
+    "threshold",
+    "populations",
+    "with_estimate",
+    "above_point",
+    "share_point",
+    "above_lower_bound",
+    "share_lower_bound",
+];
+
 pub(super) fn indicator_table(assessed: &[Assessed], setting: &Setting) -> Result<Table, StepError> {
-    let mut table = Table::new(&[
-        "threshold",
-        "populations",
-        "with_estimate",
-        "above_point",
-        "share_point",
-        "above_lower_bound",
-        "share_lower_bound",
-    ]);
+    let mut table = Table::new(&INDICATOR_COLUMNS);
     let with_estimate = assessed.iter().filter(|a| a.estimable().is_some()).count();
     let share = |count: usize| (with_estimate > 0).then(|| count as f64 / with_estimate as f64);
     for &threshold in &setting.thresholds {

@@ -1,3 +1,7 @@
+//! Tests of the `status` step: the populations table through the step, threshold pairs, the
+//! decision caution, labels and sources, refused settings and the descriptor; the other subjects
+//! are in the submodules.
+
 use std::collections::BTreeMap;
 
 use popgauge_abi::{AssessmentInfo, Cell, GenotypeMatrix, Seed, StepStatus, Table, Where};
@@ -7,6 +11,12 @@ use super::tables::{POPULATION_COLUMNS, projection_points};
 use super::*;
 use crate::stats::drift::heterozygosity_retained;
 use crate::test_support::{MatrixBuilder, assert_close, findings_with, number, row_with, table, text};
+
+mod categories;
+mod estimate_choice;
+mod indicator;
+mod projections;
+mod special_values;
 
 fn earlier(id: &str, uses: &str, name: &str, columns: &[&str], rows: Vec<Vec<Cell>>) -> StepResult {
     let mut t = Table::new(columns);
@@ -24,6 +34,18 @@ fn earlier(id: &str, uses: &str, name: &str, columns: &[&str], rows: Vec<Vec<Cel
         citations: Vec::new(),
         exclusions: Default::default(),
     }
+}
+
+/// An earlier `ne-temporal` result (id `temp`) whose `estimates` table has these rows of
+/// population, year_start, year_end, ne_fs, ne_low and ne_high.
+fn temporal_result(rows: Vec<Vec<Cell>>) -> StepResult {
+    earlier(
+        "temp",
+        "ne-temporal",
+        "estimates",
+        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
+        rows,
+    )
 }
 
 fn n(x: f64) -> Cell {
@@ -84,16 +106,10 @@ fn earlier_results() -> Vec<StepResult> {
             ld_row("North", 2015, n(0.02), 40.0, n(300.0), [None, None, None]),
         ],
     );
-    let temporal = earlier(
-        "temp",
-        "ne-temporal",
-        "estimates",
-        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
-        vec![
-            vec![t("South"), Cell::Int(2010), Cell::Int(2015), n(900.0), n(400.0), Cell::Inf],
-            vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(600.0), n(300.0), Cell::Inf],
-        ],
-    );
+    let temporal = temporal_result(vec![
+        vec![t("South"), Cell::Int(2010), Cell::Int(2015), n(900.0), n(400.0), Cell::Inf],
+        vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(600.0), n(300.0), Cell::Inf],
+    ]);
     let diversity = earlier(
         "div",
         "diversity",
@@ -150,85 +166,6 @@ fn run_status(earlier: &[StepResult], assessment: &AssessmentInfo, params: Value
 
 fn default_run() -> StepOutput {
     run_status(&earlier_results(), &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap()
-}
-
-/// Soulé et al. (1986) formula, hand calculation: the Ne keeping 90% of heterozygosity for 100
-/// years is 118.89 with L = 4 and 47.71 with L = 10; by construction Wright's (1931) decay at
-/// that Ne over T/L generations leaves exactly 0.9.
-#[test]
-fn ne_to_retain_90_percent_matches_check_values() {
-    assert_close(ne_to_retain(0.9, 100.0, 4.0), 118.89, 0.005);
-    assert_close(ne_to_retain(0.9, 100.0, 10.0), 47.71, 0.005);
-    assert_close(heterozygosity_retained(ne_to_retain(0.9, 100.0, 4.0), 25.0), 0.9, 1e-12);
-}
-
-fn label(ne: Option<f64>, thresholds: &[f64]) -> String {
-    categorise(ne, true, thresholds).label(&default_labels(thresholds))
-}
-
-/// The category is the band of the point (common practice: a value equal to a threshold meets
-/// it, Franklin 1980 asking for "at least 50"), at, above and below both thresholds of 50/500.
-#[test]
-fn categories_against_50_500() {
-    let th = [50.0, 500.0];
-    assert_eq!(label(Some(49.9), &th), "below 50");
-    assert_eq!(label(Some(50.0), &th), "50–500");
-    assert_eq!(label(Some(499.0), &th), "50–500");
-    assert_eq!(label(Some(500.0), &th), "500 or more");
-    assert_eq!(label(Some(f64::INFINITY), &th), "500 or more");
-    assert_eq!(label(None, &th), "unknown");
-    assert_eq!(categorise(Some(f64::INFINITY), false, &th).label(&default_labels(&th)), "not estimable");
-}
-
-/// The same logic with 100/1000 (Frankham, Bradshaw & Brook 2014).
-#[test]
-fn categories_against_100_1000() {
-    let th = [100.0, 1000.0];
-    assert_eq!(default_labels(&th), vec!["below 100", "100–1000", "1000 or more"]);
-    assert_eq!(label(Some(99.0), &th), "below 100");
-    assert_eq!(label(Some(100.0), &th), "100–1000");
-    assert_eq!(label(Some(1000.0), &th), "1000 or more");
-    // 60 is "50–500" with 50/500 but "below 100" here.
-    assert_eq!(label(Some(60.0), &th), "below 100");
-}
-
-/// The interval reaches a threshold T when low < T ≤ high (common practice: values on both
-/// sides of T are then compatible with the data); the point's band is reported apart.
-#[test]
-fn the_interval_reaches_thresholds_beside_the_point_band() {
-    let th = [50.0, 500.0];
-    let reached = |low: f64, high: f64| reached_text(&thresholds_reached((low, high), &th), &th);
-    assert_eq!(reached(11.0, f64::INFINITY), "50 and 500");
-    assert_eq!(reached(30.0, 50.0), "50");
-    assert_eq!(reached(50.0, 80.0), "none");
-    assert_eq!(reached(400.0, 600.0), "500");
-    assert_eq!(reached(600.0, f64::INFINITY), "none");
-    assert_eq!(
-        interval_note((11.0, f64::INFINITY), &th),
-        "the 95 % interval 11–∞ does not exclude 50 or 500: Ne may lie on either side"
-    );
-    assert_eq!(interval_note((80.123, 199.7), &th), "the 95 % interval 80–200 lies between 50 and 500");
-    assert_eq!(interval_note((3.456, 9.0), &th), "the 95 % interval 3.5–9 lies below 50");
-    assert_eq!(interval_note((500.0, 900.0), &th), "the 95 % interval 500–900 lies at or above 500");
-}
-
-/// A point estimate of 30 with the interval 11–∞ is "below 50", and its interval reaches 50 and
-/// 500 (it does not hide behind "straddles 50 and 500").
-#[test]
-fn a_low_point_with_an_open_interval_keeps_its_band() {
-    let mut results = earlier_results();
-    let estimates = results[1].tables.get_mut("estimates").unwrap();
-    estimates.rows[1] = ld_row("North", 2020, n(0.02), 40.0, n(30.0), [None, Some((11.0, f64::INFINITY)), None]);
-    let output = run_status(&results, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    assert_eq!(text(pops, north, "category"), Some("below 50"));
-    assert_eq!(text(pops, north, "interval_reaches"), Some("50 and 500"));
-    assert_eq!(
-        text(pops, north, "interval_note"),
-        Some("the 95 % interval 11–∞ does not exclude 50 or 500: Ne may lie on either side")
-    );
-    assert_eq!(text(pops, north, "ci_method"), Some("jackknife"));
 }
 
 /// Through the step with thresholds 50/500 and L = 4 years, T = 100 years (25 generations).
@@ -288,165 +225,6 @@ fn populations_table_through_the_step() {
     assert!(s_null[0].message.ends_with(": South 2020 (temporal)"), "{}", s_null[0].message);
 }
 
-/// The cost of inbreeding, by hand from Morton, Crow & Muller (1956), W_t/W₀ = exp(−B·ΔF) with
-/// B = 2B/2 lethal equivalents per gamete and ΔF = f_drift: North (f_drift 0.099121 at Ne 120,
-/// 0.145074 at 80, 0.060660 at 200) with the default 12 diploid lethal equivalents keeps
-/// exp(−6·0.099121) = 0.551714, at the lower Ne bound 0.418766, at the upper 0.694917; with 3.1
-/// and 30.3 (the default range) 0.857583 and 0.222755. West has no Ne, so no cost; the
-/// finding says that B varies and purging is not modelled.
-#[test]
-fn fitness_retained_follows_drift_inbreeding_and_lethal_equivalents() {
-    let output = default_run();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    assert_close(number(pops, north, "fitness_retained").unwrap(), 0.551714, 1e-6);
-    assert_close(number(pops, north, "fitness_retained_low").unwrap(), 0.418766, 1e-6);
-    assert_close(number(pops, north, "fitness_retained_high").unwrap(), 0.694917, 1e-6);
-    assert_close(number(pops, north, "fitness_retained_b_low").unwrap(), 0.857583, 1e-6);
-    assert_close(number(pops, north, "fitness_retained_b_high").unwrap(), 0.222755, 1e-6);
-    let west = row_with(pops, "population", "West");
-    assert_eq!(number(pops, west, "fitness_retained"), None);
-    let caution = findings_with(&output, "inbreeding-depression");
-    assert_eq!(caution.len(), 1);
-    assert!(caution[0].message.contains("purging") && caution[0].message.contains("12"), "{}", caution[0].message);
-}
-
-/// STYLE: a range of lethal equivalents out of order is refused with a help line.
-#[test]
-fn lethal_equivalents_out_of_order_are_refused() {
-    let error = run_on(
-        &matrix(),
-        &earlier_results(),
-        &assessment(&[50.0, 500.0], Some(4.0)),
-        json!({"lethal_equivalents": 2.0, "lethal_equivalents_low": 3.1}),
-    )
-    .unwrap_err();
-    assert_eq!(
-        error.message,
-        "parameters `lethal_equivalents_low` = 3.1, `lethal_equivalents` = 2 and `lethal_equivalents_high` = 30.3 must \
-         be in ascending order\n  help: give a range around the value used, for example 3.1, 12 and 30.3"
-    );
-}
-
-/// Wright (1931): F_drift(t) = 1 − (1 − 1/(2Ne))ᵗ is by construction the share of
-/// heterozygosity lost, so h_retained + f_drift = 1 at the point, and at each bound with the
-/// bounds swapped (the lower Ne gives the higher F_drift); likewise in `projection`.
-#[test]
-fn retained_heterozygosity_and_drift_inbreeding_add_up_to_one() {
-    let output = default_run();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    let value = |column: &str| number(pops, north, column).unwrap();
-    assert_close(value("h_retained") + value("f_drift"), 1.0, 1e-15);
-    assert_close(value("h_retained_low") + value("f_drift_high"), 1.0, 1e-15);
-    assert_close(value("h_retained_high") + value("f_drift_low"), 1.0, 1e-15);
-    assert!(value("f_drift_low") < value("f_drift") && value("f_drift") < value("f_drift_high"));
-    let projection = table(&output, "projection");
-    for r in 0..projection.rows.len() {
-        let sum = number(projection, r, "h_retained").unwrap() + number(projection, r, "f_drift").unwrap();
-        assert_close(sum, 1.0, 1e-15);
-    }
-}
-
-/// No projection may start from FIS: changing FIS (−0.049 → 0.3) changes the fis columns and
-/// nothing else, neither in `populations` nor in `projection` (Wright 1951: FIS is within-sample
-/// non-random mating, not drift from today's population). No column f0 or f_projected remains.
-#[test]
-fn projections_do_not_depend_on_fis() {
-    let info = assessment(&[50.0, 500.0], Some(4.0));
-    let with_fis = |fis: f64| {
-        let mut results = earlier_results();
-        let by_group = results[0].tables.get_mut("by_group").unwrap();
-        by_group.rows[1][5] = n(fis);
-        run_status(&results, &info, json!({})).unwrap()
-    };
-    let (low, high) = (with_fis(-0.049), with_fis(0.3));
-    let (a, b) = (table(&low, "populations"), table(&high, "populations"));
-    let north = row_with(a, "population", "North");
-    assert_eq!((number(a, north, "fis"), number(b, north, "fis")), (Some(-0.049), Some(0.3)));
-    for (i, column) in a.columns.iter().enumerate().filter(|(_, c)| c.as_str() != "fis") {
-        assert_eq!(a.rows[north][i], b.rows[north][i], "{column} follows FIS");
-    }
-    assert_eq!(table(&low, "projection"), table(&high, "projection"));
-    for name in ["populations", "projection"] {
-        let columns = &table(&low, name).columns;
-        assert!(!columns.iter().any(|c| c == "f0" || c == "f_projected"), "{name}: {columns:?}");
-    }
-}
-
-/// Hoban et al. (2020) and the GBF headline indicator A.4 ("the proportion of populations
-/// within species with an effective population size > 500", metadata factsheet 2023): the count
-/// is strict. North (120; 80–200) and South (600; 300–∞) have estimates, West none: at 50, 2 of 2
-/// by point and lower bound; at 500, 1 of 2 by point (South) and 0 by lower bound.
-#[test]
-fn indicator_counts_point_and_lower_bound() {
-    let output = default_run();
-    let indicator = table(&output, "indicator");
-    assert_eq!(indicator.rows.len(), 2);
-    let columns = [
-        "threshold",
-        "populations",
-        "with_estimate",
-        "above_point",
-        "share_point",
-        "above_lower_bound",
-        "share_lower_bound",
-    ];
-    let row = |r: usize| columns.map(|c| number(indicator, r, c));
-    assert_eq!(row(0), [Some(50.0), Some(3.0), Some(2.0), Some(2.0), Some(1.0), Some(2.0), Some(1.0)]);
-    assert_eq!(row(1), [Some(500.0), Some(3.0), Some(2.0), Some(1.0), Some(0.5), Some(0.0), Some(0.0)]);
-}
-
-/// At exactly 500 a population is not "> 500" (GBF indicator A.4; Hoban et al. 2020), by
-/// point or by lower bound, though its category band (met at equality) is "500 or more"; 500.5
-/// counts.
-#[test]
-fn indicator_threshold_is_strict_at_exactly_500() {
-    let mut results = earlier_results();
-    let estimates = results[2].tables.get_mut("estimates").unwrap();
-    estimates.rows[1] = vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(500.0), n(500.0), n(800.0)];
-    let output = run_status(&results, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
-    let indicator = table(&output, "indicator");
-    assert_eq!(
-        (number(indicator, 1, "above_point"), number(indicator, 1, "above_lower_bound")),
-        (Some(0.0), Some(0.0))
-    );
-    let pops = table(&output, "populations");
-    assert_eq!(text(pops, row_with(pops, "population", "South"), "category"), Some("500 or more"));
-    let estimates = results[2].tables.get_mut("estimates").unwrap();
-    estimates.rows[1] = vec![t("South"), Cell::Int(2015), Cell::Int(2020), n(500.5), n(500.5), n(800.0)];
-    let output = run_status(&results, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
-    let indicator = table(&output, "indicator");
-    assert_eq!(
-        (number(indicator, 1, "above_point"), number(indicator, 1, "above_lower_bound")),
-        (Some(1.0), Some(1.0))
-    );
-}
-
-/// The projection has one point per generation from 0 to 25 (L = 4, T = 100), starting at
-/// H = 1 and ending at the population's h_retained; years advance by L.
-#[test]
-fn projection_curve_per_generation() {
-    let output = default_run();
-    let projection = table(&output, "projection");
-    assert_eq!(projection.columns, ["population", "generation", "years_ahead", "year", "h_retained", "f_drift"]);
-    let north: Vec<usize> =
-        (0..projection.rows.len()).filter(|&r| text(projection, r, "population") == Some("North")).collect();
-    assert_eq!(north.len(), 26);
-    let (first, last) = (north[0], north[25]);
-    assert_eq!(number(projection, first, "h_retained"), Some(1.0));
-    assert_eq!(number(projection, first, "f_drift"), Some(0.0));
-    assert_eq!(number(projection, last, "generation"), Some(25.0));
-    assert_eq!(number(projection, last, "year"), Some(2120.0));
-    assert_eq!(number(projection, last, "years_ahead"), Some(100.0));
-    assert_close(number(projection, last, "h_retained").unwrap(), 0.900879, 1e-6);
-    let horizon = table(&output, "horizon");
-    assert_close(number(horizon, 0, "ne_required").unwrap(), 118.89, 0.005);
-    // A short generation time: 200 generations over 100 years, so one point per 5 years.
-    assert_eq!(projection_points(200.0, 0.5).len(), 21);
-    assert_eq!(projection_points(2.5, 40.0), vec![0.0, 1.0, 2.0, 2.5]);
-}
-
 /// 100/1000 thresholds (Frankham, Bradshaw & Brook 2014): North (120; 80–200) is "100–1000" with
 /// its interval reaching 100; South (600; 300–∞) is "100–1000" reaching 1000; the thresholds
 /// finding names the source.
@@ -502,126 +280,6 @@ fn labels_census_year_and_sources() {
     assert_eq!(findings_with(&output, "no-interval").len(), 1);
 }
 
-/// Waples & Do (2010, Evol Appl 3:244–262): at harmonic-mean S ≤ 25 the no-singletons row
-/// represents the group, above it the Pcrit-0.02 row; an info finding names population, year,
-/// S and criterion, and a named criterion in `prefer` still wins.
-#[test]
-fn the_ld_criterion_follows_the_sample_size() {
-    let mut results = earlier_results();
-    let estimates = results[1].tables.get_mut("estimates").unwrap();
-    for row in &mut estimates.rows {
-        row[3] = n(18.0);
-    }
-    let singletons = ld_row("North", 2020, t("singletons"), 18.0, n(60.0), [None, Some((40.0, 95.0)), None]);
-    estimates.rows.push(singletons);
-    let info = assessment(&[50.0, 500.0], Some(4.0));
-    let output = run_status(&results, &info, json!({})).unwrap();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    assert_eq!((text(pops, north, "ne_method"), number(pops, north, "ne")), (Some("ld:singletons"), Some(60.0)));
-    assert_eq!(number(pops, north, "s"), Some(18.0));
-    let criterion = findings_with(&output, "ld-criterion");
-    assert_eq!(criterion.len(), 1);
-    assert_eq!(criterion[0].location, Where::group("North", 2020));
-    let message = &criterion[0].message;
-    assert!(message.starts_with("North 2020: the LD estimate uses no singletons at harmonic-mean S = 18"), "{message}");
-    assert!(message.contains("Waples & Do (2010)"), "{message}");
-    let output = run_status(&results, &info, json!({"prefer": ["ld:0.02"]})).unwrap();
-    let pops = table(&output, "populations");
-    assert_eq!(text(pops, row_with(pops, "population", "North"), "ne_method"), Some("ld:0.02"));
-    assert!(findings_with(&output, "ld-criterion")[0].message.contains("as `prefer` names it"));
-    // Without the no-singletons row the rule cannot be followed: a warning says what to add.
-    let output = run_status(&earlier_results_at_s(18.0), &info, json!({})).unwrap();
-    let missing = findings_with(&output, "ld-criterion-missing");
-    assert_eq!(missing.len(), 1);
-    assert!(missing[0].message.contains("exclude_singletons = true"), "{}", missing[0].message);
-}
-
-fn earlier_results_at_s(s: f64) -> Vec<StepResult> {
-    let mut results = earlier_results();
-    for row in &mut results[1].tables.get_mut("estimates").unwrap().rows {
-        row[3] = n(s);
-    }
-    results
-}
-
-/// Without a generation time the projection is empty and a finding says how to fix it.
-#[test]
-fn missing_generation_time_is_a_finding() {
-    let output = run_status(&earlier_results(), &assessment(&[50.0, 500.0], None), json!({})).unwrap();
-    assert!(table(&output, "projection").rows.is_empty());
-    let pops = table(&output, "populations");
-    assert_eq!(number(pops, 0, "h_retained"), None);
-    let missing = findings_with(&output, "no-generation-time");
-    assert!(missing[0].message.contains("generation_time_years"));
-}
-
-/// An infinite Ne with a finite lower bound keeps all heterozygosity and never loses 10%
-/// (Wright 1931: the factor is 1); the finding names exactly the columns that are "inf".
-#[test]
-fn infinite_ne_keeps_everything() {
-    let mut earlier = earlier_results();
-    earlier[1].tables.get_mut("estimates").unwrap().rows[1][4] = Cell::Inf;
-    earlier[1].tables.get_mut("estimates").unwrap().rows[1][10] = Cell::Inf;
-    let output = run_status(&earlier, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    assert_eq!(number(pops, north, "h_retained"), Some(1.0));
-    assert_eq!(number(pops, north, "f_drift"), Some(0.0));
-    assert_eq!(crate::test_support::cell(pops, north, "generations_to_lose_10"), &Cell::Inf);
-    assert_eq!(text(pops, north, "category"), Some("500 or more"));
-    let infinite = findings_with(&output, "infinite-ne");
-    assert!(
-        infinite[0].message.ends_with(": North 2020 (ne, ne_high, ne_nc, generations_to_lose_10, years_to_lose_10)"),
-        "{}",
-        infinite[0].message
-    );
-}
-
-/// A finding about special values names the column that carries them: South (600; 300–∞) has
-/// only an infinite ne_high, so it is listed under `infinite-upper-bound`, never as if its
-/// ne_nc (finite, 0.12) were "inf".
-#[test]
-fn special_value_findings_follow_the_columns() {
-    let output = default_run();
-    assert!(findings_with(&output, "infinite-ne").is_empty());
-    let upper = findings_with(&output, "infinite-upper-bound");
-    assert_eq!(upper.len(), 1);
-    assert!(upper[0].message.ends_with(": South 2020"), "{}", upper[0].message);
-    assert!(upper[0].message.contains("ne_nc and the projection at the point stay finite"), "{}", upper[0].message);
-    let pops = table(&output, "populations");
-    assert_close(number(pops, row_with(pops, "population", "South"), "ne_nc").unwrap(), 0.12, 1e-12);
-}
-
-/// An interval ∞–∞ is not estimable (common practice: it bounds nothing): category "not
-/// estimable", no projection, not counted in the indicator, and a warning that does not call the
-/// lower bound informative.
-#[test]
-fn an_infinite_lower_bound_is_not_estimable() {
-    let mut earlier = earlier_results();
-    let row = &mut earlier[1].tables.get_mut("estimates").unwrap().rows[1];
-    for column in [4, 9, 10] {
-        row[column] = Cell::Inf;
-    }
-    let output = run_status(&earlier, &assessment(&[50.0, 500.0], Some(4.0)), json!({})).unwrap();
-    let pops = table(&output, "populations");
-    let north = row_with(pops, "population", "North");
-    assert_eq!(text(pops, north, "category"), Some("not estimable"));
-    for column in ["h_retained", "f_drift", "f_drift_high", "ne_nc", "generations_to_lose_10", "interval_reaches"] {
-        assert_eq!(crate::test_support::cell(pops, north, column), &Cell::Null, "{column}");
-    }
-    assert!(
-        !(0..table(&output, "projection").rows.len())
-            .any(|r| text(table(&output, "projection"), r, "population") == Some("North"))
-    );
-    assert_eq!(number(table(&output, "indicator"), 0, "with_estimate"), Some(1.0));
-    let unbounded = findings_with(&output, "not-estimable");
-    assert_eq!(unbounded.len(), 1);
-    assert!(unbounded[0].message.ends_with(": North 2020"), "{}", unbounded[0].message);
-    assert!(!unbounded[0].message.contains("informative"));
-    assert!(findings_with(&output, "infinite-ne").is_empty());
-}
-
 /// Bad parameters and thresholds are errors naming the field and the fix.
 #[test]
 fn bad_settings_are_refused_with_help() {
@@ -649,89 +307,4 @@ fn parameters_are_declared_with_defaults() {
     assert_eq!(resolved["prefer"], json!(["ld", "temporal", "hetx"]));
     assert_eq!(resolved["horizon_years"], json!(100));
     assert_eq!(d.uses, "status");
-}
-
-/// A mixed example: A (S = 18) and B (S = 60, two years) have LD rows, C temporal rows (two
-/// ending in 2020, one in 2015), D an `ne-hetx` row, E LD rows without the criterion the rule
-/// asks for. `status` (default `prefer`) and `trend` (`ne:<step>`, default `ld_pcrit`) choose
-/// through the same SDK function, so for every population status's Ne, year and method equal
-/// trend's point of that step in that year (common practice: one representative per group).
-#[test]
-fn status_and_trend_choose_the_same_estimate() {
-    let matrix = MatrixBuilder::new(&["L1"])
-        .sample("a", "A", 2020, &["1/2"])
-        .sample("b1", "B", 2018, &["1/2"])
-        .sample("b2", "B", 2020, &["1/2"])
-        .sample("c1", "C", 2010, &["1/2"])
-        .sample("c2", "C", 2015, &["1/2"])
-        .sample("c3", "C", 2020, &["1/2"])
-        .sample("d", "D", 2020, &["1/2"])
-        .sample("e", "E", 2020, &["1/2"])
-        .build();
-    let jack = |ne: f64| [None, Some((ne / 2.0, ne * 3.0)), None];
-    let mut ld_rows = Vec::new();
-    for (population, year, s) in [("A", 2020, 18.0), ("B", 2018, 60.0), ("B", 2020, 60.0)] {
-        ld_rows.push(ld_row(population, year, n(0.05), s, n(400.0), jack(400.0)));
-        ld_rows.push(ld_row(population, year, n(0.02), s, n(250.0), jack(250.0)));
-        ld_rows.push(ld_row(population, year, t("singletons"), s, n(90.0), jack(90.0)));
-    }
-    ld_rows.push(ld_row("E", 2020, n(0.05), 12.0, n(70.0), jack(70.0)));
-    ld_rows.push(ld_row("E", 2020, n(0.02), 12.0, n(65.0), jack(65.0)));
-    let ld = earlier("ld", "ne-ld", "estimates", &LD_COLUMNS, ld_rows);
-    let temporal = earlier(
-        "temp",
-        "ne-temporal",
-        "estimates",
-        &["population", "year_start", "year_end", "ne_fs", "ne_low", "ne_high"],
-        vec![
-            vec![t("C"), Cell::Int(2010), Cell::Int(2015), n(700.0), n(300.0), Cell::Inf],
-            vec![t("C"), Cell::Int(2010), Cell::Int(2020), n(500.0), n(250.0), n(2000.0)],
-            vec![t("C"), Cell::Int(2015), Cell::Int(2020), n(350.0), n(150.0), n(1500.0)],
-        ],
-    );
-    let hetx = earlier(
-        "hx",
-        "ne-hetx",
-        "estimates",
-        &["population", "year", "d", "ne", "ne_low", "ne_high"],
-        vec![vec![t("D"), Cell::Int(2020), n(0.05), n(10.476), n(6.0), n(40.0)]],
-    );
-    let results = [ld, temporal, hetx];
-    let status = run_on(&matrix, &results, &assessment(&[50.0, 500.0], Some(2.0)), json!({})).unwrap();
-    let trend = run_trend(&results);
-    let (pops, series) = (table(&status, "populations"), table(&trend, "series"));
-    let expected = [
-        ("A", "ld", "ld:singletons"),
-        ("B", "ld", "ld:0.02"),
-        ("C", "temp", "temporal"),
-        ("D", "hx", "hetx"),
-        ("E", "ld", "ld:0.05"),
-    ];
-    for (population, step, method) in expected {
-        let r = row_with(pops, "population", population);
-        assert_eq!(text(pops, r, "ne_method"), Some(method), "{population}");
-        let year = number(pops, r, "ne_year").unwrap();
-        let point = (0..series.rows.len())
-            .find(|&p| {
-                text(series, p, "population") == Some(population)
-                    && text(series, p, "metric") == Some(&format!("ne:{step}"))
-                    && number(series, p, "year") == Some(year)
-            })
-            .unwrap_or_else(|| panic!("no trend point for {population} {year}"));
-        assert_eq!(number(series, point, "value"), number(pops, r, "ne"), "{population}");
-        assert_eq!(text(series, point, "ne_method"), Some(method), "{population}");
-    }
-    // C: the shortest, latest interval ending in 2020 (2015–2020), not the longest.
-    assert_eq!(number(pops, row_with(pops, "population", "C"), "ne"), Some(350.0));
-}
-
-fn run_trend(earlier: &[StepResult]) -> StepOutput {
-    use crate::steps::trend;
-    let resolved = trend::descriptor().resolve(&BTreeMap::from([("metrics".into(), json!(["ne"]))])).unwrap();
-    let m = matrix();
-    let (samples, loci) = (m.all_sample_indices(), m.all_locus_indices());
-    let info = AssessmentInfo::default();
-    let ctx =
-        StepContext::new(m.full_view(&samples, &loci), &resolved, Seed(1)).with_earlier(earlier).with_assessment(&info);
-    trend::Trend.run(&ctx).unwrap()
 }

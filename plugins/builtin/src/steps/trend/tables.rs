@@ -2,7 +2,8 @@
 
 use popgauge_abi::{Cell, StepError, Table};
 
-use super::{PairedChange, Series, TestedSeries};
+use super::paired::PairedChange;
+use super::{Series, TestedSeries};
 
 pub(super) fn tests_table(tested: &[TestedSeries<'_>]) -> Result<Table, StepError> {
     let mut table = Table::new(&[

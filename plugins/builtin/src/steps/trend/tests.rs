@@ -356,7 +356,7 @@ fn parameters_are_declared_with_defaults() {
     assert_eq!(d.uses, "trend");
 }
 
-/// DESIGN (no null without a finding saying why), on hand-made rows: a 4-point series whose
+/// No null without a finding saying why, on hand-made rows: a 4-point series whose
 /// Sen interval is null, a two-year comparison without changes (no test) and one with one
 /// bootstrap replicate (no interval); rows whose cells are defined are not listed.
 #[test]

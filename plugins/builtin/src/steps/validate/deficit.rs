@@ -4,7 +4,8 @@
 
 use popgauge_abi::{Finding, Group, LocusIdx, Seed, Where, format_number};
 
-use super::{Screen, percent};
+use super::Screen;
+use super::findings::percent;
 use crate::stats::hwe_exact::TestSettings;
 use crate::stats::hwe_groups::{
     DeficitEvidence, GroupTests, NULL_ALLELE_R, SIGNIFICANT_Q, assign_q_values, test_groups,
