@@ -6,7 +6,7 @@ use std::path::Path;
 use crate::support::{entries, popgauge};
 
 /// A small design: Ne 50, 10 microsatellites of about 8 alleles, 20 or 80 individuals.
-const SMALL_DESIGN: [&str; 13] = [
+const SMALL_PLAN_ARGS: [&str; 13] = [
     "plan",
     "--ne",
     "50",
@@ -23,7 +23,7 @@ const SMALL_DESIGN: [&str; 13] = [
 ];
 
 fn run_design(dir: &Path, out: &str) -> crate::support::Output {
-    let mut args = SMALL_DESIGN.to_vec();
+    let mut args = SMALL_PLAN_ARGS.to_vec();
     args.extend(["--out", out, "--quiet"]);
     popgauge(&args, dir)
 }

@@ -17,24 +17,27 @@
 use std::collections::{BTreeMap, BTreeSet};
 use std::fmt;
 use std::path::{Path, PathBuf};
-use std::sync::Arc;
-
-use popgauge_abi::{
-    Cell, Descriptor, Step, StepContext, StepError, StepOutput, StepResult, StepStatus, Table, format_number,
-};
 
 use ed25519_dalek::VerifyingKey;
 
-use crate::hash::{derive_seed, hash_canonical, sha256_hex};
-use crate::provenance::prov::ProvDocument;
-use crate::provenance::record::{FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, StepEntry, ToolBuild};
-use crate::provenance::signature::{SignatureCheck, check_signature, signature_path};
-use crate::engine::{EngineOutput, run_steps};
+use crate::hash::{hash_canonical, sha256_hex};
 use crate::host::{PluginTrust, not_trusted};
 use crate::output::OutputFiles;
-use crate::pipeline::{LoadedCase, RunError, load_case_trusting, render_outputs};
+use crate::pipeline::{RunError, load_case_trusting, render_outputs};
 use crate::progress::Progress;
+use crate::provenance::prov::ProvDocument;
+use crate::provenance::record::{
+    FileEntry, PROVENANCE_SCHEMA, ProvenanceRecord, RecordReadError, ToolBuild, parse_record,
+};
+use crate::provenance::signature::{SignatureCheck, check_signature, signature_path};
 use crate::results::ResultsDocument;
+
+mod differences;
+mod rerun;
+
+use differences::first_json_difference;
+pub use differences::{EDITED, RECOMPUTED, Sides, first_difference};
+use rerun::{Rerun, rerun};
 
 /// Why verification could not even start.
 #[derive(Debug, thiserror::Error)]
@@ -235,15 +238,13 @@ fn unmatched_trust(record: &ProvenanceRecord, trusted: &BTreeSet<String>) -> Vec
 }
 
 fn read_record(path: &Path) -> Result<ProvenanceRecord, VerifyError> {
-    let unreadable = |message: String| VerifyError::Unreadable { path: path.display().to_string(), message };
-    let text = std::fs::read_to_string(path).map_err(|e| unreadable(e.to_string()))?;
-    let value: serde_json::Value = serde_json::from_str(&text).map_err(|e| unreadable(e.to_string()))?;
-    let schema = value["schema"].as_str().unwrap_or_default().to_string();
-    if schema != PROVENANCE_SCHEMA {
-        let tool = value["tool"]["version"].as_str().map_or("unknown".into(), |v| format!("popgauge {v}"));
-        return Err(VerifyError::NewerFormat { path: path.display().to_string(), found: schema, tool });
-    }
-    serde_json::from_value(value).map_err(|e| unreadable(format!("it does not fit the record format: {e}")))
+    let shown = path.display().to_string();
+    let bytes =
+        std::fs::read(path).map_err(|e| VerifyError::Unreadable { path: shown.clone(), message: e.to_string() })?;
+    parse_record(&bytes).map_err(|error| match error {
+        RecordReadError::Unreadable(message) => VerifyError::Unreadable { path: shown, message },
+        RecordReadError::OtherFormat { found, tool } => VerifyError::NewerFormat { path: shown, found, tool },
+    })
 }
 
 fn tool_notes(recorded: &ToolBuild) -> Vec<String> {
@@ -297,34 +298,6 @@ fn check_prov(record: &ProvenanceRecord, report: &mut VerifyReport) {
         ))
     };
     report.push("record", "prov", verdict);
-}
-
-/// The path of the first member where two JSON values differ, e.g. `entity/popgauge:run`.
-fn first_json_difference(a: &Option<serde_json::Value>, b: &Option<serde_json::Value>) -> String {
-    use serde_json::Value;
-    fn walk(a: &Value, b: &Value, path: &mut Vec<String>) -> bool {
-        match (a, b) {
-            (Value::Object(x), Value::Object(y)) => {
-                let keys: std::collections::BTreeSet<&String> = x.keys().chain(y.keys()).collect();
-                for key in keys {
-                    path.push(key.clone());
-                    match (x.get(key), y.get(key)) {
-                        (Some(u), Some(v)) if walk(u, v, path) => return true,
-                        (Some(_), Some(_)) => {}
-                        _ => return true,
-                    }
-                    path.pop();
-                }
-                false
-            }
-            _ => a != b,
-        }
-    }
-    let mut path = Vec::new();
-    match (a, b) {
-        (Some(a), Some(b)) if walk(a, b, &mut path) => path.join("/"),
-        _ => "the top level".into(),
-    }
 }
 
 /// Each external plugin library the record names: present with the recorded hash, or not.
@@ -406,180 +379,6 @@ fn short(sha: &str) -> String {
     if sha.len() > 12 { format!("{}…{}", &sha[..8], &sha[sha.len() - 4..]) } else { sha.to_string() }
 }
 
-/// The steps re-run: with the recorded results of withheld plugin steps standing in (`engine`),
-/// and, when any step was withheld, once more without them (`without`), to tell which later
-/// steps and outputs depend on them.
-struct Rerun {
-    case: LoadedCase,
-    engine: EngineOutput,
-    without: Option<EngineOutput>,
-    /// Withheld step id → why it was not run.
-    withheld: BTreeMap<String, String>,
-}
-
-/// A withheld plugin step's recorded result, given back as its output when the engine runs it.
-struct RecordedStep {
-    descriptor: Descriptor,
-    result: Option<StepResult>,
-    why: String,
-}
-
-impl Step for RecordedStep {
-    fn descriptor(&self) -> Descriptor {
-        self.descriptor.clone()
-    }
-
-    fn run(&self, _ctx: &StepContext<'_>) -> Result<StepOutput, StepError> {
-        match &self.result {
-            Some(result) if result.status == StepStatus::Ok => Ok(StepOutput {
-                tables: result.tables.clone(),
-                findings: result.findings.clone(),
-                citations: result.citations.clone(),
-                filter: result.exclusions.clone(),
-            }),
-            Some(result) => Err(StepError::new(result.error.clone().unwrap_or_default())),
-            None => Err(StepError::new(format!(
-                "not run: {}, and results.json holds no copy of its recorded result",
-                self.why
-            ))),
-        }
-    }
-}
-
-/// Re-runs the steps with the recorded parameters and master seed; withheld plugin steps give
-/// their recorded results (when `results.json` holds them unchanged).
-fn rerun(
-    record: &ProvenanceRecord,
-    mut case: LoadedCase,
-    trust: &PluginTrust,
-    on_disk: Option<&ResultsDocument>,
-    report: &mut VerifyReport,
-    progress: &mut dyn Progress,
-) -> Option<Rerun> {
-    case.recipe.assessment.seed = record.assessment.seed;
-    case.recipe.assessment.date = record.assessment.date.clone();
-    let recipe_ids: Vec<&str> = case.recipe.steps.iter().map(|s| s.id.as_str()).collect();
-    let record_ids: Vec<&str> = record.steps.iter().map(|s| s.id.as_str()).collect();
-    if recipe_ids != record_ids {
-        report.push(
-            "record",
-            "steps",
-            Verdict::Differs(format!(
-                "the recipe's steps are {recipe_ids:?} but the record's are {record_ids:?}; the recipe's are re-run"
-            )),
-        );
-    }
-    for planned in &mut case.recipe.steps {
-        let Some(entry) = record.steps.iter().find(|e| e.id == planned.id) else { continue };
-        let descriptor = planned.step.descriptor();
-        if let Some(problem) = recorded_params_problem(entry, &planned.uses) {
-            report.push("record", format!("{} parameters", entry.id), Verdict::Differs(problem));
-        }
-        match descriptor.resolve(&entry.params) {
-            Ok(params) => planned.params = params,
-            Err(e) => report.push(
-                "record",
-                format!("{} parameters", entry.id),
-                Verdict::Differs(format!("the recorded parameters are not valid: {e}")),
-            ),
-        }
-        if derive_seed(record.assessment.seed, &entry.id).0 != entry.seed {
-            report.push(
-                "record",
-                format!("{} seed", entry.id),
-                Verdict::Differs(format!(
-                    "recorded seed {} is not the one derived from the master seed {}",
-                    entry.seed, record.assessment.seed
-                )),
-            );
-        }
-    }
-    let withheld = withhold(record, &mut case, trust, on_disk, report);
-    let without = if withheld.is_empty() {
-        None
-    } else {
-        // The case's recipe still holds the withheld steps as they were loaded (never run).
-        let mut recipe = case.recipe.clone();
-        for planned in &mut recipe.steps {
-            if let Some(w) = withheld.get(&planned.id) {
-                planned.step = Arc::clone(&w.original);
-            }
-        }
-        Some(recipe)
-    };
-    let outcome = run_steps(&case.recipe, &case.data, progress).and_then(|engine| {
-        let without = match &without {
-            Some(recipe) => Some(run_steps(recipe, &case.data, progress)?),
-            None => None,
-        };
-        Ok((engine, without))
-    });
-    match outcome {
-        Ok((engine, without)) => {
-            Some(Rerun { case, engine, without, withheld: withheld.into_iter().map(|(id, w)| (id, w.why)).collect() })
-        }
-        Err(e) => {
-            report.push("step", "re-run", Verdict::Differs(format!("the steps could not be re-run: {e}")));
-            None
-        }
-    }
-}
-
-/// A withheld step: why, and its step as loaded (never run), for the run without it.
-struct Withheld {
-    why: String,
-    original: Arc<dyn Step>,
-}
-
-/// Puts the recorded result in place of each plugin step whose library is not trusted, and
-/// lists those steps in the report.
-fn withhold(
-    record: &ProvenanceRecord,
-    case: &mut LoadedCase,
-    trust: &PluginTrust,
-    on_disk: Option<&ResultsDocument>,
-    report: &mut VerifyReport,
-) -> BTreeMap<String, Withheld> {
-    let mut withheld = BTreeMap::new();
-    for planned in &mut case.recipe.steps {
-        let Some(plugin) = planned.plugin.as_ref().filter(|p| !trust.admits(&p.sha256)) else { continue };
-        let why = not_trusted(&plugin.sha256);
-        let recorded = record.steps.iter().find(|e| e.id == planned.id).and_then(|entry| {
-            on_disk?
-                .steps
-                .iter()
-                .find(|s| s.id == entry.id)
-                .filter(|s| hash_canonical(s).is_ok_and(|h| h == entry.result_sha256))
-                .cloned()
-        });
-        report.withheld.push(WithheldStep {
-            id: planned.id.clone(),
-            library: plugin.path.clone(),
-            sha256: plugin.sha256.clone(),
-        });
-        let stand_in = RecordedStep { descriptor: planned.step.descriptor(), result: recorded, why: why.clone() };
-        let original = std::mem::replace(&mut planned.step, Arc::new(stand_in));
-        withheld.insert(planned.id.clone(), Withheld { why, original });
-    }
-    withheld
-}
-
-/// `uses` is the recipe's (for a plugin step `plugin:PATH`, as the record stores it).
-fn recorded_params_problem(entry: &StepEntry, uses: &str) -> Option<String> {
-    let hash = hash_canonical(&entry.params).unwrap_or_default();
-    if hash != entry.params_sha256 {
-        return Some(format!(
-            "parameter changed: the recorded parameters hash to {} but the record says {}",
-            short(&hash),
-            short(&entry.params_sha256)
-        ));
-    }
-    if uses != entry.uses {
-        return Some(format!("step uses \"{uses}\" in the recipe but \"{}\" in the record", entry.uses));
-    }
-    None
-}
-
 fn read_results(out_dir: &Path) -> Option<ResultsDocument> {
     let text = std::fs::read_to_string(out_dir.join("results.json")).ok()?;
     serde_json::from_str(&text).ok()
@@ -636,116 +435,6 @@ fn compare_steps(
                 );
             }
         }
-    }
-}
-
-/// How the two sides of a comparison are named in messages.
-#[derive(Debug, Clone, Copy)]
-pub struct Sides {
-    /// The reference side.
-    pub reference: &'static str,
-    /// The side compared with it.
-    pub other: &'static str,
-}
-
-/// A recorded result against a recomputation.
-pub const RECOMPUTED: Sides = Sides { reference: "recorded", other: "recomputed" };
-/// The recorded (and reproduced) result against what results.json now holds.
-pub const EDITED: Sides = Sides { reference: "recorded", other: "results.json has" };
-
-/// The first difference between two step results, in words.
-pub fn first_difference(recorded: &StepResult, recomputed: &StepResult, sides: Sides) -> Option<String> {
-    let Sides { reference, other } = sides;
-    let names: std::collections::BTreeSet<&String> = recorded.tables.keys().chain(recomputed.tables.keys()).collect();
-    for name in names {
-        match (recorded.tables.get(name), recomputed.tables.get(name)) {
-            (Some(a), Some(b)) => {
-                if let Some(d) = table_difference(name, a, b, sides) {
-                    return Some(d);
-                }
-            }
-            (Some(_), None) => return Some(format!("table {name} is {reference} but {other} lacks it")),
-            (None, Some(_)) => return Some(format!("table {name} is in {other} but not {reference}")),
-            (None, None) => {}
-        }
-    }
-    if recorded.findings != recomputed.findings {
-        let position = recorded
-            .findings
-            .iter()
-            .zip(&recomputed.findings)
-            .position(|(a, b)| a != b)
-            .unwrap_or(recorded.findings.len().min(recomputed.findings.len()));
-        return Some(format!(
-            "findings differ from finding {} on ({} {reference}, {} {other})",
-            position + 1,
-            recorded.findings.len(),
-            recomputed.findings.len()
-        ));
-    }
-    if recorded.citations != recomputed.citations {
-        return Some("citations differ".into());
-    }
-    if recorded.exclusions != recomputed.exclusions {
-        return Some("exclusions differ".into());
-    }
-    (recorded.version != recomputed.version)
-        .then(|| format!("step version {} {reference}, {} {other}", recorded.version, recomputed.version))
-}
-
-fn table_difference(name: &str, a: &Table, b: &Table, sides: Sides) -> Option<String> {
-    let Sides { reference, other } = sides;
-    if a.columns != b.columns {
-        return Some(format!("table {name} has columns {:?} {reference}, {:?} {other}", a.columns, b.columns));
-    }
-    for (r, (row_a, row_b)) in a.rows.iter().zip(&b.rows).enumerate() {
-        for (c, (x, y)) in row_a.iter().zip(row_b).enumerate() {
-            if !same_cell(x, y) {
-                return Some(format!(
-                    "table {name} row {}{} column {}: {reference} {}, {other} {}{}",
-                    r + 1,
-                    row_key(a, row_a),
-                    a.columns[c],
-                    show(x),
-                    show(y),
-                    by_how_much(x, y)
-                ));
-            }
-        }
-    }
-    (a.rows.len() != b.rows.len())
-        .then(|| format!("table {name} has {} rows {reference}, {} {other}", a.rows.len(), b.rows.len()))
-}
-
-fn same_cell(x: &Cell, y: &Cell) -> bool {
-    match (x.as_f64(), y.as_f64()) {
-        (Some(a), Some(b)) => a.to_bits() == b.to_bits() || a == b,
-        _ => x == y,
-    }
-}
-
-/// The identifying text cells of a row (population, year, locus…), e.g. ` (Brennmoor, 2024)`.
-fn row_key(table: &Table, row: &[Cell]) -> String {
-    let keys: Vec<String> = ["population", "pop_a", "pop_b", "year", "locus", "sample", "metric", "pcrit"]
-        .iter()
-        .filter_map(|k| table.column(k).map(|i| row[i].to_string()))
-        .filter(|s| !s.is_empty())
-        .collect();
-    if keys.is_empty() { String::new() } else { format!(" ({})", keys.join(", ")) }
-}
-
-fn show(cell: &Cell) -> String {
-    match cell {
-        Cell::Null => "null".into(),
-        Cell::Text(t) => format!("\"{t}\""),
-        other => other.to_string(),
-    }
-}
-
-fn by_how_much(x: &Cell, y: &Cell) -> String {
-    match (x.as_f64(), y.as_f64()) {
-        (Some(a), Some(b)) if a.is_finite() && b.is_finite() => format!(" (by {})", format_number(b - a)),
-        _ => String::new(),
     }
 }
 

@@ -2,7 +2,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use popgauge::host::{interpret_output, parse_descriptor};
+use popgauge_engine::host::{interpret_output, parse_descriptor};
 use popgauge_abi::ffi::STATUS_OK;
 
 fuzz_target!(|bytes: &[u8]| {

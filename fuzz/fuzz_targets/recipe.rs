@@ -5,8 +5,8 @@
 use std::sync::OnceLock;
 
 use libfuzzer_sys::fuzz_target;
-use popgauge::recipe::load_recipe;
-use popgauge::recipe::resolve::parse;
+use popgauge_engine::recipe::load_recipe;
+use popgauge_engine::recipe::resolve::parse;
 
 /// A case folder with a genotype table and a population sheet, made once per process.
 fn case_dir() -> &'static tempfile::TempDir {

@@ -6,10 +6,10 @@ use std::io::Write as _;
 use std::sync::OnceLock;
 
 use libfuzzer_sys::fuzz_target;
-use popgauge::data::sample_sheet::{SampleSheet, read_sample_sheet};
-use popgauge::data::vcf::{VcfOptions, read_vcf};
-use popgauge::progress::Silent;
-use popgauge::recipe::SiteFilters;
+use popgauge_engine::data::sample_sheet::{SampleSheet, read_sample_sheet};
+use popgauge_engine::data::vcf::{VcfOptions, read_vcf};
+use popgauge_engine::progress::Silent;
+use popgauge_engine::recipe::SiteFilters;
 
 fn sheet() -> &'static SampleSheet {
     static SHEET: OnceLock<SampleSheet> = OnceLock::new();

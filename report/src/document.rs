@@ -13,6 +13,7 @@
 mod appendix;
 mod inbreeding;
 mod methods_prose;
+mod projection;
 mod ne_overview;
 mod quality;
 mod sampling;
@@ -92,7 +93,7 @@ pub struct ReportData {
     /// Trends (`trend`), when in the recipe.
     pub trends: Option<sections::TrendSection>,
     /// Projections (`status`), when in the recipe.
-    pub projections: Option<summary::ProjectionSection>,
+    pub projections: Option<projection::ProjectionSection>,
     /// Steps the document has no section for (plugins), with their tables.
     pub additional: Vec<sections::AdditionalStep>,
     /// Steps as they ran, and the references.
@@ -244,7 +245,7 @@ pub fn build(source: &ReportSource<'_>) -> Built {
     let differentiation = sections::differentiation_section(&context, &mut extras);
     let ne = sections::ne_section(&context, &mut extras);
     let trends = sections::trend_section(&context, &mut extras);
-    let projections = summary::projection_section(&context, &mut extras);
+    let projections = projection::projection_section(&context, &mut extras);
     let additional = sections::additional_steps(&context, &mut extras);
     let methods = methods(source, projections.is_some() || ne.is_some() || summary.status_step.is_some());
     let Extras { figures, appendix } = extras;

@@ -49,3 +49,34 @@ impl ProvenanceRecord {
         }
     }
 }
+
+/// Why the bytes of a `provenance.json` are not a record this version reads.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum RecordReadError {
+    /// Not UTF-8 JSON, or JSON that does not fit the record format.
+    Unreadable(String),
+    /// A record of another format (`schema`), with the tool that wrote it.
+    OtherFormat {
+        /// The `schema` found (empty when there is none).
+        found: String,
+        /// `popgauge <version>` from the record, or `unknown`.
+        tool: String,
+    },
+}
+
+/// Parses the bytes of a `provenance.json` the way `verify` reads them: UTF-8 JSON whose
+/// `schema` is [`PROVENANCE_SCHEMA`], then every member in its place (unknown members refused).
+///
+/// # Errors
+/// [`RecordReadError`] saying what is wrong; never a panic, whatever the bytes.
+pub fn parse_record(bytes: &[u8]) -> Result<ProvenanceRecord, RecordReadError> {
+    let text = std::str::from_utf8(bytes).map_err(|e| RecordReadError::Unreadable(format!("it is not UTF-8 text ({e})")))?;
+    let value: serde_json::Value = serde_json::from_str(text).map_err(|e| RecordReadError::Unreadable(e.to_string()))?;
+    let schema = value["schema"].as_str().unwrap_or_default().to_string();
+    if schema != PROVENANCE_SCHEMA {
+        let tool = value["tool"]["version"].as_str().map_or("unknown".into(), |v| format!("popgauge {v}"));
+        return Err(RecordReadError::OtherFormat { found: schema, tool });
+    }
+    serde_json::from_value(value)
+        .map_err(|e| RecordReadError::Unreadable(format!("it does not fit the record format: {e}")))
+}

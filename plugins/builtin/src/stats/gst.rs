@@ -262,7 +262,7 @@ mod tests {
     /// G′_ST = G_ST(k − 1 + H_S)/[(k − 1)(1 − H_S)] is Hedrick (2005), from memory. G″_ST = k(H_T − H_S)/[(kH_T − H_S)(1 − H_S)]
     /// (Meirmans & Hedrick 2011) and D = [(H_T − H_S)/(1 − H_S)]·[k/(k − 1)] with Jost's estimators
     /// Ĥ_S = 2ñ/(2ñ − 1)·H_S, Ĥ_T = H_T + Ĥ_S/(2ñk) (Jost 2008, eq. 12 and the estimators
-    /// beside it) are from memory: the papers could not be consulted here. Their structure is
+    /// beside it) are from memory, not checked against the papers. Their structure is
     /// checked independently by the derivations in `indices_reach_their_bounds`.
     #[test]
     fn gst_measures_of_one_locus_match_hand_values() {

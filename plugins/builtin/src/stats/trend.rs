@@ -379,9 +379,9 @@ mod tests {
     /// An invented series with ties, years 2001–2012.
     const TIED_SERIES: [f64; 12] = [5.0, 3.0, 3.0, 4.0, 2.0, 2.0, 2.0, 1.0, 6.0, 1.0, 0.0, 0.0];
 
-    /// Exact upper tails of the Mann–Kendall S (Kendall's table as remembered: from memory, not
-    /// checked against Gilbert Table A18, which could not be consulted), re-derived by
-    /// enumerating all n! orders in tests/reference/trend_reference.py (Python 3.11).
+    /// Exact upper tails of the Mann–Kendall S (Kendall's table: from memory, not checked
+    /// against Gilbert 1987, Table A18), re-derived by enumerating all n! orders in
+    /// tests/reference/trend_reference.py (Python 3.11).
     #[test]
     fn exact_upper_tails_match_enumeration() {
         let cases = [
