@@ -104,6 +104,21 @@ fn the_demo_document_is_complete_and_matches_the_results() {
 
     // The status table shows each population's latest He and F as in results.json.
     let doc = results(&out);
+    // The results contract: the built-in steps the demo runs write every table and column name
+    // the SDK spells for readers (common practice: one spelling, checked against the writers).
+    let tables: Vec<(&str, &serde_json::Value)> = doc["steps"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|step| step["tables"].as_object().unwrap().iter().map(|(name, table)| (name.as_str(), table)))
+        .collect();
+    for name in popgauge_abi::contract::table::ALL {
+        assert!(tables.iter().any(|(t, _)| t == name), "no built-in step writes a table `{name}`");
+    }
+    for name in popgauge_abi::contract::col::ALL {
+        let written = tables.iter().any(|(_, t)| t["columns"].as_array().unwrap().iter().any(|c| c == name));
+        assert!(written, "no built-in table has the column `{name}`");
+    }
     let diversity = rows(&doc, "diversity", "by_group");
     for population in ["Brennmoor", "Lake Oster", "Sellick Ford", "Tarrow Glen"] {
         let latest =

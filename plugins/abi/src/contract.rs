@@ -13,6 +13,15 @@
 //! assert_eq!((uses::DIVERSITY, table::BY_GROUP), ("diversity", "by_group"));
 //! ```
 
+/// Defines each name as a `&str` constant and lists them all in `ALL`.
+macro_rules! names {
+    ($($name:ident = $value:literal;)*) => {
+        $(pub const $name: &str = $value;)*
+        /// Every name defined here, in order.
+        pub const ALL: &[&str] = &[$($name),*];
+    };
+}
+
 /// `uses` names of the built-in steps.
 pub mod uses {
     /// Data checks.
@@ -43,86 +52,91 @@ pub mod uses {
 
 /// Column names of the built-in steps' tables. The Ne estimate columns are documented in
 /// [`crate::ne_columns`]; the others are the column's own name (`ho`, `fis_low`, `pop_a`),
-/// described with each step in `docs/methods.md`.
+/// described with each step in `docs/methods.md`. `ALL` lists the names defined here (not the
+/// Ne columns); a test checks that the built-in steps write every one of them.
 pub mod col {
     #![allow(missing_docs)]
     pub use crate::ne_columns::{
         NE, NE_FS, NE_HIGH, NE_JACK_HIGH, NE_JACK_LOW, NE_LOW, NE_PARAM_HIGH, NE_PARAM_LOW, NE_RESAMPLE_HIGH,
         NE_RESAMPLE_LOW, PCRIT, POPULATION, S, YEAR, YEAR_END, YEAR_START,
     };
-    pub const LOCUS: &str = "locus";
-    pub const SAMPLE: &str = "sample";
-    pub const STATUS: &str = "status";
-    pub const REASON: &str = "reason";
-    pub const N: &str = "n";
-    pub const N_TOTAL: &str = "n_total";
-    pub const N_KEPT: &str = "n_kept";
-    pub const HO: &str = "ho";
-    pub const HE: &str = "he";
-    pub const F: &str = "f";
-    pub const FIS: &str = "fis";
-    pub const FIS_LOW: &str = "fis_low";
-    pub const FIS_HIGH: &str = "fis_high";
-    pub const ALLELES_MEAN: &str = "alleles_mean";
-    pub const AR: &str = "ar";
-    pub const PAR: &str = "par";
-    pub const P_VALUE: &str = "p_value";
-    pub const Q_VALUE: &str = "q_value";
-    pub const DIRECTION: &str = "direction";
-    pub const POP_A: &str = "pop_a";
-    pub const POP_B: &str = "pop_b";
-    pub const FST: &str = "fst";
-    pub const FST_P: &str = "fst_p";
-    pub const FST_LOW: &str = "fst_low";
-    pub const FST_HIGH: &str = "fst_high";
-    pub const JOST_D: &str = "jost_d";
-    pub const GST_PP: &str = "gst_pp";
-    pub const F_DRIFT: &str = "f_drift";
-    pub const F_DRIFT_LOW: &str = "f_drift_low";
-    pub const F_DRIFT_HIGH: &str = "f_drift_high";
-    pub const H_RETAINED_LOW: &str = "h_retained_low";
-    pub const H_RETAINED_HIGH: &str = "h_retained_high";
-    pub const TREND_DIRECTION: &str = "direction";
-    pub const NE_REQUIRED: &str = "ne_required";
-    pub const RETAIN_TARGET: &str = "retain_target";
-    pub const GENERATIONS: &str = "generations";
-    pub const METRIC: &str = "metric";
-    pub const POINTS: &str = "points";
-    pub const MK_TAU: &str = "mk_tau";
-    pub const MK_P: &str = "mk_p";
-    pub const SEN_SLOPE: &str = "sen_slope";
-    pub const OLS_SLOPE: &str = "ols_slope";
-    pub const OLS_LOW: &str = "ols_low";
-    pub const OLS_HIGH: &str = "ols_high";
-    pub const NE_METHOD: &str = "ne_method";
-    pub const NE_YEAR: &str = "ne_year";
-    pub const VALUE: &str = "value";
-    pub const INTERVAL_NOTE: &str = "interval_note";
-    pub const CATEGORY: &str = "category";
-    pub const CENSUS_SIZE: &str = "census_size";
-    pub const NE_NC: &str = "ne_nc";
-    pub const H_RETAINED: &str = "h_retained";
+    names! {
+        LOCUS = "locus";
+        SAMPLE = "sample";
+        STATUS = "status";
+        REASON = "reason";
+        N = "n";
+        N_TOTAL = "n_total";
+        N_KEPT = "n_kept";
+        HO = "ho";
+        HE = "he";
+        F = "f";
+        FIS = "fis";
+        FIS_LOW = "fis_low";
+        FIS_HIGH = "fis_high";
+        ALLELES_MEAN = "alleles_mean";
+        AR = "ar";
+        PAR = "par";
+        P_VALUE = "p_value";
+        Q_VALUE = "q_value";
+        DIRECTION = "direction";
+        POP_A = "pop_a";
+        POP_B = "pop_b";
+        FST = "fst";
+        FST_P = "fst_p";
+        FST_LOW = "fst_low";
+        FST_HIGH = "fst_high";
+        JOST_D = "jost_d";
+        GST_PP = "gst_pp";
+        F_DRIFT = "f_drift";
+        F_DRIFT_LOW = "f_drift_low";
+        F_DRIFT_HIGH = "f_drift_high";
+        H_RETAINED_LOW = "h_retained_low";
+        H_RETAINED_HIGH = "h_retained_high";
+        TREND_DIRECTION = "direction";
+        NE_REQUIRED = "ne_required";
+        RETAIN_TARGET = "retain_target";
+        GENERATIONS = "generations";
+        METRIC = "metric";
+        POINTS = "points";
+        MK_TAU = "mk_tau";
+        MK_P = "mk_p";
+        SEN_SLOPE = "sen_slope";
+        OLS_SLOPE = "ols_slope";
+        OLS_LOW = "ols_low";
+        OLS_HIGH = "ols_high";
+        NE_METHOD = "ne_method";
+        NE_YEAR = "ne_year";
+        VALUE = "value";
+        INTERVAL_NOTE = "interval_note";
+        CATEGORY = "category";
+        CENSUS_SIZE = "census_size";
+        NE_NC = "ne_nc";
+        H_RETAINED = "h_retained";
+    }
     pub const D: &str = "d";
 }
 
 /// Table names of the built-in steps.
 pub mod table {
     #![allow(missing_docs)]
-    pub const LOCI: &str = "loci";
-    pub const SAMPLES: &str = "samples";
-    pub const GROUPS: &str = "groups";
-    pub const BY_GROUP: &str = "by_group";
-    pub const BY_LOCUS: &str = "by_locus";
-    pub const PAIRWISE: &str = "pairwise";
-    pub const GLOBAL: &str = "global";
-    pub const IBD: &str = "ibd";
-    pub const IBD_TEST: &str = "ibd_test";
-    pub const ESTIMATES: &str = "estimates";
-    pub const TESTS: &str = "tests";
-    pub const SERIES: &str = "series";
-    pub const PAIRED: &str = "paired";
-    pub const POPULATIONS: &str = "populations";
-    pub const PROJECTION: &str = "projection";
-    pub const INDICATOR: &str = "indicator";
+    names! {
+        LOCI = "loci";
+        SAMPLES = "samples";
+        GROUPS = "groups";
+        BY_GROUP = "by_group";
+        BY_LOCUS = "by_locus";
+        PAIRWISE = "pairwise";
+        GLOBAL = "global";
+        IBD = "ibd";
+        IBD_TEST = "ibd_test";
+        ESTIMATES = "estimates";
+        TESTS = "tests";
+        SERIES = "series";
+        PAIRED = "paired";
+        POPULATIONS = "populations";
+        PROJECTION = "projection";
+        INDICATOR = "indicator";
+    }
     pub const HORIZON: &str = "horizon";
 }
