@@ -350,11 +350,11 @@ fn methods(source: &ReportSource<'_>, thresholds_shown: bool) -> Methods {
                     &step.uses,
                     &run.map(|r| r.params.clone()).unwrap_or_default(),
                     source.results.assessment.generation_time_years,
-                ) + &if step.findings.iter().any(|f| f.code == popgauge_engine::host::sandbox::NOT_SANDBOXED) {
-                    methods_prose::unsandboxed(&step.id)
-                } else {
-                    String::new()
-                },
+                ) + &methods_prose::plugin_code(
+                    &step.id,
+                    run.and_then(|r| r.plugin.as_ref()),
+                    step.findings.iter().any(|f| f.code == popgauge_engine::host::sandbox::NOT_SANDBOXED),
+                ),
                 status: match (&step.status, &step.error) {
                     (popgauge_abi::StepStatus::Ok, _) => "ok".into(),
                     (popgauge_abi::StepStatus::Failed, error) => {

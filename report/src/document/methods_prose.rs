@@ -4,6 +4,7 @@
 
 use std::collections::BTreeMap;
 
+use popgauge_engine::host::{Isolation, PluginRecord};
 use serde_json::Value;
 
 use super::super::contract::uses;
@@ -109,12 +110,27 @@ pub(crate) fn step_prose(
     }
 }
 
-/// The sentence added to a plugin step's prose when its worker ran without (part of) the
-/// operating system's sandbox (finding `worker-not-sandboxed`).
-pub(crate) fn unsandboxed(id: &str) -> String {
-    format!(
-        " The code of step {id} ran in a separate worker process, but without the operating system's sandbox that popgauge uses where the kernel offers one (its findings say what was missing), so it was not confined to reading its inputs."
-    )
+/// What the prose says of a plugin step's code: which library (its path and SHA-256 as pinned)
+/// and where its code ran — in the confined worker, in a worker without (part of) the
+/// operating system's sandbox (finding `worker-not-sandboxed`), or inside popgauge. Empty for
+/// a built-in step, or when the run record is not at hand.
+pub(crate) fn plugin_code(id: &str, plugin: Option<&PluginRecord>, not_sandboxed: bool) -> String {
+    let Some(plugin) = plugin else { return String::new() };
+    let sha = &plugin.sha256;
+    let short = if sha.len() > 12 { format!("{}…{}", &sha[..8], &sha[sha.len() - 4..]) } else { sha.clone() };
+    let library = format!(" Its code is the library {} (SHA-256 {short}, pinned in the recipe).", plugin.path);
+    let confinement = match (plugin.isolation, not_sandboxed) {
+        (Isolation::InProcess, _) => format!(
+            " The code of step {id} ran inside popgauge's own process (isolation = \"in-process\"), with popgauge's rights and no confinement."
+        ),
+        (Isolation::Process, true) => format!(
+            " The code of step {id} ran in a separate worker process, but without the operating system's sandbox that popgauge uses where the kernel offers one (its findings say what was missing), so it was not confined to reading its inputs."
+        ),
+        (Isolation::Process, false) => format!(
+            " The code of step {id} ran in a separate worker process confined by the operating system (Landlock and seccomp on Linux): it could read only its inputs, write only its scratch folder, open no network connection and start no program, within memory and CPU-time limits."
+        ),
+    };
+    library + &confinement
 }
 
 fn trimmed(value: f64) -> String {
@@ -216,6 +232,24 @@ mod tests {
         assert!(temporal.contains("plan I, where") && temporal.contains("/ 2 years per generation"), "{temporal}");
         let plugin = step_prose("kin", "plugin:libkin.so", &BTreeMap::new(), None);
         assert!(plugin.contains("external step library libkin.so"), "{plugin}");
-        assert!(unsandboxed("kin").starts_with(" The code of step kin ran in a separate worker process, but without"));
+        let record = |isolation| PluginRecord {
+            path: "plugins/libkin.so".into(),
+            sha256: "c9b8cadb70e8eb82059f1637b47a5f5936d7da8766e6e9b1cee8461fb21c18c5".into(),
+            isolation,
+            descriptor: popgauge_abi::Descriptor {
+                uses: "kin".into(),
+                version: "0.1.0".into(),
+                summary: "kinship".into(),
+                params: Vec::new(),
+            },
+        };
+        let confined = plugin_code("kin", Some(&record(Isolation::Process)), false);
+        assert!(confined.contains("library plugins/libkin.so (SHA-256 c9b8cadb…18c5, pinned in the recipe)"), "{confined}");
+        assert!(confined.contains("confined by the operating system"), "{confined}");
+        let open = plugin_code("kin", Some(&record(Isolation::Process)), true);
+        assert!(open.contains("ran in a separate worker process, but without"), "{open}");
+        let inside = plugin_code("kin", Some(&record(Isolation::InProcess)), false);
+        assert!(inside.contains("no confinement"), "{inside}");
+        assert_eq!(plugin_code("kin", None, true), "", "a built-in step has no plugin sentence");
     }
 }
