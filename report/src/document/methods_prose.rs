@@ -105,7 +105,7 @@ pub(crate) fn step_prose(
             "Step {id} ran {}; popgauge reports its tables as the step gave them. Its method is described in its own documentation and the references it cites.",
             other
                 .strip_prefix("plugin:")
-                .map_or_else(|| format!("`{other}`"), |lib| format!("the external step library {lib}"))
+                .map_or_else(|| format!("\u{201c}{other}\u{201d}"), |lib| format!("the external step library {lib}"))
         ),
     }
 }
