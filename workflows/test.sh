@@ -103,7 +103,7 @@ written() {
 }
 
 # --- first run: everything -------------------------------------------------------------------
-echo "Running the workflow on ${#cases[@]} cases (log: $work/first.log)"
+echo "Running the workflow on ${#cases[@]} cases"
 workflow >"$work/first.log" 2>&1 || { cat "$work/first.log" "$work"/out/logs/*.log >&2 || true; fail "the first run failed"; }
 for case in "${cases[@]}"; do
     for file in provenance.json results.json assessment.pdf; do
