@@ -5,6 +5,7 @@
 use std::collections::BTreeMap;
 use std::path::Path;
 
+use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 use super::PortfolioError;
@@ -18,7 +19,7 @@ use crate::provenance::record::{FileEntry, ToolBuild};
 pub const PORTFOLIO_SCHEMA: &str = "popgauge.portfolio-provenance/1";
 
 /// The settings a portfolio was made with: with the same cases they give the same files.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct Settings {
     /// Title.
@@ -36,7 +37,7 @@ pub struct Settings {
 }
 
 /// One case as read.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct CaseEntry {
     /// The output folder, relative to the portfolio's output folder.
@@ -52,7 +53,7 @@ pub struct CaseEntry {
 }
 
 /// The run.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct PortfolioRun {
     /// Start, UTC.
@@ -61,11 +62,12 @@ pub struct PortfolioRun {
     pub ended: String,
 }
 
-/// The whole record.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// The record of a portfolio: what it read, how, and what it wrote.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
+#[schemars(title = "popgauge portfolio provenance record (provenance.json of a portfolio)")]
 pub struct PortfolioRecord {
-    /// [`PORTFOLIO_SCHEMA`].
+    /// `popgauge.portfolio-provenance/1`.
     pub schema: String,
     /// The tool build.
     pub tool: ToolBuild,
@@ -81,6 +83,12 @@ pub struct PortfolioRecord {
     pub outputs: Vec<FileEntry>,
     /// The same facts in W3C PROV terms, derived by [`prov`].
     pub prov: serde_json::Value,
+}
+
+/// The schema of the record, as (file name under `schemas/`, pretty JSON with a final line break).
+pub fn schema() -> (&'static str, String) {
+    let schema = schemars::schema_for!(PortfolioRecord);
+    ("portfolio-provenance.schema.json", format!("{}\n", serde_json::to_string_pretty(&schema).unwrap_or_default()))
 }
 
 /// The settings as one line for the fingerprint.
