@@ -12,7 +12,7 @@ use crate::provenance::signature::read_public_key;
 /// Arguments of `popgauge verify`.
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// The provenance.json of an output folder (or the output folder itself).
+    /// The provenance.json of an output folder or a portfolio (or the folder itself).
     pub provenance: PathBuf,
     /// The folder holding the case's recipe and data, when it has moved since the run
     /// [default: the case folder recorded relative to the output folder].
