@@ -9,6 +9,7 @@ mod check;
 mod cli;
 mod plan;
 mod plugins;
+mod portfolio;
 mod report;
 mod run;
 mod schemas;
