@@ -6,18 +6,15 @@ use std::path::{Path, PathBuf};
 use crate::report::pdf_text;
 use crate::support::{Case, Output, popgauge};
 
-/// Three case outputs in one temporary folder: the demo, the demo colony (no status step) and
-/// a copy of the demo set as another species, with one population known only by its census.
+/// Case outputs in one temporary folder: the demo, the two example cases of
+/// `examples/portfolio/cases/` (the beetle's sheet given one more heath known only by its
+/// census) and the demo colony, whose recipe has no status step.
 struct Portfolio {
     _cases: Vec<Case>,
     root: tempfile::TempDir,
 }
 
 impl Portfolio {
-    fn outputs(&self) -> Vec<PathBuf> {
-        ["newt", "colony", "snail"].iter().map(|n| self.root.path().join(n)).collect()
-    }
-
     fn path(&self) -> &Path {
         self.root.path()
     }
@@ -27,24 +24,23 @@ impl Portfolio {
     }
 }
 
-fn three_cases() -> Portfolio {
+/// The census-only heath added to the beetle's sheet.
+const CENSUS_ONLY: &str = "Dunmere Heath";
+
+fn four_cases() -> Portfolio {
     let root = tempfile::tempdir().expect("temporary folder");
     let newt = Case::demo();
+    let mussel = Case::portfolio_example("river-mussel");
+    let beetle = Case::portfolio_example("ground-beetle");
     let colony = Case::colony();
-    let snail = Case::demo();
-    let recipe = snail.read("case.toml").replace(
-        "species = \"Korrin valley newt (Tritonella korrinensis)\"",
-        "species = \"Halvard pond snail (Lymnaea fictiva)\"",
-    );
-    snail.write("case.toml", recipe);
-    let sheet = snail.read("populations.csv") + "Wexmoor,Wexmoor bog pools,3200,2024,61.9,10.1,1.0\n";
-    snail.write("populations.csv", sheet);
-    for (case, name) in [(&newt, "newt"), (&colony, "colony"), (&snail, "snail")] {
+    let sheet = beetle.read("populations.csv") + &format!("{CENSUS_ONLY},{CENSUS_ONLY} fragment,3200,2025,57.4,13.1\n");
+    beetle.write("populations.csv", sheet);
+    for (case, name) in [(&newt, "newt"), (&mussel, "mussel"), (&beetle, "beetle"), (&colony, "colony")] {
         let out = root.path().join(name);
         let run = case.run(&["run", "case", "--out", out.to_str().unwrap(), "--quiet"]);
         assert_eq!(run.code, 0, "{name}: {}", run.stderr);
     }
-    Portfolio { _cases: vec![newt, colony, snail], root }
+    Portfolio { _cases: vec![newt, mussel, beetle, colony], root }
 }
 
 fn csv_rows(path: &Path) -> Vec<BTreeMap<String, String>> {
@@ -65,24 +61,24 @@ fn number(row: &BTreeMap<String, String>, column: &str) -> Option<f64> {
 }
 
 fn portfolio(p: &Portfolio, extra: &[&str]) -> Output {
-    let mut args = vec!["portfolio", "newt", "colony", "snail", "--out", "pf", "--date", "2026-12-01"];
+    let mut args = vec!["portfolio", "newt", "mussel", "beetle", "colony", "--out", "pf", "--date", "2026-12-01"];
     args.extend_from_slice(extra);
     p.run(&args)
 }
 
 /// The portfolio's counts per case equal each case's own `status` indicator table (the same
 /// rule: Ne strictly above the threshold, by point and by lower bound; Hoban et al. 2020),
-/// and the overall row adds the census-based population (Ne = 3200 × 0.1 = 320, which is
-/// above 50 and not above 500).
+/// and the overall row adds the census-based heath (Ne = 3200 × 0.1 = 320, which is above 50
+/// and not above 500).
 #[test]
 fn portfolio_counts_match_the_cases_status_tables() {
-    let p = three_cases();
+    let p = four_cases();
     let out = portfolio(&p, &[]);
     assert_eq!(out.code, 0, "{}", out.stderr);
-    assert!(out.stdout.contains("3 case(s)"), "{}", out.stdout);
+    assert!(out.stdout.contains("4 case(s)"), "{}", out.stdout);
     let populations = csv_rows(&p.path().join("pf/tables/populations.csv"));
     let mut totals: BTreeMap<String, (usize, usize, usize)> = BTreeMap::new();
-    for case in ["newt", "snail"] {
+    for case in ["newt", "mussel", "beetle"] {
         for status in csv_rows(&p.path().join(case).join("tables/status.indicator.csv")) {
             let threshold: f64 = status["threshold"].parse().unwrap();
             let rows: Vec<_> = populations
@@ -104,7 +100,7 @@ fn portfolio_counts_match_the_cases_status_tables() {
     }
     let census: Vec<_> = populations.iter().filter(|r| r["ne_basis"] == "census").collect();
     assert_eq!(census.len(), 1);
-    assert_eq!(census[0]["population"], "Wexmoor");
+    assert_eq!(census[0]["population"], CENSUS_ONLY);
     assert_eq!(number(census[0], "ne"), Some(320.0));
     let colony: Vec<_> = populations.iter().filter(|r| r["case"] == "../colony").collect();
     assert!(!colony.is_empty() && colony.iter().all(|r| r["ne_basis"] == "none" && r["category"] == "no Ne"));
@@ -118,7 +114,7 @@ fn portfolio_counts_match_the_cases_status_tables() {
         assert_eq!(all[&format!("above_{t}_lower")], (lower + census_above).to_string(), "{t}");
     }
     assert_eq!(all["census_based"], "1");
-    assert_eq!(indicators.iter().filter(|r| r["scope"] == "species").count(), 2);
+    assert_eq!(indicators.iter().filter(|r| r["scope"] == "species").count(), 3);
     check_document(&p);
     // The same cases and settings give the same PDF bytes (common practice for reproducible
     // documents: no clock or random input reaches the typesetter).
@@ -133,14 +129,14 @@ fn check_document(p: &Portfolio) {
     let text = pdf_text(&p.path().join("pf/portfolio.pdf"));
     let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(flat.contains("Genetic status of the populations assessed"), "{flat}");
-    assert!(flat.contains("brings together 3 assessments of 2 species"), "{flat}");
+    assert!(flat.contains("brings together 4 assessments of 3 species"), "{flat}");
     assert!(flat.contains("from a census size alone (census × Ne/N ratio 0.1)"), "{flat}");
     let chart = std::fs::read_to_string(p.path().join("pf/figures/ne.svg")).unwrap();
-    assert!(chart.contains(">Wexmoor (census)<"), "chart row flagged: {chart}");
+    assert!(chart.contains(&format!(">{CENSUS_ONLY} (census)<")), "chart row flagged: {chart}");
     assert!(flat.contains("Thresholds are guidance"), "{flat}");
     assert!(flat.contains("qualified conservation geneticist"), "{flat}");
     let cases = csv_rows(&p.path().join("pf/tables/cases.csv"));
-    assert_eq!(cases.len(), 3);
+    assert_eq!(cases.len(), 4);
     for case in &cases {
         assert!(flat.contains(&case["record_sha256"][..32]), "hash of {} printed", case["output"]);
     }
@@ -150,7 +146,7 @@ fn check_document(p: &Portfolio) {
 /// `verify` on the portfolio reports the edited case, and `--deep` re-runs every case.
 #[test]
 fn edited_cases_are_refused_and_verify_checks_the_portfolio() {
-    let p = three_cases();
+    let p = four_cases();
     check_manifest(&p);
     let verified = p.run(&["verify", "pf", "--deep", "--quiet"]);
     assert_eq!(verified.code, 0, "{}\n{}", verified.stdout, verified.stderr);
@@ -183,15 +179,15 @@ fn edited_cases_are_refused_and_verify_checks_the_portfolio() {
 /// and two cases assessing the same population.
 #[test]
 fn bad_portfolio_inputs_are_named() {
-    let p = three_cases();
+    let p = four_cases();
     let case_folder = p.run(&["portfolio", "newt", "newt/tables", "--out", "pf"]);
     assert_eq!(case_folder.code, 2);
     assert!(case_folder.stderr.contains("newt/tables: this is not a popgauge output folder"), "{}", case_folder.stderr);
 
-    let record = p.path().join("snail/provenance.json");
+    let record = p.path().join("beetle/provenance.json");
     let newer = std::fs::read_to_string(&record).unwrap().replace("popgauge.provenance/1", "popgauge.provenance/2");
     std::fs::write(&record, newer).unwrap();
-    let newer = p.run(&["portfolio", "snail", "--out", "pf"]);
+    let newer = p.run(&["portfolio", "beetle", "--out", "pf"]);
     assert_eq!(newer.code, 2);
     assert!(newer.stderr.contains("\"popgauge.provenance/2\", newer than this popgauge reads"), "{}", newer.stderr);
 
@@ -210,7 +206,8 @@ fn bad_portfolio_inputs_are_named() {
         copy.stderr
     );
 
-    let duplicate = p.run(&["portfolio", "newt", &p.outputs()[0].display().to_string(), "--out", "pf"]);
+    let absolute = p.path().join("newt").display().to_string();
+    let duplicate = p.run(&["portfolio", "newt", &absolute, "--out", "pf"]);
     assert_eq!(duplicate.code, 2);
     assert!(duplicate.stderr.contains("the same case output is given twice"), "{}", duplicate.stderr);
 
@@ -238,7 +235,7 @@ fn bad_portfolio_inputs_are_named() {
 fn check_manifest(p: &Portfolio) {
     std::fs::write(
         p.path().join("manifest.csv"),
-        "output,species_group,region\nnewt,amphibians,Halvard Uplands\ncolony,amphibians,Halvard Uplands\nsnail,molluscs,Halvard Uplands\n",
+        "output,species_group,region\nnewt,amphibians,Halvard Uplands\ncolony,amphibians,Halvard Uplands\nmussel,molluscs,Quarrendale\nbeetle,insects,Quarrendale\n",
     )
     .unwrap();
     let out = p.run(&["portfolio", "--manifest", "manifest.csv", "--out", "pf", "--date", "2026-12-01"]);
@@ -249,7 +246,7 @@ fn check_manifest(p: &Portfolio) {
         names.contains(&("species_group", "amphibians")) && names.contains(&("species_group", "molluscs")),
         "{names:?}"
     );
-    assert!(names.contains(&("region", "Halvard Uplands")), "{names:?}");
+    assert!(names.contains(&("region", "Halvard Uplands")) && names.contains(&("region", "Quarrendale")), "{names:?}");
     let record = std::fs::read_to_string(p.path().join("pf/provenance.json")).unwrap();
     assert!(record.contains("\"role\": \"manifest\""), "{record}");
     assert_eq!(p.run(&["verify", "pf", "--quiet"]).code, 0);
