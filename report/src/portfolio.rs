@@ -152,7 +152,8 @@ pub fn document_data(source: &PortfolioSource, marks: usize) -> PortfolioData {
         fingerprint: source.fingerprint.clone(),
         tool_version: env!("CARGO_PKG_VERSION").to_string(),
         counts: Counts { cases: source.cases.len(), species, populations: source.populations.len() },
-        summary: text::summary(source),
+        // A percentage stays on one line with its sign.
+        summary: text::summary(source).into_iter().map(|s| s.replace(" %", "\u{a0}%")).collect(),
         indicators: indicator_table(source.indicators.iter().filter(|i| i.scope == "all" || i.scope == "species")),
         groups: indicator_table(source.indicators.iter().filter(|i| i.scope == "species_group" || i.scope == "region")),
         populations: population_table(source),
@@ -167,7 +168,7 @@ pub fn document_data(source: &PortfolioSource, marks: usize) -> PortfolioData {
 /// `3 (75.0 %)`, or the count alone without a share.
 fn count_share(count: usize, share: Option<f64>) -> String {
     match share {
-        Some(share) => format!("{count} ({})", format::percent(share)),
+        Some(share) => format!("{count} ({})", format::percent(share).replace(' ', "\u{a0}")),
         None => count.to_string(),
     }
 }
@@ -203,7 +204,7 @@ fn indicator_table<'a>(indicators: impl Iterator<Item = &'a Indicator>) -> Table
             row.push(count_share(count.above_lower, count.share_lower));
         }
         row.push(match (indicator.h_retained_mean, indicator.horizon_years) {
-            (Some(mean), Some(horizon)) => format!("{} ({} y)", format::fixed(mean, 3), format::short(horizon, 4)),
+            (Some(mean), Some(horizon)) => format!("{} ({}\u{a0}y)", format::fixed(mean, 3), format::short(horizon, 4)),
             _ => format::UNDEFINED.into(),
         });
         table.push(row);
@@ -235,7 +236,7 @@ fn population_table(source: &PortfolioSource) -> TableData {
             NeBasis::None => "no status step".into(),
         };
         let retained = match (p.h_retained, p.horizon_years) {
-            (Some(h), Some(years)) => format!("{} ({} y)", format::fixed(h, 3), format::short(years, 4)),
+            (Some(h), Some(years)) => format!("{} ({}\u{a0}y)", format::fixed(h, 3), format::short(years, 4)),
             _ => format::UNDEFINED.into(),
         };
         table.push(vec![
