@@ -10,6 +10,7 @@ mod cli;
 mod map;
 mod plan;
 mod plugins;
+mod portfolio;
 mod report;
 mod run;
 mod schemas;

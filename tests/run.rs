@@ -215,6 +215,29 @@ fn the_demo_case_runs() {
     assert_eq!(populations.len(), 4);
 }
 
+/// The example cases of a portfolio (one wide table of microsatellites, one bgzipped VCF) run
+/// without error-level findings, and their status table has one row per population of the
+/// population sheet, each with a threshold category.
+#[test]
+fn the_example_portfolio_cases_run_without_errors() {
+    for (name, populations) in [("river-mussel", 3), ("ground-beetle", 3)] {
+        let case = Case::portfolio_example(name);
+        let run = case.run(&["run", "case", "--threads", "2"]);
+        assert_eq!(run.code, 0, "{name}: {}", run.stderr);
+        assert!(run.stdout.contains("Findings: 0 error(s)"), "{name}: {}", run.stdout);
+        let doc = results(&case, "out");
+        let (columns, rows) = table_rows(&doc, "status", "populations");
+        assert_eq!(rows.len(), populations, "{name}");
+        let sheet = case.read("populations.csv");
+        for row in rows {
+            let population = cell(columns, row, "population").as_str().unwrap();
+            assert!(sheet.lines().any(|line| line.starts_with(&format!("{population},"))), "{name}: {population}");
+            let category = cell(columns, row, "category").as_str().unwrap();
+            assert!(["below 50", "50–500", "500 or more"].contains(&category), "{name}: {population} {category}");
+        }
+    }
+}
+
 /// A case that runs for several seconds: 20 multi-allelic loci whose Hardy–Weinberg tests
 /// take a million permutations each.
 fn slow_case() -> Case {

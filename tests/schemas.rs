@@ -6,7 +6,8 @@ use crate::support::repo_root;
 #[test]
 fn committed_schemas_match_the_types() {
     let update = std::env::var_os("POPGAUGE_UPDATE_SCHEMAS").is_some();
-    for (name, text) in popgauge::schemas::all_schemas() {
+    let portfolio = popgauge::portfolio::record::schema();
+    for (name, text) in popgauge::schemas::all_schemas().into_iter().chain([portfolio]) {
         let path = repo_root().join("schemas").join(name);
         if update {
             std::fs::write(&path, &text).unwrap();

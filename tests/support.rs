@@ -29,6 +29,11 @@ impl Case {
         Case::copy_of(&repo_root().join("demo-colony"))
     }
 
+    /// A copy of the example case `examples/portfolio/cases/<name>/`.
+    pub fn portfolio_example(name: &str) -> Case {
+        Case::copy_of(&repo_root().join("examples/portfolio/cases").join(name))
+    }
+
     fn copy_of(source: &Path) -> Case {
         let root = tempfile::tempdir().expect("temporary folder");
         copy_dir(source, &root.path().join("case"));

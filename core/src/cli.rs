@@ -4,6 +4,7 @@ pub mod check;
 pub mod keygen;
 pub mod new;
 pub mod plan;
+pub mod portfolio;
 pub mod reporter;
 pub mod run;
 pub mod sign;
@@ -61,6 +62,8 @@ pub enum Command {
     New(new::Args),
     /// Size a sampling design before fieldwork: simulate plausible Ne and compare LD estimates by sample size.
     Plan(plan::Args),
+    /// Bring the outputs of many cases together: indicator tables, a portfolio document and its provenance.
+    Portfolio(portfolio::Args),
     /// Check a provenance record: re-hash the inputs, re-run the steps, re-typeset, and say what differs.
     Verify(verify::Args),
     /// Sign an output folder's provenance record with an organisation's ed25519 key.
@@ -85,6 +88,7 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Steps(args) => steps::run(args),
         Command::New(args) => new::run(args),
         Command::Plan(args) => plan::run(args),
+        Command::Portfolio(args) => portfolio::run(args),
         Command::Verify(args) => verify::run(args),
         Command::Sign(args) => sign::run(args),
         Command::Keygen(args) => keygen::run(args),

@@ -23,6 +23,7 @@ pub mod audit;
 pub mod cli;
 pub mod pipeline;
 pub mod planning;
+pub mod portfolio;
 
 pub use popgauge_engine::{
     data, dates, engine, hash, host, interrupt, output, pretty, progress, provenance, recipe, results, schemas, source,

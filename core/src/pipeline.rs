@@ -237,12 +237,12 @@ struct RunFacts {
     operator: Option<String>,
 }
 
-fn absolute_path(path: &Path) -> PathBuf {
+pub(crate) fn absolute_path(path: &Path) -> PathBuf {
     path.canonicalize().unwrap_or_else(|_| std::env::current_dir().unwrap_or_default().join(path))
 }
 
 /// `to` relative to `from` (both absolute), e.g. `..` for a case folder holding `out/`.
-fn relative_path(from: &Path, to: &Path) -> String {
+pub(crate) fn relative_path(from: &Path, to: &Path) -> String {
     let from: Vec<_> = from.components().collect();
     let to: Vec<_> = to.components().collect();
     let common = from.iter().zip(&to).take_while(|(a, b)| a == b).count();

@@ -388,10 +388,17 @@ fn cross_check(matrix: &GenotypeMatrix, sheet: &[PopulationInfo], file: &str) ->
     let in_data: BTreeSet<&str> = matrix.samples().iter().map(|s| s.population.as_str()).collect();
     let in_sheet: BTreeSet<&str> = sheet.iter().map(|p| p.population.as_str()).collect();
     let mut findings = Vec::new();
+    let census: BTreeSet<&str> =
+        sheet.iter().filter(|p| p.census_size.is_some()).map(|p| p.population.as_str()).collect();
     for population in in_sheet.difference(&in_data) {
+        let message = if census.contains(population) {
+            format!("{file}: population \"{population}\" has no samples in the genotype table, only a census size: the steps leave it out, and `popgauge portfolio` counts it with a census-based Ne (check the spelling if it was sampled)")
+        } else {
+            format!("{file}: population \"{population}\" has no samples in the genotype table; its row is not used (check the spelling)")
+        };
         findings.push(Finding::warning(
             "unknown-population",
-            format!("{file}: population \"{population}\" has no samples in the genotype table; its row is not used (check the spelling)"),
+            message,
             Where { file: Some(file.into()), population: Some(population.to_string()), ..Where::default() },
         ));
     }

@@ -230,7 +230,7 @@ macro_rules! draw_markers {
 }
 
 /// Nice round bounds of a log axis covering `values` and `thresholds`.
-fn log_bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
+pub(crate) fn log_bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
     let finite: Vec<f64> = values.filter(|v| v.is_finite() && *v > 0.0).collect();
     let low = finite.iter().copied().fold(f64::INFINITY, f64::min);
     let high = finite.iter().copied().fold(0.0_f64, f64::max);

@@ -23,6 +23,7 @@ pub mod contract;
 pub mod document;
 pub mod figures;
 pub mod format;
+pub mod portfolio;
 pub mod template;
 pub mod typst;
 
@@ -218,12 +219,15 @@ pub fn render(source: &ReportSource<'_>, template: &Template) -> Result<Report, 
         serde_json::to_vec_pretty(&value).map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
     data.push(b'\n');
     let assessment = &built.data.assessment;
+    let ident = format!("assessment-{}", source.fingerprint);
     let pdf = typst::typeset(&typst::TypesetJob {
         template,
+        main: template::MAIN_FILE,
+        data_file: DATA_FILE,
         data: &data,
         figures: &figures,
         date: (assessment.year, assessment.month, assessment.day),
-        ident: source.fingerprint,
+        ident: &ident,
     })?;
     Ok(Report { pdf, data, figures, template_files: template.output_files()? })
 }
@@ -271,14 +275,16 @@ pub fn typeset_folder(dir: &Path) -> Result<Vec<u8>, ReportError> {
             return Err(unreadable("`assessment` lacks the numeric year, month and day of the assessment date".into()));
         }
     };
-    let fingerprint = value["fingerprint"].as_str().unwrap_or_default().to_string();
+    let ident = format!("assessment-{}", value["fingerprint"].as_str().unwrap_or_default());
     let figures = read_figures(&dir.join(FIGURES_FOLDER))?;
     typst::typeset(&typst::TypesetJob {
         template: &template,
+        main: template::MAIN_FILE,
+        data_file: DATA_FILE,
         data: &data,
         figures: &figures,
         date,
-        ident: &fingerprint,
+        ident: &ident,
     })
 }
 

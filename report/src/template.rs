@@ -16,6 +16,11 @@ pub const MAIN_FILE: &str = "assessment.typ";
 /// The standard template's main file, embedded at build time.
 const STANDARD_MAIN: &str = include_str!("../../templates/standard/assessment.typ");
 
+/// The portfolio document's main file.
+pub const PORTFOLIO_MAIN_FILE: &str = "portfolio.typ";
+/// The standard portfolio template, embedded at build time.
+const PORTFOLIO_MAIN: &str = include_str!("../../templates/portfolio/portfolio.typ");
+
 /// A template folder may hold at most this many files …
 const MAX_FILES: usize = 256;
 /// … and this many bytes in all.
@@ -53,6 +58,12 @@ impl Template {
     /// The standard template.
     pub fn standard() -> Template {
         let files = [(MAIN_FILE.to_string(), STANDARD_MAIN.as_bytes().to_vec())].into_iter().collect();
+        Template { origin: TemplateOrigin::Standard, files }
+    }
+
+    /// The standard template of the portfolio document (main file [`PORTFOLIO_MAIN_FILE`]).
+    pub fn portfolio() -> Template {
+        let files = [(PORTFOLIO_MAIN_FILE.to_string(), PORTFOLIO_MAIN.as_bytes().to_vec())].into_iter().collect();
         Template { origin: TemplateOrigin::Standard, files }
     }
 

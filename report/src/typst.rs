@@ -18,7 +18,7 @@ use typst_layout::PagedDocument;
 use typst_pdf::{PdfOptions, PdfStandard, PdfStandards, Timestamp};
 
 use super::ReportError;
-use super::template::{MAIN_FILE, Template};
+use super::template::Template;
 
 /// The PDF/A part and conformance level the document claims (and typst checks).
 pub const PDF_STANDARD: &str = "PDF/A-2b";
@@ -28,13 +28,19 @@ pub const PDF_STANDARD: &str = "PDF/A-2b";
 pub struct TypesetJob<'a> {
     /// The template.
     pub template: &'a Template,
-    /// `assessment.json` bytes, handed over as `sys.inputs.data`.
+    /// The template's main file (`assessment.typ` for the assessment).
+    pub main: &'a str,
+    /// The document data's file name in the output folder (`assessment.json`), by which the
+    /// template may also read it.
+    pub data_file: &'a str,
+    /// The document data bytes, handed over as `sys.inputs.data`.
     pub data: &'a [u8],
     /// Figures (key, SVG bytes), handed over as `sys.inputs.figures.<key>`.
     pub figures: &'a [(String, Vec<u8>)],
     /// The assessment date (year, month, day): the PDF's metadata date.
     pub date: (i32, u32, u32),
-    /// A stable identifier of the case (the fingerprint), hashed into the PDF's id.
+    /// A stable identifier of the document (`assessment-` and the case fingerprint), hashed
+    /// into the PDF's id.
     pub ident: &'a str,
 }
 
@@ -57,7 +63,7 @@ fn file_id(relative: &str) -> Option<FileId> {
 /// breaks the PDF/A rules).
 pub fn typeset(job: &TypesetJob<'_>) -> Result<Vec<u8>, ReportError> {
     let engine = engine(job)?;
-    let main = file_id(MAIN_FILE).ok_or_else(|| ReportError::TemplateNoMain { folder: job.template.shown_file("") })?;
+    let main = file_id(job.main).ok_or_else(|| ReportError::TemplateNoMain { folder: job.template.shown_file("") })?;
     let inputs = inputs(job);
     let compiled = engine.compile_with_input::<_, _, PagedDocument>(main, inputs.clone()).output;
     let document = match compiled {
@@ -85,7 +91,7 @@ fn engine(job: &TypesetJob<'_>) -> Result<TypstEngine, ReportError> {
         binaries.push((id, bytes.clone()));
     }
     // The data and figures are also readable by path, as they lie in the output folder.
-    binaries.extend(file_id("assessment.json").map(|id| (id, job.data.to_vec())));
+    binaries.extend(file_id(job.data_file).map(|id| (id, job.data.to_vec())));
     for (key, svg) in job.figures {
         binaries.extend(file_id(&format!("figures/{key}.svg")).map(|id| (id, svg.clone())));
     }
@@ -113,7 +119,7 @@ fn pdf_options(job: &TypesetJob<'_>) -> Result<PdfOptions, ReportError> {
     let standards =
         PdfStandards::new(&[PdfStandard::A_2b]).map_err(|e| ReportError::Pdf { message: e.message().to_string() })?;
     Ok(PdfOptions {
-        ident: Smart::Custom(format!("popgauge-assessment-{}", job.ident)),
+        ident: Smart::Custom(format!("popgauge-{}", job.ident)),
         creator: Smart::Custom(Some(format!("popgauge {}", env!("CARGO_PKG_VERSION")))),
         timestamp: date.map(Timestamp::new_utc),
         standards,
@@ -146,6 +152,7 @@ fn compile_error(
     template: &Template,
     diagnostics: &[SourceDiagnostic],
 ) -> ReportError {
+    let main_file = main.vpath().get_without_slash().to_string();
     let errors: Vec<&SourceDiagnostic> = diagnostics.iter().filter(|d| d.severity == Severity::Error).collect();
     let Some(first) = errors.first().copied().or_else(|| diagnostics.first()) else {
         return ReportError::Pdf { message: "the template did not compile, without a message".into() };
@@ -161,7 +168,7 @@ fn compile_error(
             });
             (template.shown_file(&relative), position.map(|p| p.0), position.map(|p| p.1))
         }
-        _ => (template.shown_file(MAIN_FILE), None, None),
+        _ => (template.shown_file(&main_file), None, None),
     };
     ReportError::Compile {
         file,

@@ -27,6 +27,8 @@
 //!   animal's realised inbreeding tracked through founder-haplotype labels.
 //! - [`SnpPanel`]: a seeded SNP-panel case at genomic scale for benchmarks (VCF, sample and
 //!   population sheets, full recipe), written by [`write_case`].
+//! - [`write_snp_vcf`]: sampled SNP genotypes as VCF 4.3 on a [`ChromosomeLayout`], and
+//!   [`bgzip`] to compress it as popgauge reads it.
 //!
 //! All randomness comes from ChaCha8 streams derived from the seed, through integer-only draws
 //! (see the `random` module), so the same seed gives bit-identical output on any machine.
@@ -66,6 +68,7 @@ mod sample;
 mod schedule;
 mod simulation;
 mod snp_panel;
+mod vcf;
 mod wide_table;
 
 pub use cohort::IndividualId;
@@ -80,6 +83,7 @@ pub use snp_panel::{
     CaseFiles, FIRST_SAMPLING_GENERATION, GENERATION_TIME_YEARS, GENERATIONS_BETWEEN_SAMPLES, PanelData,
     SAMPLING_YEARS, SnpPanel, write_case,
 };
+pub use vcf::{ChromosomeLayout, bgzip, write_snp_vcf};
 pub use wide_table::{WideTable, write_wide_table};
 
 /// The `main` of a program that writes a demo case into the folder named by its one argument:

@@ -28,11 +28,12 @@ use std::path::{Path, PathBuf};
 
 use crate::cohort::PopulationIdx;
 use crate::error::SimError;
-use crate::markers::{LocusKind, LocusSpec, MarkerModel, SnpModel};
+use crate::markers::{LocusSpec, MarkerModel, SnpModel};
 use crate::random::{SimRng, Stream, chance_threshold};
 use crate::sample::{SampleRequest, SampleSet};
 use crate::schedule::{MigrationSchedule, SizeSchedule};
 use crate::simulation::{BurnIn, PopulationSpec, Simulation, SimulationConfig};
+use crate::vcf::{ChromosomeLayout, bgzip, write_snp_vcf};
 
 /// The generation sampled in the first sampling year (2019).
 pub const FIRST_SAMPLING_GENERATION: u32 = 12;
@@ -250,53 +251,15 @@ pub struct PanelData {
 }
 
 impl PanelData {
-    /// The chromosome and position of locus `index`: loci fill the chromosomes in order, in
-    /// blocks as equal as possible, [`SPACING`] bp apart.
-    fn place(&self, index: usize) -> (usize, u64) {
-        let per_chromosome = self.samples.loci.len().div_ceil(self.chromosomes);
-        let chromosome = index / per_chromosome;
-        (chromosome + 1, SPACING * (index % per_chromosome + 1) as u64)
-    }
-
     /// Writes the panel as VCF 4.3 (uncompressed): one record per SNP with its name as ID, GT
-    /// only, unphased, `./.` for an untyped call.
+    /// only, unphased, `./.` for an untyped call; loci fill the chromosomes in order, in
+    /// blocks as equal as possible, [`SPACING`] bp apart.
     ///
     /// # Errors
     /// Any error of `out`.
-    pub fn write_vcf(&self, mut out: impl Write) -> io::Result<()> {
-        out.write_all(b"##fileformat=VCFv4.3\n##source=popgauge-sim snp_panel (simulated data)\n")?;
-        for chromosome in 1..=self.chromosomes {
-            let loci = (0..self.samples.loci.len()).filter(|&i| self.place(i).0 == chromosome).count() as u64;
-            writeln!(out, "##contig=<ID=chr{chromosome:02},length={}>", SPACING * (loci + 1))?;
-        }
-        out.write_all(b"##FORMAT=<ID=GT,Number=1,Type=String,Description=\"Genotype\">\n")?;
-        out.write_all(b"#CHROM\tPOS\tID\tREF\tALT\tQUAL\tFILTER\tINFO\tFORMAT")?;
-        for individual in &self.samples.individuals {
-            write!(out, "\t{}", individual.sample)?;
-        }
-        out.write_all(b"\n")?;
-        let mut line = Vec::with_capacity(64 + 4 * self.samples.individuals.len());
-        for (index, locus) in self.samples.loci.iter().enumerate() {
-            let LocusKind::Snp { bases } = locus.kind else {
-                return Err(io::Error::other(format!("locus {} is not a SNP", locus.name)));
-            };
-            let (chromosome, position) = self.place(index);
-            line.clear();
-            write!(line, "chr{chromosome:02}\t{position}\t{}\t{}\t{}\t.\tPASS\t.\tGT", locus.name, bases[0], bases[1])?;
-            for individual in &self.samples.individuals {
-                line.extend_from_slice(match individual.genotype[index] {
-                    None => b"\t./.",
-                    Some([a, b]) => match a.min(1) + b.min(1) {
-                        0 => b"\t0/0",
-                        1 => b"\t0/1",
-                        _ => b"\t1/1",
-                    },
-                });
-            }
-            line.push(b'\n');
-            out.write_all(&line)?;
-        }
-        Ok(())
+    pub fn write_vcf(&self, out: impl Write) -> io::Result<()> {
+        let layout = ChromosomeLayout { chromosomes: self.chromosomes, spacing_bp: SPACING };
+        write_snp_vcf(&self.samples, layout, "popgauge-sim snp_panel (simulated data)", out)
     }
 
     /// The VCF's sample sheet (`sample,population,year`).
@@ -406,9 +369,7 @@ pub fn write_case(panel: &PanelData, dir: &Path) -> io::Result<CaseFiles> {
     fs::create_dir_all(dir)?;
     let mut vcf = Vec::new();
     panel.write_vcf(&mut vcf)?;
-    let mut compressed = noodles_bgzf::io::Writer::new(Vec::new());
-    compressed.write_all(&vcf)?;
-    let compressed = compressed.finish()?;
+    let compressed = bgzip(&vcf)?;
     let files =
         CaseFiles { vcf: dir.join("calls.vcf"), vcf_bgzipped: dir.join("calls.vcf.gz"), recipe: dir.join("case.toml") };
     fs::write(&files.vcf, vcf)?;

@@ -5,13 +5,14 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use super::{EXIT_DIFFERENCES, EXIT_UNTRUSTED_PLUGINS, StderrProgress, configure_threads};
-use crate::provenance::signature::read_public_key;
 use crate::audit::{VerifyOptions, VerifyReport, add_signature_check, record_in, verify};
+use crate::portfolio::verify::{is_portfolio_record, verify_portfolio};
+use crate::provenance::signature::read_public_key;
 
 /// Arguments of `popgauge verify`.
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// The provenance.json of an output folder (or the output folder itself).
+    /// The provenance.json of an output folder or a portfolio (or the folder itself).
     pub provenance: PathBuf,
     /// The folder holding the case's recipe and data, when it has moved since the run
     /// [default: the case folder recorded relative to the output folder].
@@ -24,6 +25,9 @@ pub struct Args {
     /// steps are not re-run, since a case's author wrote both its library and the hash.
     #[arg(long = "trust-plugin", value_name = "SHA256", value_parser = parse_sha256)]
     pub trust_plugin: Vec<String>,
+    /// For a portfolio's record: also verify every case it names by re-running it.
+    #[arg(long)]
+    pub deep: bool,
     /// Show no progress.
     #[arg(long, short)]
     pub quiet: bool,
@@ -45,7 +49,13 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
         data: args.data.clone(),
         trusted_plugins: args.trust_plugin.iter().cloned().collect::<BTreeSet<_>>(),
     };
-    let mut report = verify(&record, &options, &mut StderrProgress::new(args.quiet))?;
+    let bytes = std::fs::read(&record).unwrap_or_default();
+    let mut progress = StderrProgress::new(args.quiet);
+    let mut report = if is_portfolio_record(&bytes) {
+        verify_portfolio(&record, args.deep, &options, &mut progress)?
+    } else {
+        verify(&record, &options, &mut progress)?
+    };
     add_signature_check(&mut report, &record, key.as_ref());
     for note in &report.notes {
         println!("{note}");
