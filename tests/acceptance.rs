@@ -7,6 +7,7 @@
 mod bad_inputs;
 mod check;
 mod cli;
+mod map;
 mod plan;
 mod plugins;
 mod portfolio;

@@ -513,6 +513,7 @@ fn every_section_renders_from_contract_results() {
         recipe: file.clone(),
         inputs: vec![],
         fingerprint: "0123456789abcdef",
+        map: None,
     };
     let report = render(&source, &Template::standard()).unwrap();
     let dir = std::env::var_os("POPGAUGE_REPORT_OUT")

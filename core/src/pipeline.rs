@@ -225,6 +225,7 @@ fn render_document(
         recipe: facts(&case.recipe.recipe_file, &case.recipe_digest),
         inputs: case.data.digests.iter().map(|(file, digest)| facts(file, digest)).collect(),
         fingerprint: &fingerprint,
+        map: case.recipe.report.map,
     };
     Ok(crate::report::render(&source, &case.template)?.into_files())
 }

@@ -29,6 +29,9 @@ pub const DEFAULT_MISSING: [&str; 3] = ["", "NA", "./."];
 /// Ne thresholds used when the recipe gives none (Franklin 1980; Soulé 1980).
 pub const DEFAULT_THRESHOLDS: [f64; 2] = [50.0, 500.0];
 
+/// Cell size in km of the grid that generalises map positions when the recipe gives none.
+pub const DEFAULT_MAP_GRID_KM: f64 = 10.0;
+
 /// Master seed used when the recipe gives none (recorded in the provenance like any other).
 pub const DEFAULT_SEED: u64 = 1;
 
@@ -145,6 +148,21 @@ pub struct ReportSpec {
     pub template_dir: Option<PathBuf>,
     /// Ne thresholds, ascending.
     pub thresholds: Vec<f64>,
+    /// How the document's map shows positions; `None`: the document has no map.
+    pub map: Option<MapPositions>,
+}
+
+/// How a map shows the populations' positions (`[report.map] positions`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MapPositions {
+    /// Each position moved to the centre of its cell of a square grid `cell_km` wide in the
+    /// map's projected plane; no exact coordinate reaches the document.
+    Grid {
+        /// Cell size in km (finite, > 0).
+        cell_km: f64,
+    },
+    /// The positions as the population sheet gives them.
+    Exact,
 }
 
 /// A recipe with defaults filled in and every reference checked.

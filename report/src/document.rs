@@ -12,6 +12,7 @@
 
 mod appendix;
 mod inbreeding;
+pub mod map;
 mod methods_prose;
 mod projection;
 mod ne_overview;
@@ -76,6 +77,9 @@ pub struct ReportData {
     pub summary: summary::Summary,
     /// The sampling design.
     pub sampling: sampling::SamplingSection,
+    /// The map of the populations, when the recipe asks for one (absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub map: Option<map::MapSection>,
     /// Data and validation.
     pub data: sections::DataSection,
     /// Data quality per locus and group (`validate`), when in the recipe.
@@ -237,6 +241,7 @@ pub fn build(source: &ReportSource<'_>) -> Built {
     };
     let summary = summary::summary(&context);
     let sampling = sampling::sampling_section(&context);
+    let map = map::map_section(&context, source.map, &mut extras);
     let data_section = sections::data_section(&context, &mut extras);
     let quality = quality::quality_section(&context, &mut extras);
     let diversity = sections::diversity_section(&context, &mut extras);
@@ -264,6 +269,7 @@ pub fn build(source: &ReportSource<'_>) -> Built {
         populations,
         summary,
         sampling,
+        map,
         data: data_section,
         quality,
         diversity,
@@ -456,7 +462,14 @@ mod tests {
 
     fn source_of(results: &popgauge_engine::results::ResultsDocument) -> Built {
         let file = FileFacts { role: "recipe".into(), path: "case.toml".into(), size: 3, sha256: "ab".repeat(32) };
-        build(&ReportSource { results, runs: &[], recipe: file, inputs: vec![], fingerprint: "0011223344556677" })
+        build(&ReportSource {
+            results,
+            runs: &[],
+            recipe: file,
+            inputs: vec![],
+            fingerprint: "0011223344556677",
+            map: None,
+        })
     }
 
     /// A recipe with only a plugin step: every built-in section is absent (`null`, so the

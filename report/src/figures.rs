@@ -6,6 +6,9 @@
 //! text. Colours are the Okabe–Ito palette (distinguishable with the common colour-vision
 //! deficiencies), and every population also keeps its own marker shape, so the charts read in
 //! grey print too. Drawing is deterministic: the same values give the same bytes.
+//!
+//! The map of populations ([`map`]) is written as SVG directly, without plotters, and is
+//! public so that any document can draw one for its own set of populations.
 
 use plotters::coord::Shift;
 use plotters::coord::ranged1d::ValueFormatter;
@@ -120,6 +123,13 @@ pub enum Figure {
         /// Y axis title.
         y_label: String,
     },
+    /// A map of populations ([`map::map_svg`]).
+    Map {
+        /// The populations with coordinates.
+        points: Vec<map::MapPoint>,
+        /// How positions are shown, and the categories.
+        setting: map::MapSetting,
+    },
 }
 
 /// Draws a figure as SVG text.
@@ -127,6 +137,11 @@ pub enum Figure {
 /// # Errors
 /// A [`FigureError`] if the drawing library fails, which for validated inputs does not happen.
 pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
+    if let Figure::Map { points, setting } = figure {
+        return map::map_svg(points, setting)
+            .map(|m| m.svg)
+            .map_err(|e| FigureError { figure: name.into(), message: e.message });
+    }
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
@@ -141,6 +156,7 @@ pub fn render(name: &str, figure: &Figure) -> Result<String, FigureError> {
                 draw_scatter(&root, points, labels, *fit, *log_x, x_label, y_label)
             }
             Figure::Strip { groups, y_label } => draw_strip(&root, groups, y_label),
+            Figure::Map { .. } => Ok(()),
         });
         drawn
             .and_then(|()| root.present().map_err(|e| e.to_string()))
@@ -166,6 +182,7 @@ impl Figure {
             Figure::Scatter { points, log_x, .. } => {
                 points.iter().filter(|p| p.0.is_finite() && p.1.is_finite() && (!log_x || p.0 > 0.0)).count()
             }
+            Figure::Map { points, .. } => points.len(),
         }
     }
 }
@@ -280,6 +297,7 @@ fn padded(values: &[f64], share: f64) -> (f64, f64) {
 
 mod key;
 mod lines;
+pub mod map;
 mod points;
 #[cfg(test)]
 mod tests;

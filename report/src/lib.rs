@@ -159,6 +159,8 @@ pub struct ReportSource<'a> {
     pub inputs: Vec<FileFacts>,
     /// The case fingerprint (printed on the title page).
     pub fingerprint: &'a str,
+    /// The map of the populations the recipe asks for (`[report.map]`); `None`: no map.
+    pub map: Option<popgauge_engine::recipe::MapPositions>,
 }
 
 /// The document and its editable source.

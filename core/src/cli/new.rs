@@ -56,6 +56,11 @@ uses = "diversity"
 [report]
 thresholds = [50, 500]                   # Ne thresholds; [100, 1000] is the other common choice
 # template = "standard"                  # or a folder in this case holding assessment.typ (copy templates/standard/)
+# A map of the populations with latitude and longitude in populations.csv (none unless asked):
+# [report.map]
+# show = true
+# positions = "grid"                     # "grid" (default): each site at the centre of its grid cell; "exact": as given (sensitive)
+# grid_km = 10                           # grid cell width in km (default 10)
 "#;
 
 const GENOTYPES_TEMPLATE: &str = "sample,population,year,Locus01,Locus02\n";

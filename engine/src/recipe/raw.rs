@@ -177,4 +177,25 @@ pub struct RawReport {
     #[serde(default)]
     #[schemars(with = "Option<Vec<f64>>")]
     pub thresholds: Option<Spanned<Vec<f64>>>,
+    /// A map of the populations in the document (`[report.map]`); no map unless `show = true`.
+    #[serde(default)]
+    pub map: Option<RawMap>,
+}
+
+/// `[report.map]`: a map of the populations that have coordinates in the population sheet.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawMap {
+    /// Draw the map (default false: the document has no map).
+    #[serde(default)]
+    pub show: Option<bool>,
+    /// `"grid"` (default: each position moved to the centre of its cell of a `grid_km` grid)
+    /// or `"exact"` (the positions as given; the document is then sensitive).
+    #[serde(default)]
+    #[schemars(with = "Option<String>")]
+    pub positions: Option<Spanned<String>>,
+    /// Cell size in km of the grid that generalises positions (> 0; default 10).
+    #[serde(default)]
+    #[schemars(with = "Option<f64>")]
+    pub grid_km: Option<Spanned<f64>>,
 }

@@ -7,10 +7,10 @@ use std::sync::Arc;
 use popgauge_abi::{AssessmentInfo, Cohorts, SamplingInfo, did_you_mean};
 use toml::Spanned;
 
-use super::raw::{RawData, RawRecipe, RawSampling};
+use super::raw::{RawData, RawMap, RawRecipe, RawSampling};
 use super::{
-    DEFAULT_ACCEPT_FILTERS, DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec, GenotypeFormat, InputFile,
-    RECIPE_FILE, Recipe, RecipeError, ReportSpec, SiteFilters,
+    DEFAULT_ACCEPT_FILTERS, DEFAULT_MAP_GRID_KM, DEFAULT_MISSING, DEFAULT_SEED, DEFAULT_THRESHOLDS, DataSpec,
+    GenotypeFormat, InputFile, MapPositions, RECIPE_FILE, Recipe, RecipeError, ReportSpec, SiteFilters,
 };
 use crate::dates::{CivilDate, today};
 use crate::host::{PluginScratch, PluginTrust};
@@ -364,7 +364,46 @@ impl Resolver<'_> {
             Some(t) if t.get_ref() != "standard" => (t.get_ref().clone(), Some(self.template_folder(t)?)),
             _ => ("standard".to_string(), None),
         };
-        Ok(ReportSpec { template, template_dir, thresholds })
+        let map = report.and_then(|r| r.map.as_ref()).map(|m| self.map(m)).transpose()?.flatten();
+        Ok(ReportSpec { template, template_dir, thresholds, map })
+    }
+
+    /// `[report.map]`: `None` unless `show = true`; the other keys are checked either way.
+    fn map(&self, raw: &RawMap) -> Result<Option<MapPositions>, RecipeError> {
+        let exact = match &raw.positions {
+            None => false,
+            Some(p) => match p.get_ref().as_str() {
+                "grid" => false,
+                "exact" => true,
+                other => {
+                    return Err(self.invalid(
+                        p,
+                        format!("`positions` is \"{other}\", not one popgauge knows"),
+                        "write \"grid\" to show each population at the centre of its grid cell (see `grid_km`), or \"exact\" to show the positions as given",
+                    ));
+                }
+            },
+        };
+        let cell_km = match &raw.grid_km {
+            Some(g) if !(g.get_ref().is_finite() && *g.get_ref() > 0.0) => {
+                return Err(self.invalid(
+                    g,
+                    format!("`grid_km` is {}, but it must be a positive number of kilometres", g.get_ref()),
+                    "give the width of a grid cell, for example 10 for a 10 km grid; larger cells hide the sites better",
+                ));
+            }
+            Some(g) if exact => {
+                return Err(self.invalid(
+                    g,
+                    "`grid_km` is given, but `positions = \"exact\"` shows the positions without a grid".into(),
+                    "remove `grid_km`, or write `positions = \"grid\"` to generalise the positions to that grid",
+                ));
+            }
+            Some(g) => *g.get_ref(),
+            None => DEFAULT_MAP_GRID_KM,
+        };
+        let positions = if exact { MapPositions::Exact } else { MapPositions::Grid { cell_km } };
+        Ok(raw.show.unwrap_or(false).then_some(positions))
     }
 
     /// A custom template folder: inside the case (like data files), holding `assessment.typ`.

@@ -122,6 +122,37 @@ fn report_templates_are_standard_or_a_folder_in_the_case() {
     assert!(error_of(&outside).contains("template folder \"../layout\" leaves the case folder"));
 }
 
+/// `[report.map]`: no map unless `show = true`; a 10 km grid by default; bad values are
+/// refused with the key's line and a fix.
+#[test]
+fn map_settings_default_to_no_map_and_a_ten_km_grid() {
+    let map_of = |table: &str| {
+        load_recipe(case_with(&format!("{MINIMAL}\n[report.map]\n{table}")).path(), false).unwrap().report.map
+    };
+    assert_eq!(load_recipe(case_with(MINIMAL).path(), false).unwrap().report.map, None);
+    assert_eq!(map_of("positions = \"exact\"\n"), None, "keys without `show = true` draw no map");
+    assert_eq!(map_of("show = true\n"), Some(MapPositions::Grid { cell_km: 10.0 }));
+    assert_eq!(map_of("show = true\ngrid_km = 25\n"), Some(MapPositions::Grid { cell_km: 25.0 }));
+    assert_eq!(map_of("show = true\npositions = \"exact\"\n"), Some(MapPositions::Exact));
+    let error = |table: &str| error_of(&format!("{MINIMAL}\n[report.map]\n{table}"));
+    assert_eq!(
+        error("show = true\ngrid_km = 0\n"),
+        "case.toml:18:11: `grid_km` is 0, but it must be a positive number of kilometres\n  help: give the width of a grid cell, for example 10 for a 10 km grid; larger cells hide the sites better"
+    );
+    assert!(error("grid_km = nan\n").starts_with("case.toml:17:11: `grid_km` is NaN, but it must be a positive"));
+    assert!(error("grid_km = -5\n").starts_with("case.toml:17:11: `grid_km` is -5, but"));
+    assert_eq!(
+        error("show = true\npositions = \"rough\"\n"),
+        "case.toml:18:13: `positions` is \"rough\", not one popgauge knows\n  help: write \"grid\" to show each population at the centre of its grid cell (see `grid_km`), or \"exact\" to show the positions as given"
+    );
+    assert_eq!(
+        error("positions = \"exact\"\ngrid_km = 5\n"),
+        "case.toml:18:11: `grid_km` is given, but `positions = \"exact\"` shows the positions without a grid\n  help: remove `grid_km`, or write `positions = \"grid\"` to generalise the positions to that grid"
+    );
+    assert_eq!(error("shw = true\n"), "case.toml:17:1: unknown key `shw`\n  help: did you mean `show`?");
+    assert!(error("show = \"yes\"\n").contains("expected true or false"));
+}
+
 #[test]
 fn plugin_keys_are_checked_before_anything_loads() {
     let plugin = "[[step]]\nid = \"ext\"\nuses = \"plugin:libx.so\"\n";
