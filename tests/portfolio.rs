@@ -121,6 +121,39 @@ fn portfolio_counts_match_the_cases_status_tables() {
     let first = std::fs::read(p.path().join("pf/portfolio.pdf")).unwrap();
     assert_eq!(portfolio(&p, &["--force"]).code, 0);
     assert_eq!(std::fs::read(p.path().join("pf/portfolio.pdf")).unwrap(), first, "byte-identical on a second run");
+    check_map(&p);
+}
+
+/// Without `--map` there is no map and the caution says no coordinates are printed; with it,
+/// `figures/map.svg` shows the populations at grid-cell centres (no coordinate of a sheet in
+/// the SVG or the document data), the document states the grid, and verify re-makes it.
+fn check_map(p: &Portfolio) {
+    assert!(!p.path().join("pf/figures/map.svg").exists());
+    let plain = pdf_text(&p.path().join("pf/portfolio.pdf")).split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(plain.contains("prints no coordinates"), "{plain}");
+    let mut args = vec!["portfolio", "newt", "mussel", "beetle", "colony", "--out", "pfmap", "--date", "2026-12-01"];
+    args.extend(["--map", "--map-grid-km", "25"]);
+    let out = p.run(&args);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let svg = std::fs::read_to_string(p.path().join("pfmap/figures/map.svg")).unwrap();
+    let data = std::fs::read_to_string(p.path().join("pfmap/portfolio.json")).unwrap();
+    for case in ["newt", "mussel", "beetle"] {
+        for row in csv_rows(&p.path().join(case).join("results.json").with_file_name("tables/status.populations.csv")) {
+            assert!(
+                svg.contains(&format!(">{}<", row["population"])) || svg.contains(&row["population"]),
+                "{} on the map",
+                row["population"]
+            );
+        }
+    }
+    for coordinate in ["61.742", "9.618", "57.338", "13.221"] {
+        assert!(!svg.contains(coordinate) && !data.contains(coordinate), "{coordinate} printed");
+    }
+    let text = pdf_text(&p.path().join("pfmap/portfolio.pdf")).split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(text.contains("generalised to a 25 km grid"), "{text}");
+    assert!(text.contains("Not on the map, for want of coordinates"), "the colony sheet has none: {text}");
+    let verified = p.run(&["verify", "pfmap", "--quiet"]);
+    assert_eq!(verified.code, 0, "{}", verified.stdout);
 }
 
 /// The document: its summary counts, the census flag, the cases with their record hashes,

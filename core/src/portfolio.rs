@@ -156,6 +156,8 @@ pub struct PortfolioOptions {
     pub date: Option<CivilDate>,
     /// Ne/N ratio for census-based Ne.
     pub ne_nc_ratio: f64,
+    /// A map of the populations, and how it shows positions.
+    pub map: Option<record::MapChoice>,
 }
 
 /// What a portfolio run produced.
@@ -188,6 +190,7 @@ pub fn run_portfolio(options: &PortfolioOptions) -> Result<PortfolioSummary, Por
         date_defaulted: options.date.is_none(),
         ne_nc_ratio: options.ne_nc_ratio,
         thresholds: THRESHOLDS.to_vec(),
+        map: options.map,
     };
     let (source, files) = build(&cases, &settings, &options.out)?;
     let manifest = options.manifest.as_deref().map(|m| record::manifest_entry(m, &options.out)).transpose()?;
@@ -239,6 +242,7 @@ pub fn build(
         populations,
         indicators,
         fingerprint,
+        map: settings.map.map(record::MapChoice::positions),
     };
     let mut files = tables::files(&source);
     files.extend(document::render(&source)?.into_files());

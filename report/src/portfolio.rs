@@ -8,6 +8,7 @@
 
 pub mod chart;
 pub mod indicators;
+mod map;
 pub mod model;
 mod text;
 
@@ -25,6 +26,8 @@ pub const PDF_FILE: &str = "portfolio.pdf";
 pub const DATA_FILE: &str = "portfolio.json";
 /// The key (and file stem under `figures/`) of the Ne chart.
 pub const NE_CHART: &str = "ne";
+/// The key of the map.
+pub const MAP: &str = "map";
 
 /// The portfolio document and its editable source.
 #[derive(Debug, Clone)]
@@ -88,6 +91,8 @@ pub struct PortfolioData {
     pub references: Vec<String>,
     /// The thresholds in words (`50 and 500`).
     pub thresholds: String,
+    /// The map, when asked for.
+    pub map: Option<map::MapData>,
 }
 
 /// Counts for the title block.
@@ -119,11 +124,16 @@ pub struct ChartData {
 /// compiles (a test checks it).
 pub fn render(source: &PortfolioSource) -> Result<PortfolioReport, ReportError> {
     let (svg, marks) = chart::ne_chart(&source.populations, &source.thresholds);
-    let data = document_data(source, marks);
+    let mut data = document_data(source, marks);
+    let mut figures = vec![(NE_CHART.to_string(), svg.into_bytes())];
+    if let Some(positions) = source.map {
+        let (map_data, map_svg) = map::map(&source.populations, positions)?;
+        data.map = Some(map_data);
+        figures.extend(map_svg.map(|svg| (MAP.to_string(), svg.into_bytes())));
+    }
     let mut bytes =
         serde_json::to_vec_pretty(&data).map_err(|e| ReportError::Pdf { message: format!("document data: {e}") })?;
     bytes.push(b'\n');
-    let figures = vec![(NE_CHART.to_string(), svg.into_bytes())];
     let template = Template::portfolio();
     let ident = format!("portfolio-{}", source.fingerprint);
     let pdf = typst::typeset(&typst::TypesetJob {
@@ -162,6 +172,7 @@ pub fn document_data(source: &PortfolioSource, marks: usize) -> PortfolioData {
         methods: text::methods(source),
         references: text::REFERENCES.iter().map(|r| r.to_string()).collect(),
         thresholds: text::thresholds_in_words(&source.thresholds),
+        map: None,
     }
 }
 

@@ -4,6 +4,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use crate::dates::CivilDate;
+use crate::portfolio::record::MapChoice;
 use crate::portfolio::{CaseRef, DEFAULT_NE_NC_RATIO, PortfolioOptions, cases::read_manifest, run_portfolio};
 
 /// Arguments of `popgauge portfolio`.
@@ -34,6 +35,16 @@ pub struct Args {
     /// Ne/N ratio for populations with a census size but no genotypes (Ne = census × ratio).
     #[arg(long, value_name = "RATIO", default_value_t = DEFAULT_NE_NC_RATIO, value_parser = parse_ratio)]
     pub ne_nc_ratio: f64,
+    /// Draw a map of the populations with coordinates (positions generalised to a grid unless
+    /// --map-positions exact).
+    #[arg(long)]
+    pub map: bool,
+    /// How the map shows positions: `grid` (generalised to cells of --map-grid-km) or `exact`.
+    #[arg(long, value_name = "HOW", default_value = "grid", value_parser = ["grid", "exact"], requires = "map")]
+    pub map_positions: String,
+    /// Width of the map's grid cells in km.
+    #[arg(long, value_name = "KM", default_value_t = 10.0, value_parser = parse_km, requires = "map")]
+    pub map_grid_km: f64,
     /// Show nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,
@@ -41,6 +52,13 @@ pub struct Args {
 
 fn parse_date(text: &str) -> Result<CivilDate, String> {
     CivilDate::parse(text).ok_or_else(|| format!("\"{text}\" is not a date YYYY-MM-DD (for example 2026-12-03)"))
+}
+
+fn parse_km(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(km) if km.is_finite() && km > 0.0 => Ok(km),
+        _ => Err(format!("\"{text}\" is not a cell width in km above 0 (for example 10)")),
+    }
 }
 
 fn parse_ratio(text: &str) -> Result<f64, String> {
@@ -70,6 +88,10 @@ pub fn run(args: Args) -> anyhow::Result<ExitCode> {
         organisation: args.organisation.clone(),
         date: args.date,
         ne_nc_ratio: args.ne_nc_ratio,
+        map: args.map.then(|| match args.map_positions.as_str() {
+            "exact" => MapChoice::Exact,
+            _ => MapChoice::Grid { grid_km: args.map_grid_km },
+        }),
     };
     let summary = run_portfolio(&options)?;
     if !args.quiet {

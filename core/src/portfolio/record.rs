@@ -34,6 +34,33 @@ pub struct Settings {
     pub ne_nc_ratio: f64,
     /// Thresholds.
     pub thresholds: Vec<f64>,
+    /// The map, when asked for.
+    #[serde(default)]
+    pub map: Option<MapChoice>,
+}
+
+/// How the portfolio's map shows positions.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields, tag = "positions", rename_all = "lowercase")]
+pub enum MapChoice {
+    /// Generalised to a grid of `grid_km` cells.
+    Grid {
+        /// Cell width in km.
+        grid_km: f64,
+    },
+    /// Exact positions.
+    Exact,
+}
+
+impl MapChoice {
+    /// The renderer's setting.
+    pub fn positions(self) -> crate::report::figures::map::Positions {
+        use crate::report::figures::map::Positions;
+        match self {
+            MapChoice::Grid { grid_km } => Positions::Grid { cell_km: grid_km },
+            MapChoice::Exact => Positions::Exact,
+        }
+    }
 }
 
 /// One case as read.

@@ -187,4 +187,6 @@ pub struct PortfolioSource {
     /// A stable identifier (the first hex digits of a hash over the case records), printed on
     /// every page and hashed into the PDF's id.
     pub fingerprint: String,
+    /// A map of the populations with coordinates, when asked for, and how positions are shown.
+    pub map: Option<crate::figures::map::Positions>,
 }

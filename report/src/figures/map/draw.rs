@@ -334,6 +334,7 @@ fn labels(svg: &mut Svg, points: &[MapPoint], clusters: &[Vec<usize>], markers: 
         });
         let (width, height) = (text_width(&text, LABEL_SIZE), LABEL_SIZE);
         let middle = ((around.0 + around.2) / 2.0, (around.1 + around.3) / 2.0);
+        let shifted = (middle.0 - width / 2.0).min(FRAME.right - 2.0 - width).max(FRAME.left + 2.0);
         let candidates = [
             ((around.2 + 4.0, middle.1), Anchor::Start, (around.2 + 4.0, middle.1 - height / 2.0)),
             ((around.0 - 4.0, middle.1), Anchor::End, (around.0 - 4.0 - width, middle.1 - height / 2.0)),
@@ -343,6 +344,9 @@ fn labels(svg: &mut Svg, points: &[MapPoint], clusters: &[Vec<usize>], markers: 
                 (middle.0 - width / 2.0, around.1 - 4.0 - height),
             ),
             ((middle.0, around.3 + 4.0 + height / 2.0), Anchor::Middle, (middle.0 - width / 2.0, around.3 + 4.0)),
+            // A long label (a crowd's names) below or above, moved sideways to stay in the frame.
+            ((shifted, around.3 + 4.0 + height / 2.0), Anchor::Start, (shifted, around.3 + 4.0)),
+            ((shifted, around.1 - 4.0 - height / 2.0), Anchor::Start, (shifted, around.1 - 4.0 - height)),
         ];
         let area_of = |corner: (f64, f64)| (corner.0, corner.1, corner.0 + width, corner.1 + height);
         let inside = |a: Area| {
@@ -354,7 +358,7 @@ fn labels(svg: &mut Svg, points: &[MapPoint], clusters: &[Vec<usize>], markers: 
             .iter()
             .find(|c| inside(area_of(c.2)) && free(area_of(c.2)))
             .or_else(|| candidates.iter().find(|c| inside(area_of(c.2))))
-            .unwrap_or(if middle.0 > (FRAME.left + FRAME.right) / 2.0 { &candidates[1] } else { &candidates[0] });
+            .unwrap_or(&candidates[4]);
         svg.text(chosen.0, &text, TextStyle { halo: true, ..TextStyle::new(LABEL_SIZE, chosen.1) });
         taken.push(area_of(chosen.2));
     }
