@@ -68,6 +68,7 @@ threads_per_case: 2
 portfolio:
   title: "Workflow test: three simulated cases"
   date: "2026-12-01"
+  map: true
 cases:
   - path: "$work/cases/demo-case"
     species_group: amphibians
@@ -104,10 +105,10 @@ for case in "${cases[@]}"; do
     done
 done
 echo "ok: every case output has provenance.json, results.json and assessment.pdf"
-for file in portfolio.pdf tables/indicators.csv tables/populations.csv provenance.json; do
+for file in portfolio.pdf tables/indicators.csv tables/populations.csv provenance.json figures/map.svg; do
     [ -s "$work/out/portfolio/$file" ] || fail "portfolio: $file was not written"
 done
-echo "ok: the portfolio has portfolio.pdf, tables/indicators.csv, tables/populations.csv and provenance.json"
+echo "ok: the portfolio has portfolio.pdf, tables/indicators.csv, tables/populations.csv, provenance.json and figures/map.svg (the configuration asks for the map)"
 # The manifest's groups and regions reach the indicator table.
 for row in "species_group,amphibians," "species_group,molluscs," "species_group,insects," \
     "region,Halvard Uplands," "region,Quarrendale lowlands,"; do
