@@ -1,15 +1,20 @@
 //! Reading the case output folders a portfolio is made of: the manifest, each folder's
 //! provenance record and results, and the check that the record still holds for the files.
 
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
+use std::fmt;
 use std::path::{Path, PathBuf};
 
+use popgauge_abi::contract::uses;
+use popgauge_abi::{AssessmentInfo, StepStatus, Table};
 use rayon::prelude::*;
+use serde::Deserialize;
+use serde::de::{self, IgnoredAny, MapAccess, Visitor};
 
 use super::PortfolioError;
 use crate::hash::sha256_hex;
 use crate::provenance::record::{PROVENANCE_SCHEMA, ProvenanceRecord, RecordReadError, parse_record};
-use crate::results::{RESULTS_FILE, ResultsDocument};
+use crate::results::{GroupCount, RESULTS_FILE, RESULTS_SCHEMA};
 
 /// The record file of an output folder.
 pub const RECORD_FILE: &str = "provenance.json";
@@ -44,8 +49,77 @@ pub struct CaseOutput {
     pub record: ProvenanceRecord,
     /// SHA-256 of `provenance.json`.
     pub record_sha256: String,
-    /// Its results.
-    pub results: ResultsDocument,
+    /// The parts of its results a portfolio uses.
+    pub results: CaseResults,
+}
+
+/// The parts of a case's `results.json` a portfolio uses: the assessment facts, the groups
+/// read, and the tables of its `status` steps. The other steps' tables (hundreds of
+/// megabytes for a genomic-scale case) are skipped while parsing, so many cases fit in memory.
+#[derive(Debug, Clone, Deserialize)]
+pub struct CaseResults {
+    /// `popgauge.results/1`.
+    pub schema: String,
+    /// Facts of the assessment.
+    pub assessment: AssessmentInfo,
+    /// What was read.
+    pub data: CaseData,
+    /// Each step, with tables only for `status` steps.
+    pub steps: Vec<CaseStep>,
+}
+
+/// The groups a case read.
+#[derive(Debug, Clone, Deserialize)]
+pub struct CaseData {
+    /// Samples per population and year.
+    pub groups: Vec<GroupCount>,
+}
+
+/// One step of a case's results; `tables` is filled for `status` steps only.
+#[derive(Debug, Clone)]
+pub struct CaseStep {
+    /// The step id.
+    pub id: String,
+    /// Its `uses`.
+    pub uses: String,
+    /// Whether it completed.
+    pub status: StepStatus,
+    /// Its tables (status steps only).
+    pub tables: BTreeMap<String, Table>,
+}
+
+impl<'de> Deserialize<'de> for CaseStep {
+    fn deserialize<D: serde::Deserializer<'de>>(deserializer: D) -> Result<CaseStep, D::Error> {
+        struct StepVisitor;
+        impl<'de> Visitor<'de> for StepVisitor {
+            type Value = CaseStep;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a step's results")
+            }
+            fn visit_map<A: MapAccess<'de>>(self, mut map: A) -> Result<CaseStep, A::Error> {
+                let (mut id, mut step_uses, mut status, mut tables) = (None, None::<String>, None, BTreeMap::new());
+                while let Some(key) = map.next_key::<String>()? {
+                    match key.as_str() {
+                        "id" => id = Some(map.next_value()?),
+                        "uses" => step_uses = Some(map.next_value()?),
+                        "status" => status = Some(map.next_value()?),
+                        // popgauge writes `uses` before `tables`.
+                        "tables" if step_uses.as_deref() == Some(uses::STATUS) => tables = map.next_value()?,
+                        _ => {
+                            map.next_value::<IgnoredAny>()?;
+                        }
+                    }
+                }
+                Ok(CaseStep {
+                    id: id.ok_or_else(|| de::Error::missing_field("id"))?,
+                    uses: step_uses.ok_or_else(|| de::Error::missing_field("uses"))?,
+                    status: status.ok_or_else(|| de::Error::missing_field("status"))?,
+                    tables,
+                })
+            }
+        }
+        deserializer.deserialize_map(StepVisitor)
+    }
 }
 
 impl CaseOutput {
@@ -170,6 +244,7 @@ pub fn read_case(reference: &CaseRef) -> Result<CaseOutput, PortfolioError> {
             return Err(PortfolioError::Unreadable { path: record_path.display().to_string(), message });
         }
     };
+    let mut results_bytes = None;
     for entry in &record.outputs {
         let path = dir.join(&entry.path);
         let Ok(content) = std::fs::read(&path) else {
@@ -182,18 +257,25 @@ pub fn read_case(reference: &CaseRef) -> Result<CaseOutput, PortfolioError> {
                 what: "was changed after the run (its SHA-256 differs from the one in provenance.json)".into(),
             });
         }
+        if entry.path == RESULTS_FILE {
+            results_bytes = Some(content);
+        }
     }
-    if !record.outputs.iter().any(|e| e.path == RESULTS_FILE) {
+    let results_path = dir.join(RESULTS_FILE).display().to_string();
+    let Some(results_bytes) = results_bytes else {
         return Err(PortfolioError::Unreadable {
             path: record_path.display().to_string(),
             message: format!("the record lists no {RESULTS_FILE} among its outputs"),
         });
+    };
+    let results: CaseResults = serde_json::from_slice(&results_bytes)
+        .map_err(|e| PortfolioError::Unreadable { path: results_path.clone(), message: e.to_string() })?;
+    if results.schema != RESULTS_SCHEMA {
+        return Err(PortfolioError::Unreadable {
+            path: results_path,
+            message: format!("its format is {:?}, but this popgauge reads {RESULTS_SCHEMA:?}", results.schema),
+        });
     }
-    let results_path = dir.join(RESULTS_FILE);
-    let results_bytes = std::fs::read(&results_path)
-        .map_err(|e| PortfolioError::Unreadable { path: results_path.display().to_string(), message: e.to_string() })?;
-    let results: ResultsDocument = serde_json::from_slice(&results_bytes)
-        .map_err(|e| PortfolioError::Unreadable { path: results_path.display().to_string(), message: e.to_string() })?;
     Ok(CaseOutput { reference: reference.clone(), record, record_sha256: sha256_hex(&bytes), results })
 }
 
@@ -258,6 +340,24 @@ mod tests {
                 .to_string()
                 .contains("manifest.csv:3: the output folder a is listed twice")
         );
+    }
+
+    /// Only the tables of `status` steps are kept; every other step's tables are skipped, and
+    /// a step's other members are read as written.
+    #[test]
+    fn only_status_tables_are_kept_from_the_results() {
+        let mut table = Table::new(&["population", "ne"]);
+        table.push_row(vec![popgauge_abi::Cell::text("North"), popgauge_abi::Cell::Num(120.0)]).unwrap();
+        let table = serde_json::to_value(&table).unwrap();
+        let steps = serde_json::json!([
+            {"id": "d", "uses": "diversity", "version": "0.1.0", "status": "ok", "tables": {"by_group": table}, "findings": [], "citations": []},
+            {"id": "s", "uses": "status", "version": "0.1.0", "status": "ok", "tables": {"populations": table}, "findings": [], "citations": []},
+        ]);
+        let steps: Vec<CaseStep> = serde_json::from_value(steps).unwrap();
+        assert_eq!((steps[0].id.as_str(), steps[0].tables.len()), ("d", 0));
+        assert_eq!((steps[1].uses.as_str(), steps[1].status), ("status", StepStatus::Ok));
+        let populations = &steps[1].tables["populations"];
+        assert_eq!(populations.named_rows().next().unwrap().number("ne"), Some(120.0));
     }
 
     #[test]

@@ -4,16 +4,16 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
+use popgauge_abi::StepStatus;
 use popgauge_abi::contract::{col, table, uses};
-use popgauge_abi::{StepResult, StepStatus};
 
+use super::cases::{CaseResults, CaseStep};
 use super::{CaseOutput, PortfolioError};
 use crate::report::format;
 use crate::report::portfolio::{NeBasis, PortfolioPopulation};
-use crate::results::ResultsDocument;
 
 /// The last `status` step that completed.
-pub fn status_step(results: &ResultsDocument) -> Option<&StepResult> {
+pub fn status_step(results: &CaseResults) -> Option<&CaseStep> {
     results.steps.iter().rev().find(|s| s.uses == uses::STATUS && s.status == StepStatus::Ok)
 }
 
