@@ -3,28 +3,10 @@
 //! positions generalised to a grid unless exact ones are asked for. Populations without
 //! coordinates are named, not dropped.
 
-use serde::Serialize;
-
 use super::model::{NeBasis, PortfolioPopulation};
 use crate::ReportError;
+pub use crate::document::map::MapSection as MapData;
 use crate::figures::map::{MapCategory, MapPoint, MapSetting, Positions, map_svg};
-
-/// The map's facts for the template.
-#[derive(Debug, Clone, Serialize)]
-pub struct MapData {
-    /// `grid` or `exact`.
-    pub positions: String,
-    /// The grid's cell width in km, display text (`grid` only).
-    pub grid_km: Option<String>,
-    /// Whether a map was drawn (some population has coordinates).
-    pub drawn: bool,
-    /// The projection, its sphere and centre, as a sentence (when drawn).
-    pub projection: Option<String>,
-    /// How positions are shown, as a sentence (when drawn).
-    pub shown: Option<String>,
-    /// Populations (`species: population`) not on the map for want of coordinates.
-    pub not_on_map: Vec<String>,
-}
 
 /// Up to this many populations are named on the map.
 const MAX_LABELLED: usize = 40;
@@ -95,6 +77,7 @@ pub fn map(
         projection: figure.as_ref().map(|f| f.text.projection.clone()),
         shown: figure.as_ref().map(|f| f.text.positions.clone()),
         not_on_map,
+        by_status: true,
     };
     Ok((data, figure.map(|f| f.svg)))
 }
