@@ -1,7 +1,7 @@
 //! `popgauge portfolio`: many case outputs in one indicator report, and `verify` on it.
 
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use crate::report::pdf_text;
 use crate::support::{Case, Output, popgauge};

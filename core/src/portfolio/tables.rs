@@ -1,10 +1,13 @@
 //! The portfolio's tables as CSV: `tables/populations.csv`, `tables/indicators.csv`,
-//! `tables/cases.csv`. Numbers are written in full (as in the case tables); `inf` for +∞ and
-//! an empty cell for none.
+//! `tables/cases.csv`, written as results tables are (`results::table_csv`: numbers through
+//! the one formatter, `inf` for +∞, an empty cell for none).
+
+use popgauge_abi::{Cell, Table};
 
 use crate::output::OutputFiles;
 use crate::report::format;
 use crate::report::portfolio::PortfolioSource;
+use crate::results::table_csv;
 
 /// Columns of `tables/populations.csv`.
 pub const POPULATION_COLUMNS: [&str; 20] = [
@@ -30,56 +33,60 @@ pub const POPULATION_COLUMNS: [&str; 20] = [
     "case_record_sha256",
 ];
 
-fn number(value: Option<f64>) -> String {
-    match value {
-        Some(v) if v == f64::INFINITY => "inf".into(),
-        Some(v) if v.is_finite() => v.to_string(),
-        _ => String::new(),
-    }
+/// Columns of `tables/cases.csv`.
+pub const CASE_COLUMNS: [&str; 8] =
+    ["output", "species", "title", "organisation", "date", "has_status", "populations", "record_sha256"];
+
+fn text(value: Option<&str>) -> Cell {
+    value.map_or(Cell::Null, Cell::text)
 }
 
-fn text(value: Option<&str>) -> String {
-    value.unwrap_or_default().to_string()
+fn year(value: Option<i32>) -> Cell {
+    value.map_or(Cell::Null, |y| Cell::Int(i64::from(y)))
 }
 
-fn csv_bytes(columns: &[String], rows: &[Vec<String>]) -> Vec<u8> {
-    let mut writer = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
-    // Writing to memory cannot fail.
-    let _ = writer.write_record(columns);
+fn count(value: usize) -> Cell {
+    Cell::Int(value as i64)
+}
+
+/// A table from its columns and rows (every row has one cell per column by construction).
+fn table(columns: &[&str], rows: Vec<Vec<Cell>>) -> Table {
+    let mut table = Table::new(columns);
     for row in rows {
-        let _ = writer.write_record(row);
+        // Rows are built here with one cell per column, which is all `push_row` checks.
+        let _ = table.push_row(row);
     }
-    writer.into_inner().unwrap_or_default()
+    table
 }
 
 /// The three tables.
 pub fn files(source: &PortfolioSource) -> OutputFiles {
-    let populations: Vec<Vec<String>> = source
+    let populations = source
         .populations
         .iter()
         .map(|p| {
             let case = &source.cases[p.case];
             vec![
-                p.species.clone(),
+                Cell::text(&p.species),
                 text(p.species_group.as_deref()),
                 text(p.region.as_deref()),
-                case.output.clone(),
-                p.population.clone(),
+                Cell::text(&case.output),
+                Cell::text(&p.population),
                 text(p.label.as_deref()),
-                p.year.map(|y| y.to_string()).unwrap_or_default(),
-                number(p.ne),
-                number(p.ne_low),
-                number(p.ne_high),
+                year(p.year),
+                Cell::maybe(p.ne),
+                Cell::maybe(p.ne_low),
+                Cell::maybe(p.ne_high),
                 text(p.ne_method.as_deref()),
-                p.basis.word().to_string(),
-                p.category.clone(),
-                number(p.census_size),
-                p.census_year.map(|y| y.to_string()).unwrap_or_default(),
-                number(p.horizon_years),
-                number(p.h_retained),
-                number(p.h_retained_low),
-                number(p.h_retained_high),
-                case.record_sha256.clone(),
+                Cell::text(p.basis.word()),
+                Cell::text(&p.category),
+                Cell::maybe(p.census_size),
+                year(p.census_year),
+                Cell::maybe(p.horizon_years),
+                Cell::maybe(p.h_retained),
+                Cell::maybe(p.h_retained_low),
+                Cell::maybe(p.h_retained_high),
+                Cell::text(&case.record_sha256),
             ]
         })
         .collect();
@@ -87,74 +94,66 @@ pub fn files(source: &PortfolioSource) -> OutputFiles {
         ["scope", "name", "species", "populations", "with_ne", "census_based", "without_ne"].map(String::from).to_vec();
     for threshold in &source.thresholds {
         let t = format::short(*threshold, 6);
-        for what in [
-            "above_{t}_point",
-            "share_{t}_point",
-            "above_{t}_lower",
-            "share_{t}_lower",
-            "species_mean_share_{t}_point",
-            "species_mean_share_{t}_lower",
-        ] {
-            indicator_columns.push(what.replace("{t}", &t));
-        }
+        indicator_columns.extend(
+            ["above_{t}_point", "share_{t}_point", "above_{t}_lower", "share_{t}_lower"]
+                .into_iter()
+                .chain(["species_mean_share_{t}_point", "species_mean_share_{t}_lower"])
+                .map(|name| name.replace("{t}", &t)),
+        );
     }
     indicator_columns.extend(["horizon_years", "projected", "h_retained_mean", "h_retained_min"].map(String::from));
-    let indicators: Vec<Vec<String>> = source
+    let indicators = source
         .indicators
         .iter()
         .map(|i| {
             let mut row = vec![
-                i.scope.clone(),
-                i.name.clone(),
-                i.species.to_string(),
-                i.populations.to_string(),
-                i.with_ne.to_string(),
-                i.census_based.to_string(),
-                i.without_ne.to_string(),
+                Cell::text(&i.scope),
+                Cell::text(&i.name),
+                count(i.species),
+                count(i.populations),
+                count(i.with_ne),
+                count(i.census_based),
+                count(i.without_ne),
             ];
             for c in &i.counts {
                 row.extend([
-                    c.above_point.to_string(),
-                    number(c.share_point),
-                    c.above_lower.to_string(),
-                    number(c.share_lower),
-                    number(c.species_mean_share_point),
-                    number(c.species_mean_share_lower),
+                    count(c.above_point),
+                    Cell::maybe(c.share_point),
+                    count(c.above_lower),
+                    Cell::maybe(c.share_lower),
+                    Cell::maybe(c.species_mean_share_point),
+                    Cell::maybe(c.species_mean_share_lower),
                 ]);
             }
             row.extend([
-                number(i.horizon_years),
-                i.projected.to_string(),
-                number(i.h_retained_mean),
-                number(i.h_retained_min),
+                Cell::maybe(i.horizon_years),
+                count(i.projected),
+                Cell::maybe(i.h_retained_mean),
+                Cell::maybe(i.h_retained_min),
             ]);
             row
         })
         .collect();
-    let cases: Vec<Vec<String>> = source
+    let cases = source
         .cases
         .iter()
         .map(|c| {
             vec![
-                c.output.clone(),
-                c.species.clone(),
-                c.title.clone(),
-                c.organisation.clone(),
-                c.date.clone(),
-                c.has_status.to_string(),
-                c.populations.to_string(),
-                c.record_sha256.clone(),
+                Cell::text(&c.output),
+                Cell::text(&c.species),
+                Cell::text(&c.title),
+                Cell::text(&c.organisation),
+                Cell::text(&c.date),
+                Cell::Bool(c.has_status),
+                count(c.populations),
+                Cell::text(&c.record_sha256),
             ]
         })
         .collect();
-    let case_columns: Vec<String> =
-        ["output", "species", "title", "organisation", "date", "has_status", "populations", "record_sha256"]
-            .map(String::from)
-            .to_vec();
-    let population_columns: Vec<String> = POPULATION_COLUMNS.iter().map(|c| c.to_string()).collect();
+    let indicator_columns: Vec<&str> = indicator_columns.iter().map(String::as_str).collect();
     vec![
-        ("tables/populations.csv".into(), csv_bytes(&population_columns, &populations)),
-        ("tables/indicators.csv".into(), csv_bytes(&indicator_columns, &indicators)),
-        ("tables/cases.csv".into(), csv_bytes(&case_columns, &cases)),
+        ("tables/populations.csv".into(), table_csv(&table(&POPULATION_COLUMNS, populations))),
+        ("tables/indicators.csv".into(), table_csv(&table(&indicator_columns, indicators))),
+        ("tables/cases.csv".into(), table_csv(&table(&CASE_COLUMNS, cases))),
     ]
 }
