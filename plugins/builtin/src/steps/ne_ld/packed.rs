@@ -29,21 +29,25 @@
 //! **Instruction sets.** Three builds of the chunk loop exist, and [`sum_pairs_packed`] picks one
 //! per chunk at run time on x86-64:
 //!
-//! - without jackknife lanes, on a processor with AVX-512 F, DQ and VPOPCNTDQ: the loop compiled
-//!   with those features (plus AVX2 and POPCNT), whose dense kernel counts eight pairs at a time
-//!   with 512-bit population counts ([`Kernel::Avx512`]);
+//! - without jackknife lanes, on a processor with AVX-512 F, DQ and VPOPCNTDQ: the tiled loop
+//!   ([`tiles`], [`Kernel::Avx512`]), which counts eight pairs at a time with 512-bit population
+//!   counts and adds tiles of eight rows by eight second loci to the sums, in the portable
+//!   loop's order;
 //! - otherwise, on a processor with AVX2 and POPCNT (with or without jackknife lanes): the
 //!   portable loop compiled with those features enabled;
 //! - otherwise, and on every other architecture: the portable loop compiled for the baseline
 //!   target ([`Kernel::Portable`]).
 //!
-//! Rust never fuses or reorders floating-point operations, and the AVX-512 kernel performs the
-//! portable kernel's IEEE operations in the same order lane by lane, so every path gives the
-//! same bits (`tests/packed_path.rs` runs both dense kernels where the processor allows).
+//! Rust never fuses or reorders floating-point operations, and the AVX-512 loop performs the
+//! portable kernel's IEEE operations in the same order lane by lane and adds to every sum in the
+//! same order, so every path gives the same bits (`tests/packed_path.rs` runs both dense loops
+//! where the processor allows).
 
 mod kernels;
 mod lanes;
 mod layout;
+#[cfg(target_arch = "x86_64")]
+mod tiles;
 
 use rayon::prelude::*;
 
@@ -83,7 +87,7 @@ fn merge_chunks(panel: &PackedPanel, parts: Vec<Vec<PairSums>>) -> Vec<PairSums>
 #[cfg(test)]
 pub fn avx512_available() -> bool {
     #[cfg(target_arch = "x86_64")]
-    return kernels::avx512::available();
+    return tiles::available();
     #[cfg(not(target_arch = "x86_64"))]
     return false;
 }
@@ -93,7 +97,7 @@ pub fn avx512_available() -> bool {
 fn chunk_sums_dispatch(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: bool) -> Vec<PairSums> {
     #[cfg(target_arch = "x86_64")]
     {
-        if panel.replicates == 0 && kernels::avx512::available() {
+        if panel.replicates == 0 && tiles::available() {
             // SAFETY: the processor has AVX-512 F, DQ and VPOPCNTDQ (checked just above).
             return unsafe { chunk_sums_avx512(panel, rows, skip) };
         }

@@ -1,10 +1,9 @@
-//! The dense kernels: without jackknife lanes, the values of every pair of a row (portable, one
-//! pair at a time with `count_ones`, or eight at a time with AVX-512), then each criterion's
+//! The portable dense kernel: without jackknife lanes, the values of every pair of a row (one
+//! pair at a time with `count_ones`; the AVX-512 loop is [`super::tiles`]), then each criterion's
 //! sums in branch-free vector-friendly loops.
 
 use super::super::pairs::{Accumulator, PairSums, r2_from_spreads};
 use super::lanes::{COUNTS, moments_of, slot_quantities};
-use super::layout::VECTOR;
 use super::{Kernel, PackedPanel, for_each_criterion};
 
 /// The nine counts of pair (a, b) over all individuals (dense layout).
@@ -50,15 +49,15 @@ impl RowValues {
 /// Per-locus sums of one criterion in a chunk, by panel locus (not criterion row), kept as
 /// arrays so a row adds its pairs to them in vector operations; pairs a criterion excludes add
 /// +0.0, which leaves a sum's bits unchanged (the sums start at +0.0 and only grow).
-struct LocusSums {
-    weighted_r2: Vec<f64>,
-    weight: Vec<f64>,
-    per_sample: Vec<f64>,
-    pairs: Vec<u64>,
+pub(super) struct LocusSums {
+    pub(super) weighted_r2: Vec<f64>,
+    pub(super) weight: Vec<f64>,
+    pub(super) per_sample: Vec<f64>,
+    pub(super) pairs: Vec<u64>,
 }
 
 impl LocusSums {
-    fn new(loci: usize) -> LocusSums {
+    pub(super) fn new(loci: usize) -> LocusSums {
         LocusSums {
             weighted_r2: vec![0.0; loci],
             weight: vec![0.0; loci],
@@ -68,7 +67,7 @@ impl LocusSums {
     }
 
     /// Adds a row's sums to its first locus.
-    fn add_row(&mut self, locus: usize, row: &Accumulator) {
+    pub(super) fn add_row(&mut self, locus: usize, row: &Accumulator) {
         self.weighted_r2[locus] += row.weighted_r2;
         self.weight[locus] += row.weight;
         self.per_sample[locus] += row.comparisons_per_sample;
@@ -77,7 +76,7 @@ impl LocusSums {
 
     /// Into the criterion's `with_locus` (by its rows); with one comparison per pair, the
     /// comparisons are the pair counts (sums of 1.0, exact).
-    fn write_into(&self, panel: &PackedPanel, criterion: usize, with_locus: &mut [Accumulator]) {
+    pub(super) fn write_into(&self, panel: &PackedPanel, criterion: usize, with_locus: &mut [Accumulator]) {
         for locus in 0..panel.loci.len() {
             if panel.loci[locus].member >> criterion & 1 == 1 {
                 with_locus[panel.row(locus, criterion)] = Accumulator {
@@ -103,6 +102,13 @@ pub(super) fn dense_chunk_sums(
     skip: bool,
     kernel: Kernel,
 ) -> Vec<PairSums> {
+    #[cfg(target_arch = "x86_64")]
+    if kernel == Kernel::Avx512 {
+        // SAFETY: `Kernel::Avx512` is only chosen where the processor has AVX-512 F, DQ and
+        // VPOPCNTDQ ([`super::tiles::available`]).
+        return unsafe { super::tiles::chunk_sums(panel, rows, skip) };
+    }
+    let _ = kernel;
     let loci = panel.loci.len();
     let mut sums: Vec<PairSums> = panel.loci_in.iter().map(|&n| PairSums::empty(n, 0)).collect();
     let mut locus_sums: Vec<LocusSums> = (0..panel.criteria).map(|_| LocusSums::new(loci)).collect();
@@ -111,7 +117,7 @@ pub(super) fn dense_chunk_sums(
     let mut include: Vec<Vec<u8>> = vec![vec![0; loci]; panel.criteria];
     let mut active: Vec<usize> = Vec::with_capacity(panel.criteria);
     for a in rows {
-        dense_row_values(panel, a, kernel, &mut values);
+        dense_row_values(panel, a, &mut values);
         let chromosome_a = panel.loci[a].chromosome;
         for b in a + 1..loci {
             same[b] = u8::from(skip && chromosome_a.is_some() && panel.loci[b].chromosome == chromosome_a);
@@ -224,15 +230,7 @@ fn include_and_add(
 
 /// The full-sample values (w·r̂², w, 1/S) of pairs (a, b) for every b > a, into `values[b]`.
 #[inline(always)]
-fn dense_row_values(panel: &PackedPanel, a: usize, kernel: Kernel, values: &mut RowValues) {
-    #[cfg(target_arch = "x86_64")]
-    if kernel == Kernel::Avx512 {
-        // SAFETY: `Kernel::Avx512` is only chosen where the processor has AVX-512 F, DQ and
-        // VPOPCNTDQ ([`avx512::available`]).
-        unsafe { avx512::row_values(panel, a, values) };
-        return;
-    }
-    let _ = kernel;
+fn dense_row_values(panel: &PackedPanel, a: usize, values: &mut RowValues) {
     let planes_a = panel.planes(a);
     for b in a + 1..panel.loci.len() {
         let full = full_weights(dense_counts(planes_a, panel.planes(b)), &panel.reciprocals);
@@ -241,90 +239,6 @@ fn dense_row_values(panel: &PackedPanel, a: usize, kernel: Kernel, values: &mut 
         values.weight[b] = weight;
         values.per_sample[b] = per_sample;
         values.defined[b] = u8::from(full.is_some());
-    }
-}
-
-#[cfg(target_arch = "x86_64")]
-pub(super) mod avx512 {
-    //! The dense kernel eight pairs at a time: locus a's words broadcast against eight loci's
-    //! words (word-major columns), nine AND-and-count operations per word as 64-bit lane
-    //! population counts, and r̂² with the same IEEE operations in the same order as
-    //! [`super::r2_from_spreads`] (each is correctly rounded lane by lane, so the bits agree).
-
-    use std::arch::x86_64::*;
-
-    use super::{PackedPanel, RowValues, VECTOR};
-
-    /// True when the processor has what [`row_values`] needs.
-    pub fn available() -> bool {
-        std::is_x86_feature_detected!("avx512f")
-            && std::is_x86_feature_detected!("avx512dq")
-            && std::is_x86_feature_detected!("avx512vpopcntdq")
-    }
-
-    /// [`super::dense_row_values`] with AVX-512.
-    ///
-    /// # Safety
-    /// The processor must have AVX-512 F, DQ and VPOPCNTDQ ([`available`]).
-    #[target_feature(enable = "avx512f,avx512dq,avx512vpopcntdq")]
-    pub unsafe fn row_values(panel: &PackedPanel, a: usize, values: &mut RowValues) {
-        let (words, stride, loci) = (panel.words, panel.stride, panel.loci.len());
-        let column = |plane: usize, word: usize, b: usize| (plane * words + word) * stride + b;
-        let mut b0 = a + 1;
-        while b0 < loci {
-            let mut counts = [_mm512_setzero_si512(); 9];
-            for word in 0..words {
-                let broadcast = |plane: usize| _mm512_set1_epi64(panel.columns[column(plane, word, a)] as i64);
-                // SAFETY: `columns` has `stride` ≥ loci rounded up to 8, plus 8, entries per row,
-                // so the eight words from b0 < loci are in bounds.
-                let load = |plane: usize| unsafe {
-                    _mm512_loadu_si512(panel.columns.as_ptr().add(column(plane, word, b0)).cast())
-                };
-                let (ta, la, ha) = (broadcast(0), broadcast(1), broadcast(2));
-                let (tb, lb, hb) = (load(0), load(1), load(2));
-                let pairs = [(ta, tb), (la, tb), (ha, tb), (lb, ta), (hb, ta), (la, lb), (la, hb), (ha, lb), (ha, hb)];
-                for (count, (x, y)) in counts.iter_mut().zip(pairs) {
-                    *count = _mm512_add_epi64(*count, _mm512_popcnt_epi64(_mm512_and_si512(x, y)));
-                }
-            }
-            let c = counts.map(|count| _mm512_cvtepi64_pd(count));
-            let three = _mm512_set1_pd(3.0);
-            let n = c[0];
-            let sx = _mm512_add_pd(c[1], c[2]);
-            let sxx = _mm512_add_pd(c[1], _mm512_mul_pd(three, c[2]));
-            let sy = _mm512_add_pd(c[3], c[4]);
-            let syy = _mm512_add_pd(c[3], _mm512_mul_pd(three, c[4]));
-            let sxy = _mm512_add_pd(_mm512_add_pd(_mm512_add_pd(c[5], c[6]), c[7]), c[8]);
-            let covariance = _mm512_sub_pd(_mm512_mul_pd(n, sxy), _mm512_mul_pd(sx, sy));
-            let spread_x = _mm512_sub_pd(_mm512_mul_pd(n, sxx), _mm512_mul_pd(sx, sx));
-            let spread_y = _mm512_sub_pd(_mm512_mul_pd(n, syy), _mm512_mul_pd(sy, sy));
-            let less = _mm512_sub_pd(n, _mm512_set1_pd(1.0));
-            let numerator = _mm512_mul_pd(_mm512_mul_pd(covariance, covariance), _mm512_mul_pd(n, n));
-            let denominator = _mm512_mul_pd(_mm512_mul_pd(spread_x, spread_y), _mm512_mul_pd(less, less));
-            let r2 = _mm512_div_pd(numerator, denominator);
-            let weight = _mm512_mul_pd(_mm512_mul_pd(_mm512_set1_pd(1.0), n), n);
-            let weighted = _mm512_mul_pd(weight, r2);
-            let per_sample = _mm512_div_pd(_mm512_set1_pd(1.0), n);
-            let zero = _mm512_setzero_pd();
-            let defined = _mm512_cmp_pd_mask::<_CMP_GE_OQ>(n, _mm512_set1_pd(2.0))
-                & _mm512_cmp_pd_mask::<_CMP_GT_OQ>(spread_x, zero)
-                & _mm512_cmp_pd_mask::<_CMP_GT_OQ>(spread_y, zero);
-            // Undefined lanes hold 0.0, as the portable kernel writes them.
-            let weighted = _mm512_maskz_mov_pd(defined, weighted);
-            let weight = _mm512_maskz_mov_pd(defined, weight);
-            let per_sample = _mm512_maskz_mov_pd(defined, per_sample);
-            // SAFETY: the value arrays have `stride` ≥ b0 + 8 entries (b0 < loci, and the
-            // stride is the loci rounded up to 8 plus 8).
-            unsafe {
-                _mm512_storeu_pd(values.weighted_r2.as_mut_ptr().add(b0), weighted);
-                _mm512_storeu_pd(values.weight.as_mut_ptr().add(b0), weight);
-                _mm512_storeu_pd(values.per_sample.as_mut_ptr().add(b0), per_sample);
-            }
-            for lane in 0..VECTOR {
-                values.defined[b0 + lane] = (defined >> lane & 1) as u8;
-            }
-            b0 += VECTOR;
-        }
     }
 }
 
