@@ -66,7 +66,23 @@ impl Lanes {
         self.weight = _mm512_mask_add_pd(self.weight, mask, self.weight, weight);
         self.per_sample = _mm512_mask_add_pd(self.per_sample, mask, self.per_sample, per_sample);
     }
+
+    /// The eight lanes of each sum: w·r̂², w and 1/S.
+    #[target_feature(enable = "avx512f")]
+    #[inline]
+    fn lanes(&self) -> [[f64; VECTOR]; 3] {
+        let mut out = [[0.0; VECTOR]; 3];
+        for (lanes, sum) in out.iter_mut().zip([self.weighted_r2, self.weight, self.per_sample]) {
+            // SAFETY: each array holds eight doubles.
+            unsafe { _mm512_storeu_pd(lanes.as_mut_ptr(), sum) };
+        }
+        out
+    }
 }
+
+/// Criteria summed together in one pass over a block's tiles (their sums stay in registers);
+/// a block with more runs one pass per group.
+const GROUP: usize = 4;
 
 /// Every pair whose first locus is in `rows`, summed per criterion: the same [`PairSums`], to
 /// the last bit, as the portable dense loop.
@@ -75,70 +91,61 @@ impl Lanes {
 /// The processor must have AVX-512 F, DQ and VPOPCNTDQ ([`available`]).
 #[target_feature(enable = "avx512f,avx512dq,avx512vpopcntdq,avx2,popcnt")]
 pub unsafe fn chunk_sums(panel: &PackedPanel, rows: std::ops::Range<usize>, skip: bool) -> Vec<PairSums> {
-    let (loci, stride) = (panel.loci.len(), panel.stride);
-    let mut sums: Vec<PairSums> = panel.loci_in.iter().map(|&n| PairSums::empty(n, 0)).collect();
-    // Per criterion, the sums of each second locus, padded to whole vectors.
-    let mut columns: Vec<LocusSums> = (0..panel.criteria).map(|_| LocusSums::new(stride)).collect();
+    let stride = panel.stride;
     // Per locus, padded: criteria bits, and chromosome id (-1 when unknown, never "the same").
     let members: Vec<u64> = (0..stride).map(|b| panel.members.get(b).copied().unwrap_or(0)).collect();
-    let chromosomes: Vec<i64> =
-        (0..stride).map(|b| panel.loci.get(b).and_then(|l| l.chromosome).map_or(-1, i64::from)).collect();
-    let near = Near::new(&panel.reciprocals);
-    let mut rows_of = vec![Lanes::zero(); panel.criteria];
-    let mut block = Block::default();
+    let chromosomes: Vec<i64> = (0..stride)
+        .map(|b| match panel.loci.get(b).and_then(|l| l.chromosome) {
+            Some(id) if skip => i64::from(id),
+            _ => -1,
+        })
+        .collect();
+    let chunk = Chunk { panel, near: Near::new(&panel.reciprocals), members, chromosomes };
+    let mut sums = Sums {
+        pairs: panel.loci_in.iter().map(|&n| PairSums::empty(n, 0)).collect(),
+        columns: (0..panel.criteria).map(|_| LocusSums::new(stride)).collect(),
+    };
+    let mut active: Vec<usize> = Vec::with_capacity(panel.criteria);
     let mut a0 = rows.start;
     while a0 < rows.end {
-        block.start(&members, a0, (rows.end - a0).min(VECTOR));
-        for &c in &block.active {
-            rows_of[c] = Lanes::zero();
-        }
-        let mut b0 = a0;
-        while b0 < loci {
-            let tile = Tile { panel, near: &near, members: &members, chromosomes: &chromosomes, b0, skip };
-            tile.masks(&block.active, &mut block.column_masks);
-            let values = tile.rows(&mut block, &mut sums, &mut columns);
-            let weighted_r2 = transpose(values.map(|v| v.weighted_r2));
-            let weight = transpose(values.map(|v| v.weight));
-            let per_sample = transpose(values.map(|v| v.per_sample));
-            for j in 0..VECTOR.min(loci - b0) {
-                for (k, &c) in block.active.iter().enumerate() {
-                    if block.column_masks[k] >> j & 1 == 1 {
-                        rows_of[c].add(block.row_masks[k], weighted_r2[j], weight[j], per_sample[j]);
-                    }
-                }
+        let block = Block::new(&chunk.members, a0, (rows.end - a0).min(VECTOR));
+        active.clear();
+        for_each_criterion(block.members.iter().fold(0, |all, m| all | m), |c| active.push(c));
+        for group in active.chunks(GROUP) {
+            match *group {
+                [a] => chunk.block_sums([a], &block, &mut sums),
+                [a, b] => chunk.block_sums([a, b], &block, &mut sums),
+                [a, b, c] => chunk.block_sums([a, b, c], &block, &mut sums),
+                [a, b, c, d] => chunk.block_sums([a, b, c, d], &block, &mut sums),
+                _ => unreachable!("groups hold one to {GROUP} criteria"),
             }
-            b0 += VECTOR;
-        }
-        for (i, &member) in block.members[..block.rows].iter().enumerate() {
-            for_each_criterion(member, |c| {
-                let lane = |v: __m512d| {
-                    let mut out = [0.0f64; VECTOR];
-                    // SAFETY: `out` holds eight doubles.
-                    unsafe { _mm512_storeu_pd(out.as_mut_ptr(), v) };
-                    out[i]
-                };
-                let pairs = block.pairs[c][i];
-                let row = Accumulator {
-                    weighted_r2: lane(rows_of[c].weighted_r2),
-                    weight: lane(rows_of[c].weight),
-                    comparisons: pairs as f64,
-                    comparisons_per_sample: lane(rows_of[c].per_sample),
-                    pairs,
-                };
-                sums[c].total.merge(&row);
-                columns[c].add_row(block.a0 + i, &row);
-            });
         }
         a0 += block.rows;
     }
-    for (c, (sums, columns)) in sums.iter_mut().zip(&columns).enumerate() {
-        columns.write_into(panel, c, &mut sums.with_locus);
+    for (c, (pairs, columns)) in sums.pairs.iter_mut().zip(&sums.columns).enumerate() {
+        columns.write_into(panel, c, &mut pairs.with_locus);
     }
-    sums
+    sums.pairs
 }
 
-/// Up to eight rows (first loci) summed together, and scratch reused from tile to tile.
-#[derive(Default)]
+/// What every block of a chunk reads.
+struct Chunk<'a> {
+    panel: &'a PackedPanel,
+    near: Near,
+    /// Criteria bits per locus, padded to the stride.
+    members: Vec<u64>,
+    /// Chromosome id per locus, -1 when unknown or when same-chromosome pairs are kept, padded.
+    chromosomes: Vec<i64>,
+}
+
+/// The chunk's sums: per criterion its [`PairSums`] (totals and counts), and its sums by second
+/// locus, padded to whole vectors.
+struct Sums {
+    pairs: Vec<PairSums>,
+    columns: Vec<LocusSums>,
+}
+
+/// Up to eight rows (first loci) summed together.
 struct Block {
     /// First row.
     a0: usize,
@@ -146,159 +153,143 @@ struct Block {
     rows: usize,
     /// Criteria bits of each row (0 past the block).
     members: [u64; VECTOR],
-    /// Criteria of any row, ascending.
-    active: Vec<usize>,
-    /// Per active criterion: the rows it keeps.
-    row_masks: Vec<__mmask8>,
-    /// Per active criterion: the tile's second loci it keeps.
-    column_masks: Vec<__mmask8>,
-    /// Per criterion and row: included pairs so far.
-    pairs: Vec<[u64; VECTOR]>,
-    /// Per active criterion: the tile's second-locus sums while the block's rows are added.
-    column_sums: Vec<(Lanes, __m512i)>,
 }
 
 impl Block {
-    /// Starts the block of `rows` rows from `a0`.
-    fn start(&mut self, members: &[u64], a0: usize, rows: usize) {
-        (self.a0, self.rows) = (a0, rows);
-        self.members = std::array::from_fn(|i| if i < rows { members[a0 + i] } else { 0 });
-        self.active.clear();
-        for_each_criterion(self.members.iter().fold(0, |all, m| all | m), |c| self.active.push(c));
-        self.row_masks.clear();
-        for &c in &self.active {
-            let mask = (0..VECTOR).fold(0u8, |mask, i| mask | (((self.members[i] >> c & 1) as u8) << i));
-            self.row_masks.push(mask);
-        }
-        let criteria = self.active.last().map_or(0, |&c| c + 1);
-        if self.pairs.len() < criteria {
-            self.pairs.resize(criteria, [0; VECTOR]);
-        }
-        for &c in &self.active {
-            self.pairs[c] = [0; VECTOR];
-        }
+    fn new(members: &[u64], a0: usize, rows: usize) -> Block {
+        Block { a0, rows, members: std::array::from_fn(|i| if i < rows { members[a0 + i] } else { 0 }) }
+    }
+
+    /// The rows criterion c keeps.
+    fn rows_of(&self, c: usize) -> __mmask8 {
+        (0..VECTOR).fold(0u8, |mask, i| mask | (((self.members[i] >> c & 1) as u8) << i))
     }
 }
 
-/// Eight second loci from `b0`, with what every row of a block needs of them.
-struct Tile<'a> {
-    panel: &'a PackedPanel,
-    near: &'a Near,
-    members: &'a [u64],
-    chromosomes: &'a [i64],
-    b0: usize,
-    skip: bool,
-}
-
-impl Tile<'_> {
-    /// Lanes holding a locus of the panel.
-    fn valid(&self) -> __mmask8 {
-        let left = self.panel.loci.len() - self.b0;
-        if left >= VECTOR { 0xff } else { ((1u16 << left) - 1) as u8 }
-    }
-
-    /// Per criterion of `active`, the lanes whose locus it keeps, into `masks`.
-    #[target_feature(enable = "avx512f")]
-    #[inline]
-    fn masks(&self, active: &[usize], masks: &mut Vec<__mmask8>) {
-        // SAFETY: `members` has `stride` ≥ b0 + 8 entries.
-        let members = unsafe { _mm512_loadu_si512(self.members.as_ptr().add(self.b0).cast()) };
-        masks.clear();
-        for &c in active {
-            masks.push(_mm512_test_epi64_mask(members, _mm512_set1_epi64(1 << c)) & self.valid());
-        }
-    }
-
-    /// The block's rows against this tile: each row's values, its pairs added to the second
-    /// loci's sums (`columns`) in row order, its same-chromosome and undefined pairs counted and
-    /// its included pairs counted into the block's `pairs`. Returns the rows' values with
-    /// excluded pairs (and rows past the block) set to +0.0, for the row sums.
+impl Chunk<'_> {
+    /// Every pair of the block's rows for the K criteria `criteria`: tile by tile, each row's
+    /// values, then the second loci's sums in row order, then the row sums in b order over the
+    /// transposed tile; at the end each row's sums go to the totals and to its own locus.
     #[target_feature(enable = "avx512f,avx512dq,avx512vpopcntdq")]
     #[inline]
-    fn rows(&self, block: &mut Block, sums: &mut [PairSums], columns: &mut [LocusSums]) -> [Values; VECTOR] {
-        block.column_sums.clear();
-        for &c in &block.active {
-            block.column_sums.push(self.load(&columns[c]));
-        }
-        let b0 = self.b0;
-        // SAFETY: `chromosomes` has `stride` ≥ b0 + 8 entries.
-        let chromosomes = unsafe { _mm512_loadu_si512(self.chromosomes.as_ptr().add(b0).cast()) };
+    fn block_sums<const K: usize>(&self, criteria: [usize; K], block: &Block, sums: &mut Sums) {
+        let loci = self.panel.loci.len();
+        let row_masks: [__mmask8; K] = criteria.map(|c| block.rows_of(c));
+        let mut row_sums = [Lanes::zero(); K];
+        let mut row_pairs = [[0u64; VECTOR]; K];
+        let (mut same_pairs, mut undefined) = ([0u64; K], [0u64; K]);
         let one = _mm512_set1_epi64(1);
         let zero = _mm512_setzero_pd();
-        let mut values = [Values { weighted_r2: zero, weight: zero, per_sample: zero, defined: 0 }; VECTOR];
-        // Every row's values first: eight independent chains of work for the processor to
-        // overlap, before the additions that depend on them.
-        for (i, out) in values.iter_mut().enumerate().take(block.rows) {
-            // SAFETY: this function has the features `pair_values` needs; b0 < loci.
-            *out = unsafe { pair_values(self.panel, self.near, block.a0 + i, b0) };
-        }
-        for (i, out) in values.iter_mut().enumerate().take(block.rows) {
-            let a = block.a0 + i;
-            let v = *out;
-            // Lanes past locus a (only the first tile of a block holds some b ≤ a).
-            let after = if b0 > a { 0xff } else { !(((1u16 << (a - b0 + 1)) - 1) as u8) };
-            let lanes = self.valid() & after;
-            let same = if self.skip && self.chromosomes[a] >= 0 {
-                _mm512_cmpeq_epi64_mask(chromosomes, _mm512_set1_epi64(self.chromosomes[a])) & lanes
-            } else {
-                0
+        let mut b0 = block.a0;
+        while b0 < loci {
+            let left = loci - b0;
+            let valid: __mmask8 = if left >= VECTOR { 0xff } else { ((1u16 << left) - 1) as u8 };
+            // SAFETY: `members` and `chromosomes` have `stride` ≥ b0 + 8 entries.
+            let (members, chromosomes) = unsafe {
+                (
+                    _mm512_loadu_si512(self.members.as_ptr().add(b0).cast()),
+                    _mm512_loadu_si512(self.chromosomes.as_ptr().add(b0).cast()),
+                )
             };
-            let kept = lanes & !same;
-            let included = kept & v.defined;
-            for (k, &c) in block.active.iter().enumerate() {
-                if block.members[i] >> c & 1 == 0 {
-                    continue;
-                }
-                let columns = block.column_masks[k];
-                let mask = included & columns;
-                sums[c].same_chromosome += u64::from((same & columns).count_ones());
-                sums[c].undefined += u64::from((kept & !v.defined & columns).count_ones());
-                block.pairs[c][i] += u64::from(mask.count_ones());
-                let (lanes, pairs) = &mut block.column_sums[k];
-                lanes.add(mask, v.weighted_r2, v.weight, v.per_sample);
-                *pairs = _mm512_mask_add_epi64(*pairs, mask, *pairs, one);
+            let column_masks: [__mmask8; K] =
+                criteria.map(|c| _mm512_test_epi64_mask(members, _mm512_set1_epi64(1 << c)) & valid);
+            // Every row's values first: eight independent chains of work for the processor to
+            // overlap, before the additions that depend on them.
+            let mut values = [Values { weighted_r2: zero, weight: zero, per_sample: zero, defined: 0 }; VECTOR];
+            for (i, out) in values.iter_mut().enumerate().take(block.rows) {
+                // SAFETY: this function has the features `pair_values` needs; b0 < loci.
+                *out = unsafe { pair_values(self.panel, &self.near, block.a0 + i, b0) };
             }
-            *out = Values {
-                weighted_r2: _mm512_maskz_mov_pd(included, v.weighted_r2),
-                weight: _mm512_maskz_mov_pd(included, v.weight),
-                per_sample: _mm512_maskz_mov_pd(included, v.per_sample),
-                defined: included,
-            };
+            let mut columns: [(Lanes, __m512i); K] = criteria.map(|c| load(&sums.columns[c], b0));
+            for (i, v) in values.iter_mut().enumerate().take(block.rows) {
+                let a = block.a0 + i;
+                // Lanes past locus a (only the first tile of a block holds some b ≤ a).
+                let after = if b0 > a { 0xff } else { !(((1u16 << (a - b0 + 1)) - 1) as u8) };
+                let lanes = valid & after;
+                let same = if self.chromosomes[a] >= 0 {
+                    _mm512_cmpeq_epi64_mask(chromosomes, _mm512_set1_epi64(self.chromosomes[a])) & lanes
+                } else {
+                    0
+                };
+                let kept = lanes & !same;
+                let included = kept & v.defined;
+                for k in 0..K {
+                    if row_masks[k] >> i & 1 == 0 {
+                        continue;
+                    }
+                    let mask = included & column_masks[k];
+                    same_pairs[k] += u64::from((same & column_masks[k]).count_ones());
+                    undefined[k] += u64::from((kept & !v.defined & column_masks[k]).count_ones());
+                    row_pairs[k][i] += u64::from(mask.count_ones());
+                    let (lanes, pairs) = &mut columns[k];
+                    lanes.add(mask, v.weighted_r2, v.weight, v.per_sample);
+                    *pairs = _mm512_mask_add_epi64(*pairs, mask, *pairs, one);
+                }
+                // Excluded pairs as +0.0 for the row sums.
+                v.weighted_r2 = _mm512_maskz_mov_pd(included, v.weighted_r2);
+                v.weight = _mm512_maskz_mov_pd(included, v.weight);
+                v.per_sample = _mm512_maskz_mov_pd(included, v.per_sample);
+            }
+            for (&c, column) in criteria.iter().zip(&columns) {
+                store(&mut sums.columns[c], b0, column);
+            }
+            let weighted_r2 = transpose(values.map(|v| v.weighted_r2));
+            let weight = transpose(values.map(|v| v.weight));
+            let per_sample = transpose(values.map(|v| v.per_sample));
+            for j in 0..VECTOR.min(left) {
+                for k in 0..K {
+                    // The block's rows this criterion keeps, when it keeps locus b0 + j.
+                    let mask = row_masks[k] & 0u8.wrapping_sub(column_masks[k] >> j & 1);
+                    row_sums[k].add(mask, weighted_r2[j], weight[j], per_sample[j]);
+                }
+            }
+            b0 += VECTOR;
         }
-        for (&c, sums) in block.active.iter().zip(&block.column_sums) {
-            self.store(&mut columns[c], sums);
+        for (k, &c) in criteria.iter().enumerate() {
+            let pairs = &mut sums.pairs[c];
+            pairs.same_chromosome += same_pairs[k];
+            pairs.undefined += undefined[k];
+            let lanes = row_sums[k].lanes();
+            for i in (0..block.rows).filter(|&i| row_masks[k] >> i & 1 == 1) {
+                let row = Accumulator {
+                    weighted_r2: lanes[0][i],
+                    weight: lanes[1][i],
+                    comparisons: row_pairs[k][i] as f64,
+                    comparisons_per_sample: lanes[2][i],
+                    pairs: row_pairs[k][i],
+                };
+                pairs.total.merge(&row);
+                sums.columns[c].add_row(block.a0 + i, &row);
+            }
         }
-        values
     }
+}
 
-    /// The second loci's sums of one criterion, eight from `b0`.
-    #[target_feature(enable = "avx512f")]
-    #[inline]
-    fn load(&self, sums: &LocusSums) -> (Lanes, __m512i) {
-        let b0 = self.b0;
-        // SAFETY: the arrays have `stride` ≥ b0 + 8 entries.
-        unsafe {
-            let lanes = Lanes {
-                weighted_r2: _mm512_loadu_pd(sums.weighted_r2.as_ptr().add(b0)),
-                weight: _mm512_loadu_pd(sums.weight.as_ptr().add(b0)),
-                per_sample: _mm512_loadu_pd(sums.per_sample.as_ptr().add(b0)),
-            };
-            (lanes, _mm512_loadu_si512(sums.pairs.as_ptr().add(b0).cast()))
-        }
+/// A criterion's sums of the eight second loci from `b0`.
+#[target_feature(enable = "avx512f")]
+#[inline]
+fn load(sums: &LocusSums, b0: usize) -> (Lanes, __m512i) {
+    // SAFETY: the arrays have `stride` ≥ b0 + 8 entries.
+    unsafe {
+        let lanes = Lanes {
+            weighted_r2: _mm512_loadu_pd(sums.weighted_r2.as_ptr().add(b0)),
+            weight: _mm512_loadu_pd(sums.weight.as_ptr().add(b0)),
+            per_sample: _mm512_loadu_pd(sums.per_sample.as_ptr().add(b0)),
+        };
+        (lanes, _mm512_loadu_si512(sums.pairs.as_ptr().add(b0).cast()))
     }
+}
 
-    /// Writes back what [`Tile::load`] read.
-    #[target_feature(enable = "avx512f")]
-    #[inline]
-    fn store(&self, sums: &mut LocusSums, (lanes, pairs): &(Lanes, __m512i)) {
-        let b0 = self.b0;
-        // SAFETY: as in [`Tile::load`].
-        unsafe {
-            _mm512_storeu_pd(sums.weighted_r2.as_mut_ptr().add(b0), lanes.weighted_r2);
-            _mm512_storeu_pd(sums.weight.as_mut_ptr().add(b0), lanes.weight);
-            _mm512_storeu_pd(sums.per_sample.as_mut_ptr().add(b0), lanes.per_sample);
-            _mm512_storeu_si512(sums.pairs.as_mut_ptr().add(b0).cast(), *pairs);
-        }
+/// Writes back what [`load`] read.
+#[target_feature(enable = "avx512f")]
+#[inline]
+fn store(sums: &mut LocusSums, b0: usize, (lanes, pairs): &(Lanes, __m512i)) {
+    // SAFETY: as in [`load`].
+    unsafe {
+        _mm512_storeu_pd(sums.weighted_r2.as_mut_ptr().add(b0), lanes.weighted_r2);
+        _mm512_storeu_pd(sums.weight.as_mut_ptr().add(b0), lanes.weight);
+        _mm512_storeu_pd(sums.per_sample.as_mut_ptr().add(b0), lanes.per_sample);
+        _mm512_storeu_si512(sums.pairs.as_mut_ptr().add(b0).cast(), *pairs);
     }
 }
 

@@ -165,7 +165,7 @@ fn jackknife_over_individuals_can_run_on_a_subset_of_loci() {
 /// the same pair sums to the last bit (compared by their printed form, which tells -0.0 from
 /// +0.0), on random biallelic groups of 1 to 300 individuals (1 to 5 words per plane) and 1 to
 /// 300 loci: partial tiles at the row ends, chunks that start and end inside a block of eight
-/// rows, and many blocks per chunk. Skipped, with a message, on processors without AVX-512
+/// rows, many blocks per chunk, and three or seven criteria. Skipped, with a message, on processors without AVX-512
 /// VPOPCNTDQ, where only the portable kernel runs.
 #[test]
 fn avx512_and_portable_kernels_agree() {
@@ -192,8 +192,12 @@ fn avx512_and_portable_kernels_agree() {
         let view = matrix.full_view(&samples, &all);
         let chromosomes = chromosome_ids(&view);
         let group = &view.groups()[0];
-        let criteria = [Criterion::Pcrit(0.05), Criterion::Pcrit(0.0), Criterion::NoSingletons];
-        let request = PackedRequest { group, loci: &all, criteria: &criteria, groups: 0, chromosomes: &chromosomes };
+        let three = [Criterion::Pcrit(0.05), Criterion::Pcrit(0.0), Criterion::NoSingletons];
+        // Seven criteria, more than one pass of the tiled loop sums at once.
+        let seven = [0.3, 0.2, 0.1, 0.05, 0.02, 0.0].map(Criterion::Pcrit);
+        let seven: Vec<Criterion> = seven.into_iter().chain([Criterion::NoSingletons]).collect();
+        let criteria: &[Criterion] = if seed % 3 == 0 { &seven } else { &three };
+        let request = PackedRequest { group, loci: &all, criteria, groups: 0, chromosomes: &chromosomes };
         let panel = PackedPanel::build(&view, &request, &group.samples).expect("biallelic");
         let cuts = ChunkCuts::new(&all);
         let portable = sum_pairs_packed_with(&panel, true, &cuts, Kernel::Portable);
