@@ -161,9 +161,11 @@ pub fn run_case(case_dir: &Path, options: &RunOptions, progress: &mut dyn Progre
     let case = load_case_trusting(case_dir, options.allow_outside, &options.trust, progress)?;
     let input_paths: Vec<&Path> = case.recipe.input_files().iter().map(|f| f.path.as_path()).collect();
     check_target(&out, options.force, case_dir, &input_paths)?;
-    let engine = run_steps(&case.recipe, &case.data, progress)?;
+    let mut engine = run_steps(&case.recipe, &case.data, progress)?;
     progress.task("typesetting the assessment");
-    let (results, mut files) = render_outputs(&case, &engine)?;
+    // The step results move into the results document (the large tables are not copied).
+    let steps = std::mem::take(&mut engine.results);
+    let (results, mut files) = render_results(&case, &engine, steps)?;
     let case_folder = relative_path(&absolute_path(&out), &absolute_path(case_dir));
     let provenance = provenance_record(
         &case,
@@ -191,7 +193,17 @@ fn pretty_json<T: serde::Serialize>(value: &T) -> Vec<u8> {
 /// [`RunError::Report`] when the document cannot be typeset (a custom template that does not
 /// compile, named by file and line).
 pub fn render_outputs(case: &LoadedCase, engine: &EngineOutput) -> Result<(ResultsDocument, OutputFiles), RunError> {
-    let results = ResultsDocument::new(&case.recipe.data.genotypes.relative, &case.data, engine);
+    render_results(case, engine, engine.results.clone())
+}
+
+/// [`render_outputs`] with the step results given by value (`engine.results` is not read).
+fn render_results(
+    case: &LoadedCase,
+    engine: &EngineOutput,
+    steps: Vec<popgauge_abi::StepResult>,
+) -> Result<(ResultsDocument, OutputFiles), RunError> {
+    let results =
+        ResultsDocument::with_steps(&case.recipe.data.genotypes.relative, &case.data, &engine.assessment, steps);
     // The results file and tables, and the document, depend only on `results`: made side by
     // side (the document's typesetting is single-threaded).
     let (mut files, document) = rayon::join(

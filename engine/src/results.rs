@@ -90,6 +90,17 @@ impl ResultsDocument {
 
     /// Assembles the document.
     pub fn new(genotypes_file: &str, data: &LoadedData, engine: &EngineOutput) -> ResultsDocument {
+        ResultsDocument::with_steps(genotypes_file, data, &engine.assessment, engine.results.clone())
+    }
+
+    /// [`ResultsDocument::new`] taking the step results by value (a run hands over its results
+    /// rather than copying the large tables).
+    pub fn with_steps(
+        genotypes_file: &str,
+        data: &LoadedData,
+        assessment: &AssessmentInfo,
+        steps: Vec<StepResult>,
+    ) -> ResultsDocument {
         let all_samples = data.matrix.all_sample_indices();
         let all_loci = data.matrix.all_locus_indices();
         let view = data.matrix.full_view(&all_samples, &all_loci);
@@ -101,7 +112,7 @@ impl ResultsDocument {
         ResultsDocument {
             schema: RESULTS_SCHEMA.into(),
             tool: ToolName { name: "popgauge".into(), version: env!("CARGO_PKG_VERSION").into() },
-            assessment: engine.assessment.clone(),
+            assessment: assessment.clone(),
             data: DataSummary {
                 genotypes: genotypes_file.into(),
                 samples: data.matrix.samples().len(),
@@ -110,7 +121,7 @@ impl ResultsDocument {
                 findings: data.findings.clone(),
                 locus_sheet: data.loci.clone(),
             },
-            steps: engine.results.clone(),
+            steps,
         }
     }
 
