@@ -4,6 +4,7 @@
 
 use std::collections::BTreeSet;
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 use super::super::figures::Figure;
@@ -53,7 +54,12 @@ fn page_capacity(layout: &str) -> usize {
 /// A displayed number read back for ordering (`−0.082`, `1,234`, `∞`, `< 0.001`); `None`
 /// for text.
 fn display_value(text: &str) -> Option<f64> {
-    let t = text.trim().replace('−', "-").replace(',', "").replace(" %", "");
+    let plain = text.trim();
+    // Most cells are plain numbers: read them without the rewriting below (the same value).
+    if plain.bytes().all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'-' | b'+' | b'e' | b'E')) {
+        return plain.parse().ok();
+    }
+    let t = plain.replace('−', "-").replace(',', "").replace(" %", "");
     match t.as_str() {
         "∞" => Some(f64::INFINITY),
         "-∞" => Some(f64::NEG_INFINITY),
@@ -66,33 +72,52 @@ fn display_value(text: &str) -> Option<f64> {
 fn summarise(table: &TableData) -> TableData {
     let mut out =
         TableData::new(&[("Column", false), ("Values", true), ("Lowest", true), ("Median", true), ("Highest", true)]);
-    for (c, heading) in table.columns.iter().enumerate() {
-        let cells: Vec<&str> =
-            table.rows.iter().map(|r| r[c].as_str()).filter(|v| *v != format::UNDEFINED && !v.is_empty()).collect();
-        let numbers: Vec<(f64, &str)> = cells.iter().filter_map(|v| Some((display_value(v)?, *v))).collect();
-        if table.numeric[c] && !numbers.is_empty() && numbers.len() == cells.len() {
-            let mut sorted = numbers;
-            sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
-            let n = sorted.len();
-            out.push(vec![
-                heading.clone(),
-                format::count(n),
-                sorted[0].1.to_string(),
-                sorted[(n - 1) / 2].1.to_string(),
-                sorted[n - 1].1.to_string(),
-            ]);
-        } else {
-            let distinct: BTreeSet<&str> = cells.iter().copied().collect();
-            out.push(vec![
-                heading.clone(),
-                format!("{} distinct", format::count(distinct.len())),
-                format::UNDEFINED.into(),
-                format::UNDEFINED.into(),
-                format::UNDEFINED.into(),
-            ]);
-        }
+    let summaries: Vec<Vec<String>> =
+        (0..table.columns.len()).into_par_iter().map(|c| summarise_column(table, c)).collect();
+    for row in summaries {
+        out.push(row);
     }
     out
+}
+
+/// One row of [`summarise`]: column `c`.
+fn summarise_column(table: &TableData, c: usize) -> Vec<String> {
+    let heading = table.columns[c].clone();
+    let cells: Vec<&str> =
+        table.rows.iter().map(|r| r[c].as_str()).filter(|v| *v != format::UNDEFINED && !v.is_empty()).collect();
+    let numbers: Vec<(f64, &str)> = cells.iter().filter_map(|v| Some((display_value(v)?, *v))).collect();
+    if table.numeric[c] && !numbers.is_empty() && numbers.len() == cells.len() {
+        let [lowest, median, highest] = order_statistics(&numbers);
+        return vec![
+            heading,
+            format::count(numbers.len()),
+            lowest.to_string(),
+            median.to_string(),
+            highest.to_string(),
+        ];
+    }
+    let distinct: BTreeSet<&str> = cells.iter().copied().collect();
+    vec![
+        heading,
+        format!("{} distinct", format::count(distinct.len())),
+        format::UNDEFINED.into(),
+        format::UNDEFINED.into(),
+        format::UNDEFINED.into(),
+    ]
+}
+
+/// The texts of the lowest, median (the lower of the middle two) and highest of `numbers`, as
+/// in their stable sort by value: ties go by position, so the lowest is the first of the least
+/// values and the highest the last of the greatest. Found by selection, in linear time.
+fn order_statistics<'a>(numbers: &[(f64, &'a str)]) -> [&'a str; 3] {
+    let key = |&(value, _): &(f64, &str), position: usize| (value, position);
+    let order = |a: &(f64, usize), b: &(f64, usize)| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1));
+    let mut keyed: Vec<(f64, usize)> = numbers.iter().enumerate().map(|(i, number)| key(number, i)).collect();
+    let lowest = keyed.iter().min_by(|a, b| order(a, b)).map_or(0, |k| k.1);
+    let highest = keyed.iter().max_by(|a, b| order(a, b)).map_or(0, |k| k.1);
+    let middle = (keyed.len() - 1) / 2;
+    let median = keyed.select_nth_unstable_by(middle, order).1.1;
+    [numbers[lowest].1, numbers[median].1, numbers[highest].1]
 }
 
 /// What an appendix table that prints only its first rows leaves out.
@@ -110,6 +135,7 @@ fn appendix_layout(table: &TableData) -> &'static str {
     // A heading wraps at its spaces, so its longest word is what it needs at the least.
     let heading_width = |h: &String| h.split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0);
     let widths: Vec<usize> = (0..table.columns.len())
+        .into_par_iter()
         .map(|c| {
             let cells = table.rows.iter().map(|r| r[c].chars().count()).max().unwrap_or(0);
             cells.max(heading_width(&table.columns[c])) + 2
@@ -191,5 +217,26 @@ mod tests {
         assert_eq!(display_value("12.5 %"), Some(12.5));
         assert!(display_value("< 0.001").is_some_and(|v| v < 0.001));
         assert_eq!(display_value("Brennmoor"), None);
+        assert_eq!(display_value(" 2.5e-3 "), Some(0.0025));
+        assert_eq!(display_value(""), None);
+    }
+
+    /// The lowest, median and highest texts are those of a stable sort by value (common
+    /// practice: the lower median of an even count; ties by position).
+    #[test]
+    fn order_statistics_match_a_stable_sort() {
+        let texts = ["0.30", "0.1", "0.10", "0.5", "0.3", "0.50", "-0", "0"];
+        let numbers: Vec<(f64, &str)> = texts.iter().map(|t| (display_value(t).expect("a number"), *t)).collect();
+        let mut sorted = numbers.clone();
+        sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let expected = [sorted[0].1, sorted[(sorted.len() - 1) / 2].1, sorted[sorted.len() - 1].1];
+        assert_eq!(order_statistics(&numbers), expected);
+        assert_eq!(expected, ["-0", "0.10", "0.50"]);
+        for n in 1..texts.len() {
+            let part = &numbers[..n];
+            let mut sorted = part.to_vec();
+            sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
+            assert_eq!(order_statistics(part), [sorted[0].1, sorted[(n - 1) / 2].1, sorted[n - 1].1], "first {n}");
+        }
     }
 }

@@ -1,5 +1,6 @@
 //! Tables as the template receives them: headings and cells already formatted as text.
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 use popgauge_abi::Cell;
@@ -98,7 +99,7 @@ pub fn generic(rows: &Rows<'_>) -> TableData {
         numeric,
         rows: table
             .rows
-            .iter()
+            .par_iter()
             .map(|row| row.iter().zip(&styles).map(|(cell, style)| format::cell(cell, *style)).collect())
             .collect(),
     }
