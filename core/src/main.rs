@@ -23,7 +23,7 @@ fn main() -> ExitCode {
 /// Asks the GNU C library for one allocation arena, before any thread starts. By default each
 /// worker thread gets an arena of its own, and memory a step frees in one arena is not reused
 /// by the next step's allocations in another: on the genomic-scale case (docs/benchmarks.md)
-/// the peak resident memory of `popgauge run` fell from 1.17 GB to 0.84 GB with one arena, at
+/// the peak resident memory of `popgauge run` fell from 1139 MiB to 793 MiB with one arena, at
 /// the same run time. Small allocations still come from each thread's own cache.
 fn one_allocator_arena() {
     #[cfg(all(target_os = "linux", target_env = "gnu"))]
