@@ -51,8 +51,6 @@
 //! Weir BS, Cockerham CC (1984) Estimating F-statistics for the analysis of population
 //! structure. *Evolution* 38:1358–1370.
 
-pub mod lanes;
-
 use std::iter::Sum;
 use std::ops::{Add, AddAssign};
 

@@ -11,8 +11,7 @@ use crate::stats::bootstrap::{Interval, bootstrap_loci_each, percentile_interval
 use crate::stats::gst::{
     DifferentiationIndices, DiversityEstimator, DiversityTotals, GeneDiversities, LocusSummary, indices,
 };
-use crate::stats::weir_cockerham::lanes::{LANES, PairLanes, pair_components};
-use crate::stats::weir_cockerham::{BiallelicSample, VarianceComponents, locus_components};
+use crate::stats::weir_cockerham::{BiallelicSample, VarianceComponents, biallelic_components, locus_components};
 
 /// Level of the bootstrap intervals.
 pub(super) const INTERVAL_LEVEL: f64 = 0.95;
@@ -319,19 +318,11 @@ impl BatchedStatistic<u32> for PairPermutation<'_> {
                     // Always `Some`: `new` chose this path by the same lookup.
                     let Some(packed) = self.packed.locus(*locus) else { continue };
                     packed.genotype_counts_many(&batch.sides[..replicates], &mut batch.side_counts);
-                    // Eight replicates at a time, each bit-for-bit `biallelic_components`.
-                    for (chunk, counts) in batch.side_counts.chunks(LANES).enumerate() {
-                        let mut pairs = PairLanes::default();
-                        for (l, &counts) in counts.iter().enumerate() {
-                            let side = BiallelicSample::from(counts);
-                            (pairs.first[l], pairs.second[l]) = (side, total.without(side));
-                        }
-                        for (l, components) in pair_components(&pairs).into_iter().enumerate().take(counts.len()) {
-                            if let Some(c) = components {
-                                let r = chunk * LANES + l;
-                                batch.sums[r] += c;
-                                batch.defined[r] = true;
-                            }
+                    for (r, &counts) in batch.side_counts.iter().enumerate() {
+                        let side = BiallelicSample::from(counts);
+                        if let Some(c) = biallelic_components(&[side, total.without(side)]) {
+                            batch.sums[r] += c;
+                            batch.defined[r] = true;
                         }
                     }
                 }
