@@ -36,6 +36,14 @@ pub struct MicrosatelliteModel {
     pub initial_spread: (u16, u16),
 }
 
+impl MicrosatelliteModel {
+    /// A model with these repeats, size range and starting spread, and no mutation rate yet (for
+    /// [`LocusSpec::microsatellite_panel`], which gives each locus its own).
+    pub fn shape(repeat_length: u16, size_range: (u16, u16), initial_spread: (u16, u16)) -> MicrosatelliteModel {
+        MicrosatelliteModel { mutation_rate: 0.0, repeat_length, size_range, initial_spread }
+    }
+}
+
 impl Default for MicrosatelliteModel {
     /// Tetranucleotide repeats from 140 to 260 bp, μ = 5·10⁻⁴, starting spread 2–6 repeats.
     fn default() -> Self {
@@ -74,6 +82,27 @@ impl LocusSpec {
         let width = count.to_string().len().max(2);
         (1..=count)
             .map(|number| LocusSpec { name: format!("{prefix}{number:0width$}"), model: model.clone() })
+            .collect()
+    }
+
+    /// A microsatellite panel: one locus per mutation rate in `rates`, named `prefix` plus a
+    /// two-digit number from 1 (`Tk01`, …); the first `first.0` loci take the repeat length,
+    /// size range and starting spread of `first.1`, the others those of `rest` (the templates'
+    /// own mutation rates are not used).
+    pub fn microsatellite_panel(
+        prefix: &str,
+        rates: &[f64],
+        first: (usize, MicrosatelliteModel),
+        rest: MicrosatelliteModel,
+    ) -> Vec<LocusSpec> {
+        rates
+            .iter()
+            .enumerate()
+            .map(|(index, &mutation_rate)| {
+                let template = if index < first.0 { &first.1 } else { &rest };
+                let model = MicrosatelliteModel { mutation_rate, ..template.clone() };
+                LocusSpec { name: format!("{prefix}{:02}", index + 1), model: MarkerModel::Microsatellite(model) }
+            })
             .collect()
     }
 
@@ -272,6 +301,30 @@ fn cumulative(weights: Vec<(u16, f64)>) -> Vec<(u16, f64)> {
 mod tests {
     use super::*;
     use crate::random::Stream;
+
+    /// A panel names its loci from 01 and gives each its own rate on the template of its part
+    /// (common practice: the definition, locus by locus).
+    #[test]
+    fn microsatellite_panel_names_loci_and_takes_each_rate() {
+        let panel = LocusSpec::microsatellite_panel(
+            "Ab",
+            &[1e-4, 2e-4, 3e-4],
+            (2, MicrosatelliteModel::shape(4, (140, 260), (2, 6))),
+            MicrosatelliteModel::shape(2, (96, 190), (3, 8)),
+        );
+        let names: Vec<&str> = panel.iter().map(|l| l.name.as_str()).collect();
+        assert_eq!(names, ["Ab01", "Ab02", "Ab03"]);
+        let expected = [(1e-4, 4, (140, 260), (2, 6)), (2e-4, 4, (140, 260), (2, 6)), (3e-4, 2, (96, 190), (3, 8))];
+        for (locus, (rate, repeat, range, spread)) in panel.iter().zip(expected) {
+            let model = MicrosatelliteModel {
+                mutation_rate: rate,
+                repeat_length: repeat,
+                size_range: range,
+                initial_spread: spread,
+            };
+            assert_eq!(locus.model, MarkerModel::Microsatellite(model), "{}", locus.name);
+        }
+    }
 
     fn microsatellite(spread: (u16, u16)) -> LocusSpec {
         LocusSpec {

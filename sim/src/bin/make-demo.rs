@@ -23,8 +23,8 @@ use std::path::Path;
 use std::process::ExitCode;
 
 use popgauge_sim::{
-    BurnIn, LocusSpec, MarkerModel, MicrosatelliteModel, MigrationRates, MigrationSchedule, PopulationIdx,
-    PopulationSpec, SampleRequest, SampleSet, SampledIndividual, Simulation, SimulationConfig, SizeSchedule, WideTable,
+    BurnIn, LocusSpec, MicrosatelliteModel, MigrationRates, MigrationSchedule, PopulationIdx, PopulationSpec,
+    SampleRequest, SampleSet, SampledIndividual, Simulation, SimulationConfig, SizeSchedule, WideTable,
 };
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -147,7 +147,10 @@ enum Fault {
 }
 
 fn main() -> ExitCode {
-    popgauge_sim::write_case_main("usage: make-demo DIR\n  writes genotypes.csv, populations.csv and truth.csv into DIR", run)
+    popgauge_sim::write_case_main(
+        "usage: make-demo DIR\n  writes genotypes.csv, populations.csv and truth.csv into DIR",
+        run,
+    )
 }
 
 fn run(dir: &Path) -> Result<String, Box<dyn Error>> {
@@ -204,18 +207,12 @@ fn scenario() -> SimulationConfig {
 /// Tk01–Tk10 tetranucleotide, Tk11–Tk15 dinucleotide, μ between 3·10⁻⁴ and 8·10⁻⁴.
 fn loci() -> Vec<LocusSpec> {
     const RATES: [f64; 15] = [5e-4, 4e-4, 6e-4, 5e-4, 3e-4, 7e-4, 5e-4, 4e-4, 6e-4, 5e-4, 8e-4, 5e-4, 6e-4, 4e-4, 5e-4];
-    RATES
-        .iter()
-        .enumerate()
-        .map(|(index, &mutation_rate)| {
-            let model = if index < 10 {
-                MicrosatelliteModel { mutation_rate, repeat_length: 4, size_range: (140, 260), initial_spread: (2, 6) }
-            } else {
-                MicrosatelliteModel { mutation_rate, repeat_length: 2, size_range: (96, 190), initial_spread: (3, 8) }
-            };
-            LocusSpec { name: format!("Tk{:02}", index + 1), model: MarkerModel::Microsatellite(model) }
-        })
-        .collect()
+    LocusSpec::microsatellite_panel(
+        "Tk",
+        &RATES,
+        (10, MicrosatelliteModel::shape(4, (140, 260), (2, 6))),
+        MicrosatelliteModel::shape(2, (96, 190), (3, 8)),
+    )
 }
 
 /// Brennmoor holds 120 adults until generation 42 (2002), then declines linearly to 40 in

@@ -11,8 +11,8 @@ use std::fs;
 use std::path::Path;
 
 use popgauge_sim::{
-    BurnIn, LocusSpec, MarkerModel, MicrosatelliteModel, MigrationRates, MigrationSchedule, PopulationSpec,
-    SimulationConfig, SizeSchedule, WideTable,
+    BurnIn, LocusSpec, MicrosatelliteModel, MigrationRates, MigrationSchedule, PopulationSpec, SimulationConfig,
+    SizeSchedule, WideTable,
 };
 
 use crate::{Scenario, Simulated, Site, population_sheet, simulate, untyped_share};
@@ -107,18 +107,12 @@ fn scenario() -> Scenario {
 /// Vq01–Vq10 tetranucleotide, Vq11–Vq15 dinucleotide, μ between 3·10⁻⁴ and 7·10⁻⁴.
 fn loci() -> Vec<LocusSpec> {
     const RATES: [f64; 15] = [5e-4, 4e-4, 6e-4, 3e-4, 5e-4, 7e-4, 4e-4, 5e-4, 6e-4, 5e-4, 4e-4, 6e-4, 5e-4, 7e-4, 5e-4];
-    RATES
-        .iter()
-        .enumerate()
-        .map(|(index, &mutation_rate)| {
-            let model = if index < 10 {
-                MicrosatelliteModel { mutation_rate, repeat_length: 4, size_range: (150, 270), initial_spread: (2, 5) }
-            } else {
-                MicrosatelliteModel { mutation_rate, repeat_length: 2, size_range: (100, 180), initial_spread: (3, 7) }
-            };
-            LocusSpec { name: format!("Vq{:02}", index + 1), model: MarkerModel::Microsatellite(model) }
-        })
-        .collect()
+    LocusSpec::microsatellite_panel(
+        "Vq",
+        &RATES,
+        (10, MicrosatelliteModel::shape(4, (150, 270), (2, 5))),
+        MicrosatelliteModel::shape(2, (100, 180), (3, 7)),
+    )
 }
 
 /// Orrin Reach holds 150 adults until generation 34, then declines linearly to 60 in
